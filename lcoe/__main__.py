@@ -1,0 +1,3 @@
+from lcoe.cli import main
+
+raise SystemExit(main())

@@ -1,0 +1,421 @@
+"""The vectorised yearly engine: energy, revenue, O&M, depreciation, tax and sculpted debt.
+
+Everything is an array shaped ``(trials, years)``; a deterministic case is one row.
+Column 0 is t = 0 (construction), columns 1..L the operating years. Money is
+nominal; costs are positive amounts, cash flows are signed (outflows negative).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from lcoe import costs, energy as en
+from lcoe.resource import Z_90, Z_99
+
+DEBT_TOLERANCE = 1e-12   # relative change of the debt size (to capex) that ends the sizing iteration
+DEBT_MAX_ITER = 200
+
+# Modified ACRS, general depreciation system, half-year convention: US IRS Publication 946, Table A-1.
+MACRS = {
+    "macrs_5": [20.00, 32.00, 19.20, 11.52, 11.52, 5.76],
+    "macrs_7": [14.29, 24.49, 17.49, 12.49, 8.93, 8.92, 8.93, 4.46],
+    "macrs_15": [5.00, 9.50, 8.55, 7.70, 6.93, 6.23, 5.90, 5.90, 5.91, 5.90, 5.91, 5.90, 5.91, 5.90, 5.91, 2.95],
+    "macrs_20": [3.750, 7.219, 6.677, 6.177, 5.713, 5.285, 4.888, 4.522, 4.462, 4.461, 4.462, 4.461, 4.462,
+                 4.461, 4.462, 4.461, 4.462, 4.461, 4.462, 4.461, 2.231],
+}
+
+SPEED_KEYS = ("wind.mean_speed_mps", "wind.weibull_scale_mps")
+
+
+def depreciation_shares(method: str, years: int, lifetime: int) -> np.ndarray:
+    """Share of the depreciable base written off in each operating year t = 1..L.
+
+    ``straight_line``: 1/N a year. ``declining_balance``: twice the straight-line rate
+    on the remaining book value, switching to straight line over the remaining years
+    when that is larger. ``macrs_*``: US IRS Publication 946, Table A-1 (half-year
+    convention). Whatever is left at the end of the life is written off in year L,
+    so the shares always sum to one.
+    """
+    if method == "straight_line":
+        shares = np.full(years, 1.0 / years)
+    elif method == "declining_balance":
+        shares = np.empty(years)
+        book = 1.0
+        for t in range(years):
+            dep = max(book * 2.0 / years, book / (years - t))
+            dep = min(dep, book)
+            shares[t] = dep
+            book -= dep
+    else:
+        shares = np.asarray(MACRS[method], float) / 100.0
+    out = np.zeros(lifetime)
+    k = min(lifetime, shares.size)
+    out[:k] = shares[:k]
+    out[lifetime - 1] += 1.0 - out.sum()
+    return out
+
+
+def tax_with_carryforward(taxable, rate):
+    """Cash tax with losses carried forward without limit, never negative.
+
+    The income taxed in year t is the rise of the running maximum of cumulative
+    taxable income (starting from zero): a loss builds a pool that later profits
+    use up before any tax is due.
+    """
+    cum = np.cumsum(taxable, axis=-1)
+    peak = np.maximum.accumulate(np.maximum(cum, 0.0), axis=-1)
+    taxed = np.diff(peak, axis=-1, prepend=0.0)
+    return rate * taxed
+
+
+@dataclass(frozen=True)
+class Schedule:
+    """A debt schedule fixed at financial close; arrays over t = 1..L."""
+
+    debt: np.ndarray          # (n, 1)
+    debt_service: np.ndarray  # (n, L)
+    interest: np.ndarray
+    principal: np.ndarray
+    balance_open: np.ndarray
+    fee: np.ndarray           # (n, 1)
+    sizing_cfads: np.ndarray  # (n, L), CFADS of the sizing case at close
+    iterations: int
+    gearing_bound: np.ndarray  # (n, 1) bool
+
+    def row(self, i: int) -> "Schedule":
+        pick = lambda a: a[i:i + 1] if np.ndim(a) == 2 and a.shape[0] > 1 else a  # noqa: E731
+        return Schedule(pick(self.debt), pick(self.debt_service), pick(self.interest), pick(self.principal),
+                        pick(self.balance_open), pick(self.fee), pick(self.sizing_cfads), self.iterations,
+                        pick(self.gearing_bound))
+
+
+def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
+    """Debt service sculpted to CFADS / target over the tenor, and the debt it carries.
+
+    Returns (debt_service, debt, gearing_bound). The debt is the present value of
+    debt service at the interest rate, capped at ``cap``; where the cap binds the
+    debt service is scaled down in proportion.
+    """
+    years = np.arange(1, cfads.shape[-1] + 1)
+    disc = (1.0 + rate) ** -years
+    ds = np.maximum(cfads, 0.0) / target_dscr * tenor_mask
+    pv = (ds * disc).sum(axis=-1, keepdims=True)
+    bound = pv > cap
+    scale = np.where(bound, cap / np.where(pv > 0, pv, 1.0), 1.0)
+    return ds * scale, np.minimum(pv, cap), bound
+
+
+def amortise(debt_service, rate):
+    """Opening balance, interest and principal of a schedule whose PV at ``rate`` is the debt."""
+    L = debt_service.shape[-1]
+    years = np.arange(1, L + 1)
+    disc = (1.0 + rate) ** -years
+    pv_from = np.cumsum((debt_service * disc)[..., ::-1], axis=-1)[..., ::-1]
+    opening = pv_from * (1.0 + rate) ** (years - 1)
+    interest = opening * rate
+    return opening, interest, debt_service - interest
+
+
+@dataclass
+class Flows:
+    """Yearly lines of one batch, each (n, L + 1) with column 0 = t = 0, plus per-row values."""
+
+    years: np.ndarray
+    energy_mwh: np.ndarray
+    availability: np.ndarray
+    price_per_mwh: np.ndarray
+    revenue: np.ndarray
+    opex: np.ndarray
+    capex: np.ndarray
+    decommissioning: np.ndarray
+    depreciation: np.ndarray
+    interest: np.ndarray
+    principal: np.ndarray
+    balance: np.ndarray
+    tax: np.ndarray
+    tax_unlevered: np.ndarray
+    cfads: np.ndarray
+    debt_service: np.ndarray
+    dscr: np.ndarray
+    project_cash_flow: np.ndarray
+    equity_cash_flow: np.ndarray
+    capex_total: np.ndarray        # (n, 1)
+    debt: np.ndarray               # (n, 1)
+    fee: np.ndarray                # (n, 1)
+    gross_aep_mwh: np.ndarray      # (n, 1)
+    net_aep_p50_mwh: np.ndarray    # (n, 1)
+    case_factors: dict = field(default_factory=dict)  # name -> (n, 1) P_case / P50
+    schedule: Schedule | None = None
+    warnings: list = field(default_factory=list)
+
+
+class Inputs:
+    """Scenario values with per-row overrides: ``inp(key, default)`` gives a float or an (n, 1) array."""
+
+    def __init__(self, scn, overrides: dict | None = None):
+        self.scn = scn
+        self.over = {}
+        n = 1
+        for k, v in (overrides or {}).items():
+            a = np.asarray(v, float).reshape(-1, 1)
+            self.over[k] = a
+            n = max(n, a.shape[0])
+        self.n = n
+
+    def __call__(self, key: str, default):
+        return self.over.get(key, default)
+
+    def has(self, key: str) -> bool:
+        return key in self.over
+
+
+@dataclass(frozen=True)
+class Sample:
+    """What Monte Carlo draws per trial; None fields mean the expected (deterministic) value."""
+
+    speed_factor: np.ndarray | None = None    # (n, L) hub-speed factor per trial and year
+    energy_factor: np.ndarray | None = None   # (n, 1)
+    downtime: np.ndarray | None = None        # (n, L) fraction of the year lost to failures
+    failure_cost: np.ndarray | None = None    # (n, L) year-0 money
+
+
+def _gross(scn, inp: Inputs, site: en.Site):
+    """Gross AEP per row (n, 1) and the speed factor of overridden speed keys."""
+    factor = 1.0
+    for key in SPEED_KEYS:
+        if inp.has(key):
+            base = getattr(scn.wind, key.split(".")[1])
+            factor = inp.over[key] / base
+    others = [k for k in inp.over if (k.startswith("wind.") or k.startswith("turbine.")) and k not in SPEED_KEYS]
+    if not others:
+        return site.gross_aep_mwh, site, factor, site.speed_sensitivity
+    # other climate or turbine keys change the curve or the distribution: integrate each distinct row
+    others += [k for k in SPEED_KEYS if inp.has(k)]
+    factor = 1.0
+    stack = np.hstack([np.broadcast_to(inp.over[k], (inp.n, 1)) for k in others])
+    uniq, inverse = np.unique(stack, axis=0, return_inverse=True)
+    gross = np.empty((uniq.shape[0], 1))
+    sens = np.empty((uniq.shape[0], 1))
+    sites = []
+    for j, row in enumerate(uniq):
+        s = en.site_for(scn.with_overrides({k: _typed(scn, k, v) for k, v in zip(others, row)}))
+        gross[j, 0] = s.gross_aep_mwh
+        sens[j, 0] = s.speed_sensitivity
+        sites.append(s)
+    inverse = np.asarray(inverse).ravel()
+    return gross[inverse], sites, factor, sens[inverse]
+
+
+def _typed(scn, key, value):
+    """A row value in the type its field takes (integers stay integers)."""
+    node = scn
+    for part in key.split(".")[:-1]:
+        node = getattr(node, part)
+    field_info = type(node).model_fields[key.split(".")[-1]]
+    ann = str(field_info.annotation)
+    return int(round(value)) if "int" in ann and "float" not in ann else float(value)
+
+
+def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
+             schedule: Schedule | None = None) -> Flows:
+    """Run the yearly engine for a batch of rows.
+
+    ``overrides`` maps dotted keys to one value per row; ``sample`` carries Monte Carlo
+    draws; ``schedule`` is a debt schedule fixed at close (None: size the debt here,
+    per row, on the sizing case).
+    """
+    inp = Inputs(scn, overrides)
+    L = scn.lifetime
+    n_turb = scn.project.turbines
+    years = np.arange(1, L + 1)
+    warnings: list[str] = []
+    site = en.site_for(scn)
+    gross, _sites, speed_factor, sens = _gross(scn, inp, site)
+    if sample is not None and sample.speed_factor is not None:
+        speed_factor = speed_factor * sample.speed_factor
+    if np.ndim(speed_factor) == 0 and speed_factor == 1.0:
+        gross_t = gross
+    elif isinstance(_sites, list):
+        gross_t = gross * np.interp(speed_factor, site.factors, site.aep_ratios)
+    else:
+        gross_t = gross * site.ratio_at_factor(speed_factor)
+
+    # ---- energy (t = 1..L)
+    lf = 1.0
+    for name in ("wake", "electrical", "turbine_performance", "environmental", "curtailment", "other"):
+        lf = lf * (1.0 - inp(f"losses.{name}", getattr(scn.losses, name)))
+    o = scn.operations
+    mature = inp("operations.availability_mature", o.availability_mature)
+    first = inp("operations.availability_first_year",
+                mature if o.availability_first_year is None else o.availability_first_year)
+    avail = en.availability_profile(years, first, mature, inp("operations.ageing_starts_year", o.ageing_starts_year),
+                                    inp("operations.availability_ageing_per_year", o.availability_ageing_per_year))
+    comps = scn.maintenance.component
+    rates = [inp(f"maintenance.component.{c.name}.failure_rate_per_turbine_year", c.failure_rate_per_turbine_year)
+             for c in comps]
+    repl = [inp(f"maintenance.component.{c.name}.replacement_cost", c.replacement_cost) for c in comps]
+    down = [inp(f"maintenance.component.{c.name}.downtime_days", c.downtime_days) for c in comps]
+    if sample is not None and sample.downtime is not None:
+        downtime = sample.downtime
+    else:
+        downtime = sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0
+    degr = en.degradation_factor(years, inp("operations.degradation_per_year", o.degradation_per_year))
+    energy_t = gross_t * lf * avail * (1.0 - downtime) * degr
+    if sample is not None and sample.energy_factor is not None:
+        energy_t = energy_t * sample.energy_factor
+    energy_t = np.broadcast_to(energy_t, (inp.n, L)) if np.ndim(energy_t) < 2 or energy_t.shape[0] < inp.n \
+        else energy_t
+    p50 = gross * lf * mature * (1.0 - (sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0))
+
+    # ---- P-case factors (for debt sizing): sigma from the sensitivity and the uncertainty terms
+    u = scn.uncertainty
+    iav = inp("uncertainty.interannual_speed_sd", u.interannual_speed_sd)
+    sp2 = sum(inp(f"uncertainty.speed.{x.name}.sd", x.sd) ** 2 for x in u.speed) if u.speed else 0.0
+    en2 = sum(inp(f"uncertainty.energy.{x.name}.sd", x.sd) ** 2 for x in u.energy) if u.energy else 0.0
+    s = np.where(np.isfinite(sens), sens, 0.0)
+    sig1 = np.sqrt((s * iav) ** 2 + s ** 2 * sp2 + en2)
+    sig10 = np.sqrt((s * iav) ** 2 / 10.0 + s ** 2 * sp2 + en2)
+    factors = {"p50": np.ones((1, 1)) if np.ndim(sig1) == 0 else np.ones_like(sig1),
+               "p90_1yr": np.maximum(0.0, 1.0 - Z_90 * sig1), "p90_10yr": np.maximum(0.0, 1.0 - Z_90 * sig10),
+               "p99_1yr": np.maximum(0.0, 1.0 - Z_99 * sig1)}
+
+    # ---- prices and revenue
+    r = scn.revenue
+    term = inp("revenue.ppa_term_years", scn.ppa_term_years)
+    ppa = inp("revenue.ppa_price_per_mwh", r.ppa_price_per_mwh) * costs.escalation_index(
+        inp("revenue.ppa_escalation", r.ppa_escalation), years)
+    merchant = inp("revenue.merchant_price_per_mwh", scn.merchant_price_per_mwh) * costs.escalation_index(
+        inp("revenue.merchant_escalation", r.merchant_escalation), years)
+    price = np.where(years <= term, ppa, merchant)
+    credit = np.where(years <= inp("revenue.production_credit_years", r.production_credit_years),
+                      inp("revenue.production_credit_per_mwh", r.production_credit_per_mwh), 0.0)
+
+    # ---- costs
+    m, c = scn.maintenance, scn.capex
+    rated = inp("turbine.rated_power_kw", scn.turbine.rated_power_kw)
+    plant_kw = rated * n_turb
+    esc = inp("maintenance.escalation", scn.escalation)
+    capex = costs.capex_total(inp("capex.turbine_per_kw", c.turbine_per_kw),
+                              inp("capex.balance_of_plant_per_kw", c.balance_of_plant_per_kw),
+                              inp("capex.grid_connection", c.grid_connection),
+                              inp("capex.development", c.development),
+                              inp("capex.contingency", c.contingency), plant_kw)
+    capex = np.broadcast_to(np.asarray(capex, float).reshape(-1, 1) if np.ndim(capex) else np.full((1, 1), capex),
+                            (inp.n, 1))
+    if sample is not None and sample.failure_cost is not None:
+        fail = sample.failure_cost
+    else:
+        fail = costs.expected_failure_cost(rates, repl, n_turb) if comps else 0.0
+    ohs = m.overhaul
+    overhaul = costs.overhaul_costs([inp(f"maintenance.overhaul.{x.name}.year", x.year) for x in ohs],
+                                    [inp(f"maintenance.overhaul.{x.name}.cost_per_turbine", x.cost_per_turbine)
+                                     for x in ohs], n_turb, years) if ohs else 0.0
+    fixed = inp("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
+    insurance = inp("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)
+    variable = inp("maintenance.variable_per_mwh", m.variable_per_mwh)
+    lease = inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue)
+    esc_index = costs.escalation_index(esc, years)
+    decom = costs.decommissioning_net(inp("capex.decommissioning_per_kw", c.decommissioning_per_kw),
+                                      inp("capex.salvage_per_kw", c.salvage_per_kw), plant_kw, esc, L)
+    decom_t = np.where(years == L, decom, 0.0)
+    fixed_real = (fixed + insurance) * plant_kw + fail + overhaul
+
+    def operating(e):
+        rev = e * (price + credit)
+        om = (fixed_real + variable * e) * esc_index + lease * rev
+        return rev, om
+
+    revenue, om = operating(energy_t)
+
+    # ---- depreciation and tax
+    f = scn.finance
+    tax_rate = inp("finance.tax_rate", f.tax_rate)
+    dep_years = inp("finance.depreciation_years", f.depreciation_years)
+    if np.ndim(dep_years) == 0:
+        shares = depreciation_shares(f.depreciation, int(dep_years), L)
+    else:
+        shares = np.vstack([depreciation_shares(f.depreciation, int(round(y)), L) for y in dep_years.ravel()])
+    dep = capex * shares
+    pre_tax = revenue - om - decom_t
+    tax_u = tax_with_carryforward(pre_tax - dep, tax_rate)
+    project_ops = pre_tax - tax_u
+
+    # ---- debt
+    debt_terms = f.debt
+    if debt_terms is None:
+        zeros = np.zeros((inp.n, L))
+        sched = Schedule(np.zeros((inp.n, 1)), zeros, zeros, zeros, zeros, np.zeros((inp.n, 1)), zeros, 0,
+                         np.zeros((inp.n, 1), bool))
+    elif schedule is not None:
+        sched = schedule
+    else:
+        sched = size_debt(operating, energy_t, factors[debt_terms.sizing_case], decom_t, dep, capex, tax_rate,
+                          inp("finance.debt.target_dscr", debt_terms.target_dscr),
+                          inp("finance.debt.max_gearing", debt_terms.max_gearing),
+                          inp("finance.debt.tenor_years", debt_terms.tenor_years),
+                          inp("finance.debt.interest_rate", debt_terms.interest_rate),
+                          inp("finance.debt.upfront_fee", debt_terms.upfront_fee), years)
+        if np.any(sched.debt <= 0):
+            warnings.append("debt cannot be sized: the sizing-case CFADS is not positive over the tenor; "
+                            "debt set to zero")
+    tax = tax_with_carryforward(pre_tax - dep - sched.interest, tax_rate)
+    cfads = pre_tax - tax
+    ds = sched.debt_service
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dscr = np.where(ds > 0, cfads / np.where(ds > 0, ds, 1.0), np.nan)
+
+    def with_t0(a, t0=0.0):
+        a = np.broadcast_to(a, (inp.n, L))
+        out = np.empty((inp.n, L + 1))
+        out[:, 0] = t0 if np.ndim(t0) == 0 else np.asarray(t0).ravel()
+        out[:, 1:] = a
+        return out
+
+    capex_row = capex.ravel()
+    equity0 = -(capex + sched.fee - sched.debt).ravel()
+    balance_close = sched.balance_open + sched.interest - ds
+    return Flows(
+        years=np.arange(0, L + 1), energy_mwh=with_t0(energy_t), availability=with_t0(avail),
+        price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=with_t0(om),
+        capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t), depreciation=with_t0(dep),
+        interest=with_t0(sched.interest), principal=with_t0(sched.principal),
+        balance=with_t0(balance_close, sched.debt.ravel()), tax=with_t0(tax), tax_unlevered=with_t0(tax_u),
+        cfads=with_t0(cfads), debt_service=with_t0(ds), dscr=with_t0(dscr, np.nan),
+        project_cash_flow=with_t0(project_ops, -capex_row), equity_cash_flow=with_t0(cfads - ds, equity0),
+        capex_total=np.asarray(capex).reshape(-1, 1), debt=np.asarray(sched.debt).reshape(-1, 1),
+        fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(gross, (inp.n, 1)),
+        net_aep_p50_mwh=np.broadcast_to(p50, (inp.n, 1)),
+        case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in factors.items()},
+        schedule=sched, warnings=warnings)
+
+
+def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, target_dscr, max_gearing,
+              tenor_years, interest_rate, upfront_fee, years) -> Schedule:
+    """Size sculpted debt on the sizing case (energy scaled by P_case / P50).
+
+    DS_t = CFADS_t / target_dscr over the tenor; debt = min(PV of DS at the interest
+    rate, max_gearing * capex). Interest lowers tax, which raises CFADS and the debt:
+    the loop repeats until the debt changes by less than DEBT_TOLERANCE * capex.
+    """
+    rev_s, om_s = operating(energy_t * case_factor)
+    pre_tax = rev_s - om_s - decom_t
+    mask = (years <= tenor_years).astype(float)
+    cap = max_gearing * capex
+    interest = np.zeros_like(pre_tax)
+    debt_prev = np.full(np.shape(capex), -1.0)
+    tol = DEBT_TOLERANCE * np.maximum(np.abs(capex), 1.0)
+    for it in range(1, DEBT_MAX_ITER + 1):
+        tax = tax_with_carryforward(pre_tax - dep - interest, tax_rate)
+        cfads = pre_tax - tax
+        ds, debt, bound = sculpt(cfads, target_dscr, mask, interest_rate, cap)
+        opening, interest, principal = amortise(ds, interest_rate)
+        if np.all(np.abs(debt - debt_prev) <= tol):
+            break
+        debt_prev = debt
+    debt = np.asarray(debt).reshape(-1, 1)
+    fee = upfront_fee * debt
+    return Schedule(debt, ds, interest, principal, opening, np.asarray(fee).reshape(-1, 1), cfads, it,
+                    np.asarray(bound).reshape(-1, 1))

@@ -1,0 +1,335 @@
+"""Gross to net energy: the Weibull integral or a series, losses, availability, degradation, P-values."""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from lcoe import resource
+from lcoe.errors import ScenarioError
+from lcoe.resource import Z_90, Z_99
+from lcoe.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
+
+HOURS_PER_YEAR = 8760.0
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(10)
+# speed-factor grid of the tabulated AEP(scale factor); 1.0 is a node, so the base case is exact
+_FACTORS = np.round(np.arange(0.10, 2.50 + 1e-9, 0.0025), 6)
+
+
+# --------------------------------------------------------------------------- the Weibull integral
+
+def _quadrature_nodes(breaks: np.ndarray, max_step: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss-Legendre nodes and weights on each piece between curve breakpoints."""
+    b = np.unique(np.asarray(breaks, float))
+    edges = [b[0]]
+    for lo, hi in zip(b[:-1], b[1:]):
+        pieces = max(1, int(math.ceil((hi - lo) / max_step)))
+        edges.extend(np.linspace(lo, hi, pieces + 1)[1:])
+    e = np.asarray(edges)
+    lo, hi = e[:-1, None], e[1:, None]
+    half = (hi - lo) / 2.0
+    nodes = (lo + hi) / 2.0 + half * _GL_X[None, :]
+    weights = half * _GL_W[None, :]
+    return nodes.ravel(), weights.ravel()
+
+
+def mean_power_weibull_kw(curve: SiteCurve, scale_mps, shape) -> np.ndarray:
+    """Mean power of one turbine, integral of P(v) f(v) dv over a Weibull climate. [kW]
+
+    The curve is smooth between its breakpoints (table points, the rated-power kink,
+    cut-in and cut-out), so the integral is taken piecewise with 10-point
+    Gauss-Legendre quadrature on pieces of at most 0.5 m/s: exact for the
+    piecewise-linear or cubic curve to far better than 0.01 %.
+    ``scale_mps`` may be an array; the result has its shape.
+    """
+    nodes, weights = _quadrature_nodes(curve.breaks_mps)
+    p = curve.power_kw(nodes) * weights
+    a = np.asarray(scale_mps, float)
+    pdf = resource.weibull_pdf(nodes[None, :], a.reshape(-1, 1), shape)
+    return (pdf @ p).reshape(a.shape)
+
+
+def aep_weibull_mwh(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarray:
+    """Gross AEP = turbines * 8760 h * integral P(v) f(v) dv. [MWh/yr]"""
+    return turbines * HOURS_PER_YEAR * mean_power_weibull_kw(curve, scale_mps, shape) / 1000.0
+
+
+# --------------------------------------------------------------------------- the site
+
+@dataclass(frozen=True)
+class Climate:
+    """The wind at hub height and the site's air density."""
+
+    kind: str                       # "weibull" | "series"
+    density_kgm3: float
+    scale_mps: float
+    shape: float
+    mean_speed_mps: float
+    speeds_mps: np.ndarray | None = None      # series: hub-height speeds
+    densities_kgm3: np.ndarray | None = None  # series: hourly densities (or None: site density)
+    warnings: tuple[str, ...] = field(default=())
+
+
+@dataclass(frozen=True)
+class Site:
+    """Climate, curves and the gross-energy answers that do not change between trials."""
+
+    climate: Climate
+    curve: PowerCurve
+    site_curve: SiteCurve
+    turbines: int
+    gross_aep_mwh: float
+    speed_sensitivity: float
+    factors: np.ndarray       # speed-scale factors
+    aep_ratios: np.ndarray    # AEP(f) / AEP(1)
+
+    def gross_at_factor(self, factor) -> np.ndarray:
+        """Gross AEP with every hub-height speed scaled by ``factor`` (interpolated table). [MWh/yr]"""
+        return self.gross_aep_mwh * self.ratio_at_factor(factor)
+
+    def ratio_at_factor(self, factor) -> np.ndarray:
+        f = np.asarray(factor, float)
+        out = np.interp(f, self.factors, self.aep_ratios)
+        if np.any((f < self.factors[0]) | (f > self.factors[-1])):
+            out = np.where((f < self.factors[0]) | (f > self.factors[-1]), self._direct_ratio(f), out)
+        return out
+
+    def _direct_ratio(self, f: np.ndarray) -> np.ndarray:
+        flat = np.clip(f.ravel(), 0.0, None)
+        return (self.aep_direct(flat) / self.gross_aep_mwh).reshape(f.shape)
+
+    def aep_direct(self, factor) -> np.ndarray:
+        """Gross AEP by direct integration (or series mean) at speed factors. [MWh/yr]"""
+        f = np.atleast_1d(np.asarray(factor, float))
+        c = self.climate
+        if c.kind == "weibull":
+            return aep_weibull_mwh(self.site_curve, c.scale_mps * f, c.shape, self.turbines)
+        rho = c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3
+        out = np.empty(f.shape)
+        for i, fi in enumerate(f):
+            out[i] = self.curve.power_kw_at(c.speeds_mps * fi, rho).mean()
+        return self.turbines * HOURS_PER_YEAR * out / 1000.0
+
+
+def climate_from(scn) -> Climate:
+    w, t = scn.wind, scn.turbine
+    shear = resource.shear_factor(t.hub_height_m, w.height_m, w.alpha, w.roughness_length_m)
+    if w.air_density_kgm3 is not None:
+        rho = float(w.air_density_kgm3)
+    else:
+        rho = float(resource.air_density(w.elevation_m, w.mean_temperature_c))
+    if w.timeseries is None:
+        k = float(w.weibull_shape)
+        a_ref = w.weibull_scale_mps if w.weibull_scale_mps is not None else \
+            float(resource.weibull_scale_from_mean(w.mean_speed_mps, k))
+        a = a_ref * shear
+        return Climate("weibull", rho, a, k, float(resource.weibull_mean(a, k)))
+    series = resource.load_series(scn.resolve(w.timeseries), max_missing_share=w.max_missing_share)
+    v = series.speed_mps * shear
+    dens = None
+    if series.temperature_c is not None and w.air_density_kgm3 is None:
+        dens = resource.air_density(w.elevation_m, series.temperature_c)
+        rho = float(dens.mean())
+    warns = list(series.warnings)
+    try:
+        k, a = resource.fit_weibull(v)
+    except ScenarioError:
+        k, a = float("nan"), float("nan")
+        warns.append("too few positive speeds in the series to fit a Weibull distribution")
+    return Climate("series", rho, a, k, float(v.mean()), speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns))
+
+
+def curve_from(scn) -> PowerCurve:
+    t = scn.turbine
+    if t.power_curve is not None:
+        return read_curve_csv(scn.resolve(t.power_curve), t.rated_power_kw, t.rotor_diameter_m,
+                              reference_density_kgm3=t.curve_air_density_kgm3, regulation=t.regulation)
+    return physics_curve(t.rated_power_kw, t.rotor_diameter_m, t.cp_max,
+                         3.0 if t.cut_in_mps is None else t.cut_in_mps,
+                         25.0 if t.cut_out_mps is None else t.cut_out_mps,
+                         1.0 if t.drivetrain_efficiency is None else t.drivetrain_efficiency)
+
+
+def _site_key(scn) -> str:
+    """A key for what the gross energy depends on: wind and turbine sections and file contents."""
+    h = hashlib.sha256()
+    h.update(scn.wind.model_dump_json().encode())
+    h.update(scn.turbine.model_dump_json().encode())
+    h.update(str(scn.project.turbines).encode())
+    for rel in (scn.wind.timeseries, scn.turbine.power_curve):
+        if rel is not None:
+            p = scn.resolve(rel)
+            h.update(str(p.resolve()).encode())
+            try:
+                st = p.stat()
+                h.update(f"{st.st_mtime_ns}:{st.st_size}".encode())
+            except OSError:
+                h.update(b"missing")
+    return h.hexdigest()
+
+
+def site_for(scn) -> Site:
+    """The :class:`Site` of a scenario, cached on what the gross energy depends on."""
+    key = _site_key(scn)
+    try:
+        return _SITE_CACHE[key]
+    except KeyError:
+        pass
+    site = _build_site(scn)
+    if len(_SITE_CACHE) > 64:
+        _SITE_CACHE.clear()
+    _SITE_CACHE[key] = site
+    return site
+
+
+_SITE_CACHE: dict[str, Site] = {}
+
+
+def _build_site(scn) -> Site:
+    climate = climate_from(scn)
+    curve = curve_from(scn)
+    site_curve = curve.at_density(climate.density_kgm3)
+    n = scn.project.turbines
+    probe = Site(climate, curve, site_curve, n, 1.0, float("nan"), np.array([1.0]), np.array([1.0]))
+    gross = float(probe.aep_direct(1.0)[0])
+    if climate.kind == "weibull":
+        ratios = aep_weibull_mwh(site_curve, climate.scale_mps * _FACTORS, climate.shape, n)
+        factors = _FACTORS
+    else:
+        factors = np.round(np.arange(0.10, 2.50 + 1e-9, 0.01), 6)
+        ratios = probe.aep_direct(factors)
+    if gross > 0:
+        ratios = ratios / gross
+        ratios[np.isclose(factors, 1.0, rtol=0, atol=1e-12)] = 1.0
+        lo, hi = probe.aep_direct(np.array([0.99, 1.01]))
+        sens = math.log(hi / lo) / math.log(1.01 / 0.99) if lo > 0 and hi > 0 else float("nan")
+    else:
+        ratios = np.ones_like(factors)
+        sens = float("nan")
+    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios)
+
+
+# --------------------------------------------------------------------------- net energy
+
+def loss_factor(losses) -> float:
+    """prod(1 - loss_k) over the loss categories, applied multiplicatively. [-]"""
+    return losses.factor()
+
+
+def component_downtime_fraction(components) -> float:
+    """Expected downtime D = sum(rate * downtime_days / 365). [-]"""
+    return float(sum(c.failure_rate_per_turbine_year * c.downtime_days / 365.0 for c in components))
+
+
+def availability_profile(years, first, mature, ageing_starts_year, ageing_per_year):
+    """Availability of each operating year t = 1..L. [-]
+
+    Year 1 is ``first``; later years ``mature``, less ``ageing_per_year`` per year
+    after ``ageing_starts_year`` (absolute), never below zero. Inputs broadcast.
+    """
+    t = np.asarray(years, float)
+    base = np.where(t <= 1, first, mature)
+    age = np.where(t > ageing_starts_year, ageing_per_year * (t - ageing_starts_year), 0.0)
+    return np.clip(base - age, 0.0, 1.0)
+
+
+def degradation_factor(years, degradation_per_year):
+    """(1 - degradation)^(t - 1): compounding performance decline. [-]"""
+    return (1.0 - np.asarray(degradation_per_year, float)) ** (np.asarray(years, float) - 1.0)
+
+
+def sigma_total(sensitivity, interannual_speed_sd, speed_sds, energy_sds, years=1):
+    """Relative sd of the N-year mean net energy. [-]
+
+    sigma_N = sqrt((S sigma_iav)^2 / N + sum (S sigma_speed)^2 + sum sigma_energy^2).
+
+    References
+    ----------
+    Combination of independent uncertainties in quadrature: common practice in
+    energy-yield assessment (the inter-annual term shrinks with 1/N).
+    """
+    s = sensitivity
+    other = sum((s * x) ** 2 for x in speed_sds) + sum(x ** 2 for x in energy_sds)
+    return math.sqrt((s * interannual_speed_sd) ** 2 / years + other)
+
+
+def exceedance(p50, sigma, z):
+    """P_x = P50 (1 - z_x sigma), floored at zero. z_90 = 1.2815516, z_99 = 2.3263479."""
+    return max(0.0, p50 * (1.0 - z * sigma))
+
+
+@dataclass(frozen=True)
+class EnergyResult:
+    """Energy answers for one scenario (deterministic)."""
+
+    air_density_kgm3: float
+    hub_mean_speed_mps: float
+    weibull_scale_mps: float
+    weibull_shape: float
+    gross_aep_mwh: float
+    loss_factor: float
+    downtime_fraction: float
+    net_aep_p50_mwh: float
+    net_aep_p90_1yr_mwh: float
+    net_aep_p90_10yr_mwh: float
+    net_aep_p99_1yr_mwh: float
+    net_capacity_factor: float
+    speed_sensitivity: float
+    sigma_1yr: float
+    sigma_10yr: float
+    availability: np.ndarray       # t = 1..L
+    energy_mwh: np.ndarray         # t = 1..L
+    warnings: tuple[str, ...]
+
+    def case_factor(self, case: str) -> float:
+        """P_case / P50 for a debt sizing case (p50, p90_1yr, p90_10yr, p99_1yr)."""
+        if self.net_aep_p50_mwh <= 0:
+            return 1.0
+        value = {"p50": self.net_aep_p50_mwh, "p90_1yr": self.net_aep_p90_1yr_mwh,
+                 "p90_10yr": self.net_aep_p90_10yr_mwh, "p99_1yr": self.net_aep_p99_1yr_mwh}[case]
+        return value / self.net_aep_p50_mwh
+
+    def report(self) -> dict:
+        keys = ["air_density_kgm3", "hub_mean_speed_mps", "gross_aep_mwh", "net_aep_p50_mwh",
+                "net_aep_p90_1yr_mwh", "net_aep_p90_10yr_mwh", "net_aep_p99_1yr_mwh", "net_capacity_factor",
+                "speed_sensitivity", "sigma_1yr", "sigma_10yr", "weibull_scale_mps", "weibull_shape",
+                "loss_factor", "downtime_fraction"]
+        return {k: float(getattr(self, k)) for k in keys}
+
+
+def energy_of(scn) -> EnergyResult:
+    """Gross and net energy, the yearly profile and the P-values of a scenario."""
+    site = site_for(scn)
+    c = site.climate
+    lf = loss_factor(scn.losses)
+    d = component_downtime_fraction(scn.maintenance.component)
+    o = scn.operations
+    years = np.arange(1, scn.lifetime + 1)
+    avail = availability_profile(years, scn.availability_first_year, o.availability_mature,
+                                 o.ageing_starts_year, o.availability_ageing_per_year)
+    gross = site.gross_aep_mwh
+    energy = gross * lf * avail * (1.0 - d) * degradation_factor(years, o.degradation_per_year)
+    p50 = gross * lf * o.availability_mature * (1.0 - d)
+    u = scn.uncertainty
+    s = site.speed_sensitivity if math.isfinite(site.speed_sensitivity) else 0.0
+    speed_sds = [x.sd for x in u.speed]
+    energy_sds = [x.sd for x in u.energy]
+    s1 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 1)
+    s10 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 10)
+    warns = list(c.warnings)
+    if d >= 1.0:
+        raise ScenarioError("the expected component downtime sum(rate * downtime_days / 365) reaches 100 %",
+                            key="maintenance.component", has_value=False)
+    if gross <= 0:
+        warns.append("gross AEP is zero: the power curve produces nothing in this wind climate")
+    cf = p50 / (scn.plant_kw * HOURS_PER_YEAR / 1000.0)
+    return EnergyResult(
+        air_density_kgm3=c.density_kgm3, hub_mean_speed_mps=c.mean_speed_mps, weibull_scale_mps=c.scale_mps,
+        weibull_shape=c.shape, gross_aep_mwh=gross, loss_factor=lf, downtime_fraction=d,
+        net_aep_p50_mwh=p50, net_aep_p90_1yr_mwh=exceedance(p50, s1, Z_90),
+        net_aep_p90_10yr_mwh=exceedance(p50, s10, Z_90), net_aep_p99_1yr_mwh=exceedance(p50, s1, Z_99),
+        net_capacity_factor=cf, speed_sensitivity=site.speed_sensitivity, sigma_1yr=s1, sigma_10yr=s10,
+        availability=avail, energy_mwh=energy, warnings=tuple(warns))

@@ -1,0 +1,160 @@
+"""LCOE, NPV, IRR (vectorised), DSCR, LLCR and payback over batches of cash flows.
+
+Sign convention as in numpy-financial: outflows negative, flows at the end of each
+period, the first value at t = 0 (not discounted).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+IRR_LOW, IRR_HIGH = -0.99, 10.0
+
+
+def discount_factors(rate, periods: int):
+    """(1 + r)^-t for t = 0..periods-1; ``rate`` may be an (n, 1) array. [-]"""
+    return (1.0 + np.asarray(rate, float)) ** -np.arange(periods)
+
+
+def npv(rate, values):
+    """Net present value with the first value at t = 0 (numpy-financial's convention)."""
+    v = np.asarray(values, float)
+    return (v * discount_factors(rate, v.shape[-1])).sum(axis=-1)
+
+
+def _horner(c, x):
+    """f(x) = sum c_t x^t and f'(x) for rows of coefficients, by Horner's rule."""
+    f = np.zeros(x.shape)
+    d = np.zeros(x.shape)
+    for k in range(c.shape[1] - 1, -1, -1):
+        d = d * x + f
+        f = f * x + c[:, k]
+    return f, d
+
+
+def irr(values, *, guess=0.1, tol=1e-13, max_iter=50):
+    """Internal rate of return of each row of cash flows (vectorised).
+
+    Solves sum c_t x^t = 0 for the discount factor x = 1 / (1 + r) with Newton's
+    method, the polynomial and its derivative evaluated by Horner's rule; rows where
+    Newton does not converge fall back to bisection on r in [-99 %, 1000 %]. Rows
+    with no sign change, or no root in that range, give NaN.
+
+    Returns
+    -------
+    (rates, reasons): an (n,) array and a list of (row, reason) for the NaN rows.
+    """
+    c = np.atleast_2d(np.asarray(values, float))
+    n = c.shape[0]
+    out = np.full(n, np.nan)
+    reasons: list[tuple[int, str]] = []
+    has_pos = (c > 0).any(axis=1)
+    has_neg = (c < 0).any(axis=1)
+    ok = has_pos & has_neg & np.isfinite(c).all(axis=1)
+    x = np.full(n, 1.0 / (1.0 + guess))
+    active = ok.copy()
+    done = np.zeros(n, bool)
+    with np.errstate(all="ignore"):
+        for _ in range(max_iter):
+            idx = np.nonzero(active)[0]
+            if idx.size == 0:
+                break
+            f, d = _horner(c[idx], x[idx])
+            step = f / d
+            xn = x[idx] - step
+            bad = ~np.isfinite(xn) | (xn <= 0)
+            conv = ~bad & (np.abs(step) <= tol * np.maximum(1.0, np.abs(xn)))
+            x[idx] = np.where(bad, x[idx], xn)
+            done[idx[conv]] = True
+            active[idx[conv | bad]] = False
+        r = 1.0 / x - 1.0
+        good = done & np.isfinite(r) & (r > IRR_LOW) & (r < IRR_HIGH)
+        out[good] = r[good]
+        retry = np.nonzero(ok & ~good)[0]
+        if retry.size:
+            out[retry] = _bisect(c[retry])
+    for i in np.nonzero(~(has_pos & has_neg))[0]:
+        reasons.append((int(i), "no sign change in the cash flows"))
+    for i in np.nonzero((has_pos & has_neg) & np.isnan(out))[0]:
+        reasons.append((int(i), f"no IRR between {IRR_LOW:.0%} and {IRR_HIGH:.0%}"))
+    return out, reasons
+
+
+def _bisect(c, iters=200):
+    lo = np.full(c.shape[0], 1.0 / (1.0 + IRR_HIGH))
+    hi = np.full(c.shape[0], 1.0 / (1.0 + IRR_LOW))
+    flo, _ = _horner(c, lo)
+    fhi, _ = _horner(c, hi)
+    valid = np.sign(flo) * np.sign(fhi) < 0
+    for _ in range(iters):
+        mid = 0.5 * (lo + hi)
+        fm, _ = _horner(c, mid)
+        left = np.sign(fm) == np.sign(flo)
+        lo = np.where(left, mid, lo)
+        flo = np.where(left, fm, flo)
+        hi = np.where(left, hi, mid)
+    x = 0.5 * (lo + hi)
+    return np.where(valid, 1.0 / x - 1.0, np.nan)
+
+
+def capital_recovery_factor(rate, years):
+    """CRF = i (1 + i)^n / ((1 + i)^n - 1). [1/yr]
+
+    References
+    ----------
+    Engineering-economics interest tables (e.g. ASHRAE Pocket Guide).
+    """
+    i = np.asarray(rate, float)
+    g = (1.0 + i) ** years
+    return np.where(i == 0, 1.0 / years, i * g / np.where(i == 0, 1.0, g - 1.0))
+
+
+def real_rate(nominal, inflation):
+    """Real discount rate (1 + r) / (1 + inflation) - 1 (Fisher relation). [-]"""
+    return (1.0 + np.asarray(nominal, float)) / (1.0 + np.asarray(inflation, float)) - 1.0
+
+
+def lcoe(capex, opex, decommissioning, energy_mwh, rate, energy_rate=None):
+    """Levelised cost of energy, pre-tax and unfinanced. [money/MWh]
+
+    LCOE = [capex + sum PV(O&M_t) + PV(decommissioning)] / sum PV(E_t), costs at
+    ``rate`` and energy at ``energy_rate`` (default ``rate``; the real LCOE uses the
+    real rate). Arrays are (n, L + 1) with column 0 = t = 0; NaN where the
+    discounted energy is zero.
+    """
+    T = np.shape(opex)[-1]
+    dc = discount_factors(rate, T)
+    de = dc if energy_rate is None else discount_factors(energy_rate, T)
+    cost = np.ravel(capex) + ((np.asarray(opex) + np.asarray(decommissioning)) * dc).sum(axis=-1)
+    en = (np.asarray(energy_mwh) * de).sum(axis=-1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(en > 0, cost / np.where(en > 0, en, 1.0), np.nan)
+
+
+def dscr_stats(dscr):
+    """Minimum and average DSCR over the years with debt service (NaN where none)."""
+    d = np.asarray(dscr, float)
+    has = np.isfinite(d)
+    any_ = has.any(axis=-1)
+    with np.errstate(all="ignore"):
+        mn = np.where(any_, np.where(has, d, np.inf).min(axis=-1), np.nan)
+        avg = np.where(any_, np.where(has, d, 0.0).sum(axis=-1) / np.maximum(has.sum(axis=-1), 1), np.nan)
+    return mn, avg
+
+
+def llcr(cfads, debt_service, debt, rate):
+    """Loan-life coverage ratio: PV at the interest rate of CFADS over the tenor, over the debt."""
+    T = np.shape(cfads)[-1]
+    on = np.asarray(debt_service) > 0
+    pv = (np.where(on, cfads, 0.0) * discount_factors(rate, T)).sum(axis=-1)
+    d = np.ravel(debt)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(d > 0, pv / np.where(d > 0, d, 1.0), np.nan)
+
+
+def payback_year(cash_flow):
+    """First year in which the cumulative cash flow turns non-negative (NaN if never)."""
+    cum = np.cumsum(np.asarray(cash_flow, float), axis=-1)
+    nonneg = cum >= 0
+    first = np.argmax(nonneg, axis=-1).astype(float)
+    return np.where(nonneg.any(axis=-1), first, np.nan)

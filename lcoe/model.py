@@ -1,0 +1,160 @@
+"""One scenario through the whole engine: energy -> costs -> cash flow -> metrics.
+
+The CLI, the workbook, the app, Monte Carlo and sensitivity all come through here,
+so every figure is computed once.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq
+
+from lcoe import cashflow, energy as en, metrics as mt
+from lcoe.cashflow import Flows, Inputs, Sample, Schedule
+
+METRIC_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
+               "equity_irr", "debt_amount", "min_dscr", "avg_dscr", "llcr", "payback_year",
+               "breakeven_ppa_price_per_mwh")
+ANNUAL_KEYS = ("year", "energy_mwh", "availability", "price_per_mwh", "revenue", "opex", "capex", "decommissioning",
+               "depreciation", "interest", "principal", "balance", "tax", "tax_unlevered", "cfads", "debt_service",
+               "dscr", "project_cash_flow", "equity_cash_flow")
+PRICE_KEY = "revenue.ppa_price_per_mwh"
+
+
+def batch_metrics(scn, flows: Flows, overrides: dict | None = None) -> tuple[dict, list[str]]:
+    """All metrics but the break-even price, one value per row."""
+    inp = Inputs(scn, overrides)
+    f = scn.finance
+    r = inp("finance.discount_rate", f.discount_rate)
+    infl = inp("finance.inflation", f.inflation)
+    eq = inp("finance.equity_target_return", scn.equity_target_return)
+    out = {
+        "lcoe_nominal_per_mwh": mt.lcoe(flows.capex_total, flows.opex, flows.decommissioning, flows.energy_mwh, r),
+        "lcoe_real_per_mwh": mt.lcoe(flows.capex_total, flows.opex, flows.decommissioning, flows.energy_mwh, r,
+                                     mt.real_rate(r, infl)),
+        "project_npv": mt.npv(r, flows.project_cash_flow),
+        "equity_npv": mt.npv(eq, flows.equity_cash_flow),
+        "debt_amount": flows.debt.ravel().copy(),
+    }
+    warnings: list[str] = []
+    for key, cf in (("project_irr", flows.project_cash_flow), ("equity_irr", flows.equity_cash_flow)):
+        rates, reasons = mt.irr(cf)
+        out[key] = rates
+        if reasons:
+            what = key.replace("_", " ")
+            first = reasons[0][1]
+            warnings.append(f"{what}: none in {len(reasons)} of {len(rates)} row(s) ({first})"
+                            if len(rates) > 1 else f"{what} is null: {first}")
+    out["min_dscr"], out["avg_dscr"] = mt.dscr_stats(flows.dscr)
+    rate_i = inp("finance.debt.interest_rate", f.debt.interest_rate) if f.debt is not None else 0.0
+    out["llcr"] = mt.llcr(flows.cfads, flows.debt_service, flows.debt, rate_i)
+    out["payback_year"] = mt.payback_year(flows.equity_cash_flow)
+    if np.any(~np.isfinite(out["lcoe_nominal_per_mwh"])):
+        warnings.append("LCOE is null: the discounted energy is zero")
+    if f.debt is None:
+        pass
+    elif np.all(flows.debt <= 0):
+        warnings.append("DSCR and LLCR are null: there is no debt")
+    return out, warnings
+
+
+@dataclass
+class Case:
+    """A deterministic run of one scenario (the P50 case, debt sized on the sizing case)."""
+
+    scenario: object
+    energy: en.EnergyResult
+    flows: Flows
+    metrics: dict
+    warnings: list = field(default_factory=list)
+
+    @property
+    def schedule(self) -> Schedule:
+        return self.flows.schedule
+
+    def annual(self) -> list[dict]:
+        rows = []
+        for t in range(self.flows.years.size):
+            row = {}
+            for k in ANNUAL_KEYS:
+                v = self.flows.years[t] if k == "year" else getattr(self.flows, k)[0, t]
+                row[k] = int(v) if k == "year" else _num(v)
+            rows.append(row)
+        return rows
+
+
+def _num(v):
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def evaluate(scn, *, overrides=None, sample: Sample | None = None, schedule: Schedule | None = None,
+             energy: en.EnergyResult | None = None) -> tuple[Flows, dict, list[str]]:
+    """Flows and metrics (without break-even) for a batch of rows."""
+    energy = energy if energy is not None else en.energy_of(scn)
+    flows = cashflow.evaluate(scn, energy, overrides=overrides, sample=sample, schedule=schedule)
+    m, w = batch_metrics(scn, flows, overrides)
+    return flows, m, flows.warnings + w
+
+
+def _equity_npv_at_price(scn, energy, price, row_overrides):
+    over = dict(row_overrides)
+    over[PRICE_KEY] = np.array([price])
+    flows, m, _ = evaluate(scn, overrides=over, energy=energy)
+    return float(m["equity_npv"][0])
+
+
+def breakeven_price(scn, energy=None, row_overrides: dict | None = None) -> tuple[float, str | None]:
+    """Year-0 PPA price at which equity NPV is zero at the equity target return (debt sized afresh).
+
+    Brent's method (scipy.optimize.brentq) on a bracket found by doubling from the
+    scenario's price. Returns (price, None) or (NaN, reason).
+    """
+    energy = energy if energy is not None else en.energy_of(scn)
+    row = {k: np.asarray(v, float).reshape(-1)[:1] for k, v in (row_overrides or {}).items()}
+    row.pop(PRICE_KEY, None)
+    g = lambda p: _equity_npv_at_price(scn, energy, p, row)  # noqa: E731
+    lo, hi = 0.0, max(10.0, scn.revenue.ppa_price_per_mwh)
+    f_lo = g(lo)
+    if f_lo >= 0:
+        return 0.0 if f_lo == 0 else float("nan"), (None if f_lo == 0 else
+                                                    "equity NPV is positive even at a zero PPA price")
+    f_hi = g(hi)
+    while f_hi < 0 and hi < 1e5:
+        lo, f_lo = hi, f_hi
+        hi *= 2.0
+        f_hi = g(hi)
+    if f_hi < 0:
+        return float("nan"), "no PPA price up to 100,000 per MWh gives equity NPV = 0"
+    return float(brentq(g, lo, hi, xtol=1e-9, rtol=1e-13, maxiter=200)), None
+
+
+def run(scn, *, breakeven: bool = True) -> Case:
+    """The deterministic case of a scenario, every metric filled."""
+    energy = en.energy_of(scn)
+    flows, m, warnings = evaluate(scn, energy=energy)
+    metrics = {k: _num(v[0]) for k, v in m.items()}
+    if breakeven:
+        price, why = breakeven_price(scn, energy)
+        metrics["breakeven_ppa_price_per_mwh"] = _num(price)
+        if why:
+            warnings.append(f"break-even PPA price is null: {why}")
+    else:
+        metrics["breakeven_ppa_price_per_mwh"] = None
+    if metrics["payback_year"] is not None:
+        metrics["payback_year"] = int(metrics["payback_year"])
+    metrics = {k: metrics.get(k) for k in METRIC_KEYS}
+    all_warn = list(scn.warnings()) + list(energy.warnings) + warnings
+    return Case(scn, energy, flows, metrics, _dedupe(all_warn))
+
+
+def _dedupe(items):
+    seen, out = set(), []
+    for w in items:
+        if w not in seen:
+            seen.add(w)
+            out.append(w)
+    return out

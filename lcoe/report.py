@@ -1,0 +1,231 @@
+"""The report of ``lcoe run``: a JSON-ready dict and a readable table.
+
+Only presentation: every figure comes from :mod:`lcoe.model` (and Monte Carlo from
+:mod:`lcoe.uncertainty`).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+
+from lcoe import CAUTION
+from lcoe.model import Case, run
+
+
+@dataclass
+class Report:
+    case: Case
+    variants: dict = field(default_factory=dict)    # name -> Case
+    montecarlo: object | None = None                # uncertainty.MonteCarloResult
+
+    def to_dict(self) -> dict:
+        c = self.case
+        warnings = list(c.warnings)
+        out = {
+            "scenario": c.scenario.project.name,
+            "warnings": warnings,
+            "energy": c.energy.report(),
+            "costs": costs_block(c),
+            "metrics": dict(c.metrics),
+            "annual": c.annual(),
+        }
+        if self.montecarlo is not None:
+            out["montecarlo"] = self.montecarlo.report()
+            warnings.extend(w for w in self.montecarlo.warnings if w not in warnings)
+        out["variants"] = {}
+        for name, v in self.variants.items():
+            out["variants"][name] = {"metrics": dict(v.metrics), "energy": v.energy.report()}
+            warnings.extend(f"variant {name}: {w}" for w in v.warnings if w not in c.warnings)
+        for key, value in out["energy"].items():
+            if value is None or (isinstance(value, float) and not math.isfinite(value)):
+                warnings.append(f"energy.{key} is null: not defined for this scenario")
+        return clean(out)
+
+
+def costs_block(case: Case) -> dict:
+    f = case.flows
+    return {"capex_total": float(f.capex_total[0, 0]), "opex_year1": float(f.opex[0, 1]),
+            "decommissioning_net": float(f.decommissioning[0, -1])}
+
+
+def build(scn, *, trials: int | None = None, variants: bool = True, progress=None) -> Report:
+    """Run the base case, each variant and (when trials > 0) the Monte Carlo."""
+    case = run(scn)
+    rep = Report(case)
+    if variants:
+        for name in scn.variants:
+            rep.variants[name] = run(scn.variant(name))
+    n = scn.montecarlo.trials if trials is None else trials
+    if n and n > 0:
+        from lcoe import uncertainty
+        rep.montecarlo = uncertainty.monte_carlo(scn, case, trials=n, progress=progress)
+    return rep
+
+
+def clean(obj):
+    """Plain floats for JSON; NaN and infinities become None."""
+    if isinstance(obj, dict):
+        return {k: clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [clean(v) for v in obj]
+    if hasattr(obj, "item") and not isinstance(obj, (str, bytes)):
+        obj = obj.item()
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    return obj
+
+
+def to_json(report: Report) -> str:
+    return json.dumps(report.to_dict(), indent=2, allow_nan=False)
+
+
+# --------------------------------------------------------------------------- table output
+
+METRIC_LABELS = {
+    "lcoe_nominal_per_mwh": ("LCOE, nominal", "{cur}/MWh", "{:.2f}"),
+    "lcoe_real_per_mwh": ("LCOE, real", "{cur}/MWh", "{:.2f}"),
+    "project_npv": ("Project NPV", "{cur} M", "m"),
+    "project_irr": ("Project IRR", "%", "pct"),
+    "equity_npv": ("Equity NPV", "{cur} M", "m"),
+    "equity_irr": ("Equity IRR", "%", "pct"),
+    "debt_amount": ("Debt", "{cur} M", "m"),
+    "min_dscr": ("Minimum DSCR", "x", "{:.3f}"),
+    "avg_dscr": ("Average DSCR", "x", "{:.3f}"),
+    "llcr": ("LLCR", "x", "{:.3f}"),
+    "payback_year": ("Equity payback", "year", "{:.0f}"),
+    "breakeven_ppa_price_per_mwh": ("Break-even PPA price", "{cur}/MWh", "{:.2f}"),
+}
+
+ENERGY_LABELS = {
+    "air_density_kgm3": ("Air density at hub", "kg/m3", "{:.4f}"),
+    "hub_mean_speed_mps": ("Mean wind speed at hub", "m/s", "{:.2f}"),
+    "gross_aep_mwh": ("Gross AEP", "MWh/yr", "{:,.0f}"),
+    "net_aep_p50_mwh": ("Net AEP P50", "MWh/yr", "{:,.0f}"),
+    "net_aep_p90_1yr_mwh": ("Net AEP P90 (1 yr)", "MWh/yr", "{:,.0f}"),
+    "net_aep_p90_10yr_mwh": ("Net AEP P90 (10 yr)", "MWh/yr", "{:,.0f}"),
+    "net_aep_p99_1yr_mwh": ("Net AEP P99 (1 yr)", "MWh/yr", "{:,.0f}"),
+    "net_capacity_factor": ("Net capacity factor", "%", "pct"),
+    "speed_sensitivity": ("AEP sensitivity to speed", "dlnE/dlnv", "{:.3f}"),
+    "sigma_1yr": ("Energy uncertainty (1 yr)", "%", "pct"),
+    "sigma_10yr": ("Energy uncertainty (10 yr)", "%", "pct"),
+}
+
+
+def fmt(value, how: str) -> str:
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "n/a"
+    if how == "pct":
+        return f"{100 * value:.2f}"
+    if how == "m":
+        return f"{value / 1e6:,.2f}"
+    return how.format(value)
+
+
+def _label(labels, key, cur):
+    name, unit, _ = labels[key]
+    return f"{name} [{unit.format(cur=cur)}]"
+
+
+def to_table(report: Report, *, yearly: bool = True) -> str:
+    d = report.to_dict()
+    cur = report.case.scenario.project.currency
+    lines = [f"{d['scenario']}  ({report.case.scenario.source})", CAUTION, ""]
+    w = 38
+    lines.append("Headline")
+    for k in d["metrics"]:
+        lines.append(f"  {_label(METRIC_LABELS, k, cur):<{w}} {fmt(d['metrics'][k], METRIC_LABELS[k][2]):>14}")
+    lines.append("")
+    lines.append("Energy")
+    for k, (name, unit, how) in ENERGY_LABELS.items():
+        lines.append(f"  {_label(ENERGY_LABELS, k, cur):<{w}} {fmt(d['energy'][k], how):>14}")
+    costs = d["costs"]
+    lines.append("")
+    lines.append("Costs")
+    lines.append(f"  {'Capex total [' + cur + ' M]':<{w}} {fmt(costs['capex_total'], 'm'):>14}")
+    lines.append(f"  {'O&M, year 1 [' + cur + ' M]':<{w}} {fmt(costs['opex_year1'], 'm'):>14}")
+    lines.append(f"  {'Decommissioning net, year L [' + cur + ' M]':<{w}} {fmt(costs['decommissioning_net'], 'm'):>14}")
+    if "montecarlo" in d:
+        lines.append("")
+        lines.extend(montecarlo_table(d["montecarlo"], cur))
+    if yearly:
+        lines.append("")
+        lines.extend(annual_table(d["annual"], cur))
+    if d["variants"]:
+        lines.append("")
+        lines.extend(variants_table(d, cur))
+    if d["warnings"]:
+        lines.append("")
+        lines.append("Warnings")
+        lines.extend(f"  - {x}" for x in d["warnings"])
+    return "\n".join(lines) + "\n"
+
+
+ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.0f}"),
+                  ("price_per_mwh", "Price [{cur}/MWh]", "{:.2f}"), ("revenue", "Revenue [{cur} k]", "k"),
+                  ("opex", "O&M [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"), ("cfads", "CFADS [{cur} k]", "k"),
+                  ("debt_service", "Debt service [{cur} k]", "k"), ("dscr", "DSCR [x]", "{:.3f}"),
+                  ("project_cash_flow", "Project CF [{cur} k]", "k"), ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
+
+
+def annual_table(rows, cur) -> list[str]:
+    heads = [h.format(cur=cur) for _, h, _ in ANNUAL_COLUMNS]
+    widths = [max(len(h), 9) for h in heads]
+    out = ["Yearly cash flow (t = 0 is construction; nominal money)",
+           "  " + "  ".join(f"{h:>{wd}}" for h, wd in zip(heads, widths))]
+    for r in rows:
+        cells = []
+        for (k, _, how), wd in zip(ANNUAL_COLUMNS, widths):
+            v = r[k]
+            if how == "k":
+                s = "n/a" if v is None else f"{v / 1e3:,.0f}"
+            elif v is None:
+                s = "-"
+            else:
+                s = how.format(v)
+            cells.append(f"{s:>{wd}}")
+        out.append("  " + "  ".join(cells))
+    return out
+
+
+def variants_table(d, cur) -> list[str]:
+    names = list(d["variants"])
+    head = f"  {'':<34} {'base':>12}" + "".join(f" {n[:14]:>14} {'change':>10}" for n in names)
+    out = ["Variants (each against the base)", head]
+    rows = [("metrics", k, METRIC_LABELS) for k in d["metrics"]] + \
+        [("energy", k, ENERGY_LABELS) for k in ("net_aep_p50_mwh", "net_capacity_factor")]
+    for block, k, labels in rows:
+        how = labels[k][2]
+        base = d[block][k]
+        line = f"  {_label(labels, k, cur)[:34]:<34} {fmt(base, how):>12}"
+        for n in names:
+            v = d["variants"][n][block][k]
+            diff = None if v is None or base is None else v - base
+            line += f" {fmt(v, how):>14} {_signed(diff, how):>10}"
+        out.append(line)
+    return out
+
+
+def _signed(diff, how):
+    if diff is None:
+        return "n/a"
+    s = fmt(diff, how)
+    return s if s.startswith("-") else "+" + s
+
+
+def montecarlo_table(mc: dict, cur: str) -> list[str]:
+    out = [f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
+           f"  {'':<34} {'P50':>12} {'P75':>12} {'P90':>12} {'P99':>12} {'mean':>12} {'sd':>12}"]
+    for k, stats in mc.items():
+        if not isinstance(stats, dict) or "p50" not in stats:
+            continue
+        labels = METRIC_LABELS if k in METRIC_LABELS else ENERGY_LABELS if k in ENERGY_LABELS else None
+        label = _label(labels, k, cur)[:34] if labels else k
+        how = labels[k][2] if labels else "{:.4g}"
+        out.append(f"  {label:<34}" + "".join(f" {fmt(stats[s], how):>12}"
+                                              for s in ("p50", "p75", "p90", "p99", "mean", "sd")))
+    for k in ("prob_min_dscr_below_1", "prob_min_dscr_below_target", "prob_equity_irr_below_target"):
+        if k in mc:
+            out.append(f"  {k.replace('_', ' '):<34} {fmt(mc[k], 'pct'):>12} %")
+    return out

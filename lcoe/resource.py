@@ -1,0 +1,189 @@
+"""Wind climate: Weibull distributions, shear, air density and hourly series."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from lcoe.errors import ScenarioError
+
+R_DRY_AIR = 287.05  # J/(kg K), IEC 61400-12-1
+P0_PA = 101325.0
+Z_90 = 1.2815515655446004
+Z_99 = 2.3263478740408408
+
+
+def weibull_scale_from_mean(mean_speed_mps, shape):
+    """Weibull scale A from the mean speed: A = mean / Gamma(1 + 1/k). [m/s]
+
+    References
+    ----------
+    Standard Weibull distribution moments (also scipy.stats.weibull_min).
+    """
+    return np.asarray(mean_speed_mps) / _gamma(1.0 + 1.0 / np.asarray(shape))
+
+
+def weibull_mean(scale_mps, shape):
+    """Mean of a Weibull distribution, A * Gamma(1 + 1/k). [m/s]"""
+    return np.asarray(scale_mps) * _gamma(1.0 + 1.0 / np.asarray(shape))
+
+
+def weibull_moment(scale_mps, shape, n):
+    """n-th raw moment of a Weibull distribution, A^n * Gamma(1 + n/k). [(m/s)^n]"""
+    return np.asarray(scale_mps) ** n * _gamma(1.0 + n / np.asarray(shape))
+
+
+def weibull_pdf(speed_mps, scale_mps, shape):
+    """Weibull probability density f(v) = k/A (v/A)^(k-1) exp(-(v/A)^k). [1/(m/s)]"""
+    v = np.asarray(speed_mps, dtype=float)
+    x = np.where(v > 0, v / scale_mps, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        pdf = shape / scale_mps * np.power(x, shape - 1.0) * np.exp(-np.power(x, shape))
+    return np.where(v > 0, pdf, 0.0)
+
+
+def _gamma(x):
+    from scipy.special import gamma
+    return gamma(x)
+
+
+def shear_factor(hub_height_m, height_m, alpha=1.0 / 7.0, roughness_length_m=None):
+    """Ratio of hub-height to measurement-height wind speed. [-]
+
+    Power law (hub / h)^alpha, or the neutral log law ln(hub/z0) / ln(h/z0) when a
+    roughness length z0 is given.
+
+    References
+    ----------
+    Power law: common practice in wind-resource assessment (alpha = 1/7 default).
+    Log law: neutral atmospheric surface layer, e.g. Manwell, McGowan and Rogers,
+    Wind Energy Explained, ch. 2.
+    """
+    if roughness_length_m is not None:
+        return math.log(hub_height_m / roughness_length_m) / math.log(height_m / roughness_length_m)
+    return (hub_height_m / height_m) ** alpha
+
+
+def isa_pressure_pa(elevation_m):
+    """Pressure of the ISO 2533 standard troposphere. [Pa]
+
+    p = 101325 * (1 - 2.25577e-5 z)^5.25588.
+    """
+    return P0_PA * (1.0 - 2.25577e-5 * np.asarray(elevation_m, dtype=float)) ** 5.25588
+
+
+def air_density(elevation_m=0.0, temperature_c=15.0):
+    """Dry-air density from elevation and temperature. [kg/m^3]
+
+    rho = p / (287.05 * (T_C + 273.15)), p from :func:`isa_pressure_pa`.
+
+    References
+    ----------
+    ISO 2533:1975 standard atmosphere; IEC 61400-12-1 (R = 287.05 J/(kg K)).
+    """
+    return isa_pressure_pa(elevation_m) / (R_DRY_AIR * (np.asarray(temperature_c, dtype=float) + 273.15))
+
+
+def isa_density(elevation_m):
+    """Density of the ISO 2533 standard atmosphere (temperature lapse 6.5 K/km). [kg/m^3]"""
+    t_k = 288.15 - 0.0065 * np.asarray(elevation_m, dtype=float)
+    return isa_pressure_pa(elevation_m) / (R_DRY_AIR * t_k)
+
+
+@dataclass(frozen=True)
+class Series:
+    """An hourly wind series after cleaning. Speeds at the measurement height."""
+
+    speed_mps: np.ndarray
+    temperature_c: np.ndarray | None
+    hours: int
+    warnings: tuple[str, ...] = field(default=())
+
+    @property
+    def mean_speed_mps(self) -> float:
+        return float(self.speed_mps.mean())
+
+
+def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_share: float = 0.2) -> Series:
+    """Load an hourly series ``timestamp, speed_mps[, temperature_c]``.
+
+    Bad rows (non-numeric, NaN, negative or implausibly high speeds) and duplicate
+    timestamps are dropped and reported; gaps in the hourly record are counted. A
+    series with more than ``max_missing_share`` of its hours missing is refused.
+    """
+    import pandas as pd
+
+    path = Path(path)
+    shown = str(path)
+    try:
+        df = pd.read_csv(path, dtype=str, keep_default_na=False)
+    except FileNotFoundError:
+        raise ScenarioError(f"file not found: {shown}", key=key, value=str(path.name)) from None
+    except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        raise ScenarioError(f"cannot be read as CSV ({type(exc).__name__}): {shown}", key=key,
+                            value=str(path.name)) from None
+    cols = [c.strip() for c in df.columns]
+    df.columns = cols
+    if "timestamp" not in cols or "speed_mps" not in cols:
+        raise ScenarioError(f"header must be 'timestamp,speed_mps[,temperature_c]', found {','.join(cols)!r}: {shown}",
+                            key=key, value=str(path.name))
+    if len(df) == 0:
+        raise ScenarioError(f"has no data rows: {shown}", key=key, value=str(path.name))
+    warnings: list[str] = []
+    ts = pd.to_datetime(df["timestamp"].str.strip(), errors="coerce", utc=True)
+    speed = pd.to_numeric(df["speed_mps"].str.strip(), errors="coerce")
+    temp = pd.to_numeric(df["temperature_c"].str.strip(), errors="coerce") if "temperature_c" in cols else None
+    bad_ts = int(ts.isna().sum())
+    bad_speed = (speed.isna() | (speed < 0) | (speed > 75)).to_numpy()
+    bad_temp = np.zeros(len(df), bool) if temp is None else (temp.isna() | (temp < -60) | (temp > 60)).to_numpy()
+    bad = bad_speed | bad_temp | ts.isna().to_numpy()
+    if bad_ts:
+        warnings.append(f"{shown}: {bad_ts} row(s) with an unreadable timestamp dropped")
+    if bad_speed.sum():
+        warnings.append(f"{shown}: {int(bad_speed.sum())} row(s) with a missing, negative or non-numeric speed dropped")
+    if bad_temp.sum():
+        warnings.append(f"{shown}: {int(bad_temp.sum())} row(s) with a bad temperature dropped")
+    keep = ~bad
+    ts, speed = ts[keep], speed[keep]
+    temp = temp[keep] if temp is not None else None
+    dup = ts.duplicated(keep="first").to_numpy()
+    if dup.sum():
+        warnings.append(f"{shown}: {int(dup.sum())} duplicate timestamp(s); the first of each kept")
+        ts, speed = ts[~dup], speed[~dup]
+        temp = temp[~dup] if temp is not None else None
+    n = len(ts)
+    if n == 0:
+        raise ScenarioError(f"has no usable rows: {shown}", key=key, value=str(path.name))
+    span_h = int(round((ts.max() - ts.min()).total_seconds() / 3600.0)) + 1
+    expected = max(span_h, n, len(df))
+    missing = expected - n
+    if missing > 0:
+        warnings.append(f"{shown}: {missing} of {expected} hour(s) missing ({missing / expected:.1%})")
+    if missing / expected > max_missing_share:
+        raise ScenarioError(f"{missing / expected:.1%} of the hours are missing or bad, more than "
+                            f"wind.max_missing_share = {max_missing_share:g}: {shown}", key=key, value=str(path.name))
+    if n < 24 * 30:
+        warnings.append(f"{shown}: only {n} hour(s); a long-term energy estimate needs at least a year")
+    return Series(speed_mps=speed.to_numpy(float), temperature_c=None if temp is None else temp.to_numpy(float),
+                  hours=n, warnings=tuple(warnings))
+
+
+def fit_weibull(speed_mps: np.ndarray) -> tuple[float, float]:
+    """Maximum-likelihood Weibull fit, location fixed at 0. Returns (shape k, scale A).
+
+    References
+    ----------
+    scipy.stats.weibull_min.fit with floc=0.
+    """
+    from scipy.stats import weibull_min
+
+    v = np.asarray(speed_mps, float)
+    v = v[v > 0]
+    if v.size < 10:
+        raise ScenarioError("too few positive speeds to fit a Weibull distribution", key="wind.timeseries",
+                            has_value=False)
+    k, _, a = weibull_min.fit(v, floc=0)
+    return float(k), float(a)

@@ -1,0 +1,236 @@
+"""Power curves: validated tables or curves built from physics, and air-density adjustment."""
+
+from __future__ import annotations
+
+import csv
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from lcoe.errors import ScenarioError
+
+BETZ_LIMIT = 16.0 / 27.0
+
+
+def swept_area_m2(rotor_diameter_m):
+    """Rotor swept area pi D^2 / 4. [m^2]"""
+    return math.pi * np.asarray(rotor_diameter_m, float) ** 2 / 4.0
+
+
+def wind_power_kw(speed_mps, density_kgm3, area_m2, cp=1.0, efficiency=1.0):
+    """Power extracted from the wind, 0.5 rho A Cp eta v^3. [kW]
+
+    References
+    ----------
+    Kinetic energy flux through the rotor disc; Betz (1920) bounds Cp <= 16/27.
+    """
+    v = np.asarray(speed_mps, float)
+    return 0.5 * density_kgm3 * area_m2 * cp * efficiency * v ** 3 / 1000.0
+
+
+def normalised_speed(speed_mps, density_kgm3, reference_density_kgm3):
+    """Speed normalisation for pitch-regulated turbines, v_n = v (rho / rho_0)^(1/3). [m/s]
+
+    References
+    ----------
+    IEC 61400-12-1, power-curve density normalisation (pitch-regulated machines).
+    """
+    return np.asarray(speed_mps, float) * (density_kgm3 / reference_density_kgm3) ** (1.0 / 3.0)
+
+
+def normalised_power_stall(power_kw, density_kgm3, reference_density_kgm3):
+    """Power normalisation for stall-regulated turbines, P_n = P rho_0 / rho. [kW]
+
+    References
+    ----------
+    IEC 61400-12-1 (from memory).
+    """
+    return np.asarray(power_kw, float) * reference_density_kgm3 / density_kgm3
+
+
+@dataclass(frozen=True)
+class SiteCurve:
+    """A power curve at the site's air density: P(v) in kW and the breakpoints of P."""
+
+    kind: str
+    rated_power_kw: float
+    breaks_mps: np.ndarray          # sorted; P is smooth between consecutive breaks, zero outside
+    table_speed_mps: np.ndarray     # table: speeds at the site; physics: unused
+    table_power_kw: np.ndarray
+    coeff_kw_per_v3: float = 0.0    # physics: P = coeff v^3 inside cut-in..cut-out, capped
+    cut_in_mps: float = 0.0
+    cut_out_mps: float = 0.0
+
+    def power_kw(self, speed_mps) -> np.ndarray:
+        v = np.asarray(speed_mps, float)
+        if self.kind == "physics":
+            p = np.minimum(self.coeff_kw_per_v3 * v ** 3, self.rated_power_kw)
+            return np.where((v >= self.cut_in_mps) & (v < self.cut_out_mps), p, 0.0)
+        p = np.interp(v, self.table_speed_mps, self.table_power_kw, left=0.0, right=0.0)
+        return np.minimum(p, self.rated_power_kw)
+
+    @property
+    def rated_speed_mps(self) -> float:
+        """The lowest speed at which the site curve reaches rated power (NaN if never)."""
+        if self.kind == "physics":
+            if not math.isfinite(self.rated_power_kw) or self.coeff_kw_per_v3 <= 0:
+                return float("nan")
+            v = (self.rated_power_kw / self.coeff_kw_per_v3) ** (1.0 / 3.0)
+            return v if v < self.cut_out_mps else float("nan")
+        at = np.nonzero(self.table_power_kw >= self.rated_power_kw * (1 - 1e-9))[0]
+        return float(self.table_speed_mps[at[0]]) if at.size else float("nan")
+
+
+@dataclass(frozen=True)
+class PowerCurve:
+    """A turbine's power curve as supplied: a table at a reference density, or physics parameters."""
+
+    kind: str                      # "table" | "physics"
+    rated_power_kw: float
+    rotor_diameter_m: float
+    speed_mps: np.ndarray = None   # table
+    power_kw: np.ndarray = None    # table
+    reference_density_kgm3: float = 1.225
+    regulation: str = "pitch"
+    cp_max: float = 0.0            # physics
+    cut_in_mps: float = 3.0
+    cut_out_mps: float = 25.0
+    drivetrain_efficiency: float = 1.0
+
+    def power_kw_at(self, speed_mps, density_kgm3) -> np.ndarray:
+        """Power at given speeds and (possibly hourly) densities, as :meth:`at_density` defines it. [kW]"""
+        v = np.asarray(speed_mps, float)
+        rho = np.asarray(density_kgm3, float)
+        rated = self.rated_power_kw
+        if self.kind == "physics":
+            p = wind_power_kw(v, rho, float(swept_area_m2(self.rotor_diameter_m)), self.cp_max,
+                              self.drivetrain_efficiency)
+            p = np.minimum(p, rated)
+            return np.where((v >= self.cut_in_mps) & (v < self.cut_out_mps), p, 0.0)
+        if self.regulation == "stall":
+            p = np.interp(v, self.speed_mps, self.power_kw, left=0.0, right=0.0) * rho / self.reference_density_kgm3
+        else:
+            vn = normalised_speed(v, rho, self.reference_density_kgm3)
+            p = np.interp(vn, self.speed_mps, self.power_kw, left=0.0, right=0.0)
+        return np.minimum(p, rated)
+
+    def at_density(self, density_kgm3: float) -> SiteCurve:
+        """The curve at the site: density-adjusted table, or physics at the site density.
+
+        Table, pitch-regulated: P_site(v) = P_curve(v (rho / rho_curve)^(1/3)), capped at
+        rated power (IEC 61400-12-1 speed normalisation). Table, stall-regulated:
+        P_site = P_curve rho / rho_curve, capped. Physics: P = min(rated,
+        0.5 rho A Cp eta v^3) between cut-in and cut-out, at the site density.
+        """
+        rated = self.rated_power_kw
+        if self.kind == "physics":
+            coeff = 0.5 * density_kgm3 * float(swept_area_m2(self.rotor_diameter_m)) * self.cp_max \
+                * self.drivetrain_efficiency / 1000.0
+            breaks = [self.cut_in_mps, self.cut_out_mps]
+            if math.isfinite(rated):
+                vr = (rated / coeff) ** (1.0 / 3.0)
+                if self.cut_in_mps < vr < self.cut_out_mps:
+                    breaks.append(vr)
+            return SiteCurve("physics", rated, np.array(sorted(breaks)), np.empty(0), np.empty(0),
+                             coeff_kw_per_v3=coeff, cut_in_mps=self.cut_in_mps, cut_out_mps=self.cut_out_mps)
+        if self.regulation == "stall":
+            v = self.speed_mps.copy()
+            p = self.power_kw * density_kgm3 / self.reference_density_kgm3
+        else:
+            v = self.speed_mps / (density_kgm3 / self.reference_density_kgm3) ** (1.0 / 3.0)
+            p = self.power_kw.copy()
+        breaks = list(v)
+        # where a segment crosses rated power the cap adds a kink
+        over = p > rated
+        for i in range(len(v) - 1):
+            if over[i] != over[i + 1]:
+                breaks.append(v[i] + (rated - p[i]) * (v[i + 1] - v[i]) / (p[i + 1] - p[i]))
+        return SiteCurve("table", rated, np.array(sorted(breaks)), v, p)
+
+
+def physics_curve(rated_power_kw, rotor_diameter_m, cp_max, cut_in_mps=3.0, cut_out_mps=25.0,
+                  drivetrain_efficiency=1.0) -> PowerCurve:
+    """A power curve built from physics: min(rated, 0.5 rho A Cp eta v^3), cut-in to cut-out.
+
+    The rated speed follows from the rated power. ``cp_max`` may not exceed the Betz
+    limit 16/27 (Betz 1920).
+    """
+    if cp_max > BETZ_LIMIT:
+        raise ScenarioError("must not exceed the Betz limit 16/27 = 0.5926", key="turbine.cp_max", value=cp_max)
+    if cut_out_mps <= cut_in_mps:
+        raise ScenarioError(f"must be above turbine.cut_in_mps = {cut_in_mps}", key="turbine.cut_out_mps",
+                            value=cut_out_mps)
+    return PowerCurve("physics", float(rated_power_kw), float(rotor_diameter_m), cp_max=float(cp_max),
+                      cut_in_mps=float(cut_in_mps), cut_out_mps=float(cut_out_mps),
+                      drivetrain_efficiency=float(drivetrain_efficiency))
+
+
+def table_curve(speed_mps, power_kw, rated_power_kw, rotor_diameter_m, *, reference_density_kgm3=1.225,
+                regulation="pitch", source="power curve", key="turbine.power_curve",
+                rated_tolerance=0.02) -> PowerCurve:
+    """A validated power-curve table (speeds sorted and unique, power >= 0, peak near rated)."""
+    v = np.asarray(speed_mps, float)
+    p = np.asarray(power_kw, float)
+    where = f" in {source}"
+    if v.size < 2:
+        raise ScenarioError(f"needs at least two rows{where}", key=key, value=Path(source).name)
+    if not (np.all(np.isfinite(v)) and np.all(np.isfinite(p))):
+        row = int(np.nonzero(~(np.isfinite(v) & np.isfinite(p)))[0][0]) + 2
+        raise ScenarioError(f"row {row} has a missing or non-finite value{where}", key=key, value=Path(source).name)
+    if np.any(v < 0):
+        row = int(np.nonzero(v < 0)[0][0]) + 2
+        raise ScenarioError(f"row {row}: speed must be >= 0{where}", key=key, value=Path(source).name)
+    d = np.diff(v)
+    if np.any(d == 0):
+        row = int(np.nonzero(d == 0)[0][0]) + 3
+        raise ScenarioError(f"row {row}: duplicate speed {v[row - 2]:g} m/s{where}", key=key, value=Path(source).name)
+    if np.any(d < 0):
+        row = int(np.nonzero(d < 0)[0][0]) + 3
+        raise ScenarioError(f"row {row}: speeds must increase (sorted ascending){where}", key=key,
+                            value=Path(source).name)
+    if np.any(p < 0):
+        row = int(np.nonzero(p < 0)[0][0]) + 2
+        raise ScenarioError(f"row {row}: power must be >= 0{where}", key=key, value=Path(source).name)
+    peak = float(p.max())
+    if peak > 0 and abs(peak * 1000.0 - rated_power_kw) <= 0.1 * rated_power_kw:
+        raise ScenarioError(f"peak power {peak:g} looks like MW; the column power_kw must be in kW "
+                            f"(turbine.rated_power_kw = {rated_power_kw:g}){where}", key=key, value=Path(source).name)
+    if abs(peak - rated_power_kw) > rated_tolerance * rated_power_kw:
+        raise ScenarioError(f"peak power {peak:g} kW differs from turbine.rated_power_kw = {rated_power_kw:g} "
+                            f"by more than {rated_tolerance:.0%}{where}", key=key, value=Path(source).name)
+    return PowerCurve("table", float(rated_power_kw), float(rotor_diameter_m), speed_mps=v, power_kw=p,
+                      reference_density_kgm3=float(reference_density_kgm3), regulation=regulation)
+
+
+def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, reference_density_kgm3=1.225,
+                   regulation="pitch", key="turbine.power_curve") -> PowerCurve:
+    """Read ``speed_mps, power_kw`` from a CSV file and validate it as a table curve."""
+    path = Path(path)
+    name = path.name
+    try:
+        with path.open(newline="", encoding="utf-8") as fh:
+            rows = list(csv.reader(fh))
+    except FileNotFoundError:
+        raise ScenarioError(f"file not found: {path}", key=key, value=name) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ScenarioError(f"cannot be read ({type(exc).__name__}): {path}", key=key, value=name) from None
+    rows = [r for r in rows if r and any(c.strip() for c in r)]
+    if not rows:
+        raise ScenarioError(f"is empty: {path}", key=key, value=name)
+    header = [c.strip() for c in rows[0]]
+    if header[:2] != ["speed_mps", "power_kw"]:
+        raise ScenarioError(f"header must be 'speed_mps,power_kw', found {','.join(header)!r}: {path}",
+                            key=key, value=name)
+    speeds, powers = [], []
+    for i, r in enumerate(rows[1:], start=2):
+        if len(r) < 2:
+            raise ScenarioError(f"row {i} has {len(r)} column(s), expected 2: {path}", key=key, value=name)
+        try:
+            speeds.append(float(r[0]))
+            powers.append(float(r[1]))
+        except ValueError:
+            raise ScenarioError(f"row {i} is not numeric ({','.join(r)!r}): {path}", key=key, value=name) from None
+    return table_curve(speeds, powers, rated_power_kw, rotor_diameter_m, reference_density_kgm3=reference_density_kgm3,
+                       regulation=regulation, source=str(path), key=key)
