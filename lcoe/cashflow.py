@@ -65,6 +65,21 @@ def tax_with_carryforward(taxable, rate):
     taxable income (starting from zero): a loss builds a pool that later profits
     use up before any tax is due.
     """
+    taxable = np.asarray(taxable, float)
+    if taxable.ndim == 2:
+        loss_rows = (taxable < 0).any(axis=1)
+        if not loss_rows.any():          # no loss anywhere: tax is simply rate * income
+            return rate * taxable
+        if not loss_rows.all():
+            out = rate * taxable
+            sub = taxable[loss_rows]
+            r = rate[loss_rows] if np.ndim(rate) == 2 and np.shape(rate)[0] == taxable.shape[0] else rate
+            out[loss_rows] = _carry(sub, r)
+            return out
+    return _carry(taxable, rate)
+
+
+def _carry(taxable, rate):
     cum = np.cumsum(taxable, axis=-1)
     peak = np.maximum.accumulate(np.maximum(cum, 0.0), axis=-1)
     taxed = np.diff(peak, axis=-1, prepend=0.0)
@@ -220,12 +235,14 @@ def _typed(scn, key, value):
 
 
 def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
-             schedule: Schedule | None = None) -> Flows:
+             schedule: Schedule | None = None, lean: bool = False) -> Flows:
     """Run the yearly engine for a batch of rows.
 
     ``overrides`` maps dotted keys to one value per row; ``sample`` carries Monte Carlo
     draws; ``schedule`` is a debt schedule fixed at close (None: size the debt here,
-    per row, on the sizing case).
+    per row, on the sizing case). ``lean`` keeps only the lines the metrics need
+    (energy, O&M, decommissioning, CFADS, debt service, DSCR and the two cash flows);
+    the others are None.
     """
     inp = Inputs(scn, overrides)
     L = scn.lifetime
@@ -238,8 +255,6 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         speed_factor = speed_factor * sample.speed_factor
     if np.ndim(speed_factor) == 0 and speed_factor == 1.0:
         gross_t = gross
-    elif isinstance(_sites, list):
-        gross_t = gross * np.interp(speed_factor, site.factors, site.aep_ratios)
     else:
         gross_t = gross * site.ratio_at_factor(speed_factor)
 
@@ -367,7 +382,9 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     with np.errstate(divide="ignore", invalid="ignore"):
         dscr = np.where(ds > 0, cfads / np.where(ds > 0, ds, 1.0), np.nan)
 
-    def with_t0(a, t0=0.0):
+    def with_t0(a, t0=0.0, keep=False):
+        if lean and not keep:
+            return None
         a = np.broadcast_to(a, (inp.n, L))
         out = np.empty((inp.n, L + 1))
         out[:, 0] = t0 if np.ndim(t0) == 0 else np.asarray(t0).ravel()
@@ -376,15 +393,16 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
 
     capex_row = capex.ravel()
     equity0 = -(capex + sched.fee - sched.debt).ravel()
-    balance_close = sched.balance_open + sched.interest - ds
+    balance_close = None if lean else sched.balance_open + sched.interest - ds
     return Flows(
-        years=np.arange(0, L + 1), energy_mwh=with_t0(energy_t), availability=with_t0(avail),
-        price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=with_t0(om),
-        capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t), depreciation=with_t0(dep),
+        years=np.arange(0, L + 1), energy_mwh=with_t0(energy_t, keep=True), availability=with_t0(avail),
+        price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=with_t0(om, keep=True),
+        capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t, keep=True), depreciation=with_t0(dep),
         interest=with_t0(sched.interest), principal=with_t0(sched.principal),
         balance=with_t0(balance_close, sched.debt.ravel()), tax=with_t0(tax), tax_unlevered=with_t0(tax_u),
-        cfads=with_t0(cfads), debt_service=with_t0(ds), dscr=with_t0(dscr, np.nan),
-        project_cash_flow=with_t0(project_ops, -capex_row), equity_cash_flow=with_t0(cfads - ds, equity0),
+        cfads=with_t0(cfads, keep=True), debt_service=with_t0(ds, keep=True), dscr=with_t0(dscr, np.nan, keep=True),
+        project_cash_flow=with_t0(project_ops, -capex_row, keep=True),
+        equity_cash_flow=with_t0(cfads - ds, equity0, keep=True),
         capex_total=np.asarray(capex).reshape(-1, 1), debt=np.asarray(sched.debt).reshape(-1, 1),
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(p50, (inp.n, 1)),

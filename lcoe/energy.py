@@ -91,8 +91,9 @@ class Site:
         return self.gross_aep_mwh * self.ratio_at_factor(factor)
 
     def ratio_at_factor(self, factor) -> np.ndarray:
+        """AEP(f) / AEP(1) by linear interpolation in the table (direct integration outside it)."""
         f = np.asarray(factor, float)
-        out = np.interp(f, self.factors, self.aep_ratios)
+        out = _interp_uniform(f, self.factors, self.aep_ratios)
         if np.any((f < self.factors[0]) | (f > self.factors[-1])):
             out = np.where((f < self.factors[0]) | (f > self.factors[-1]), self._direct_ratio(f), out)
         return out
@@ -112,6 +113,17 @@ class Site:
         for i, fi in enumerate(f):
             out[i] = self.curve.power_kw_at(c.speeds_mps * fi, rho).mean()
         return self.turbines * HOURS_PER_YEAR * out / 1000.0
+
+
+def _interp_uniform(x, xp, fp):
+    """np.interp for an evenly spaced grid ``xp``: the cell index is computed, not searched."""
+    n = xp.size
+    h = (xp[-1] - xp[0]) / (n - 1)
+    pos = (np.clip(x, xp[0], xp[-1]) - xp[0]) / h
+    i = np.minimum(pos.astype(np.intp), n - 2)
+    w = pos - i
+    lo = fp[i]
+    return lo + w * (fp[i + 1] - lo)
 
 
 def climate_from(scn) -> Climate:

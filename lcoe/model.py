@@ -92,10 +92,10 @@ def _num(v):
 
 
 def evaluate(scn, *, overrides=None, sample: Sample | None = None, schedule: Schedule | None = None,
-             energy: en.EnergyResult | None = None) -> tuple[Flows, dict, list[str]]:
-    """Flows and metrics (without break-even) for a batch of rows."""
+             energy: en.EnergyResult | None = None, lean: bool = False) -> tuple[Flows, dict, list[str]]:
+    """Flows and metrics (without break-even) for a batch of rows (``lean``: see cashflow.evaluate)."""
     energy = energy if energy is not None else en.energy_of(scn)
-    flows = cashflow.evaluate(scn, energy, overrides=overrides, sample=sample, schedule=schedule)
+    flows = cashflow.evaluate(scn, energy, overrides=overrides, sample=sample, schedule=schedule, lean=lean)
     m, w = batch_metrics(scn, flows, overrides)
     return flows, m, flows.warnings + w
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 import copy
 import difflib
 import math
+import re
 import tomllib
 from pathlib import Path
 from typing import Annotated, Any, Literal
@@ -256,7 +257,7 @@ class MonteCarlo(_Model):
     seed: Annotated[int, Field(ge=0)] = 0
     sampling: Literal["random", "latin_hypercube"] = "random"
     failures: Literal["sampled", "expected"] = "sampled"
-    chunk_size: Annotated[int, Field(ge=1000, le=1_000_000)] = 50_000
+    chunk_size: Annotated[int, Field(ge=1000, le=1_000_000)] = 32_768
     vary: dict[str, Vary] = {}
     correlation: list[Correlation] = []
 
@@ -561,7 +562,9 @@ def _dotted(loc: tuple) -> str:
 
 
 def _convert(err: ValidationError, raw: dict) -> ScenarioError:
-    e = err.errors(include_url=False)[0]
+    errors = err.errors(include_url=False)
+    # An unknown key usually explains a "missing" one next to it (a typo): report it first.
+    e = next((x for x in errors if x["type"] == "extra_forbidden"), errors[0])
     loc = tuple(p for p in e["loc"] if not (isinstance(p, str) and ("function-after" in p or p.startswith("constrained"))))
     # drop union branch labels pydantic adds (e.g. 'float', 'none')
     clean = []
@@ -727,7 +730,41 @@ def parse_toml(path: Path) -> dict:
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise ScenarioError(f"TOML syntax error: {exc}", file=str(path)) from None
+        raise ScenarioError(_syntax_message(str(exc), text), file=str(path)) from None
+
+
+_TOML_HINTS = {
+    "cannot overwrite a value": "a key is given twice",
+    "cannot declare": "a table is declared twice",
+    "invalid value": "text needs quotes; numbers use '.' for decimals",
+    "illegal character '\\n'": "a string or value is not closed on its line",
+    "unclosed array": "a '[' has no matching ']'",
+    "unterminated string": "a string has no closing quote",
+}
+
+
+def _syntax_message(detail: str, text: str) -> str:
+    """``TOML syntax error at line L, column C: what (hint); near: 'the line'`` from tomllib's text."""
+    m = re.search(r"\s*\(at line (\d+), column (\d+)\)\s*$", detail)
+    lines = text.splitlines()
+    if m:
+        line, col = int(m.group(1)), int(m.group(2))
+        what = detail[:m.start()]
+    elif re.search(r"\(at end of document\)\s*$", detail):
+        line = max(len(lines), 1)
+        col = len(lines[-1]) + 1 if lines else 1
+        what = re.sub(r"\s*\(at end of document\)\s*$", "", detail)
+    else:
+        return f"TOML syntax error: {detail}"
+    what = what[:1].lower() + what[1:]
+    hint = next((h for k, h in _TOML_HINTS.items() if what.lower().startswith(k)), None)
+    out = f"TOML syntax error at line {line}, column {col}: {what}"
+    if hint:
+        out += f" ({hint})"
+    if 1 <= line <= len(lines) and lines[line - 1].strip():
+        near = lines[line - 1].strip()
+        out += f"; the line reads {near[:50] + ('...' if len(near) > 50 else '')!r}"
+    return out
 
 
 def load(path: str | Path) -> Scenario:

@@ -1,0 +1,357 @@
+"""Monte Carlo through the same vectorised engine: P50/P75/P90/P99 of every result.
+
+Each trial draws
+
+* the inputs of ``[montecarlo.vary.KEY]`` (normal, lognormal, triangular, uniform),
+  correlated through a Gaussian copula, by Latin hypercube or plain random sampling;
+* a long-term wind-speed factor from ``[[uncertainty.speed]]`` and an independent
+  factor for every year from ``uncertainty.interannual_speed_sd``; both scale the
+  hub-height speeds, and energy follows from the model's own AEP(scale) curve;
+* an energy factor from ``[[uncertainty.energy]]``;
+* the number of major component failures in each year (Poisson, rate per
+  turbine-year times turbines), each with its replacement cost and downtime.
+
+The debt stays as sized at close: every trial meets the base case's schedule.
+Trials run in chunks, so memory grows with the chunk, not with the trial count; the
+random numbers are drawn in fixed blocks, so the chunk size does not change results.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import stats
+
+from lcoe import model
+from lcoe.cashflow import Sample
+from lcoe.errors import ScenarioError
+from lcoe.scenario import numeric_value
+
+BLOCK = 8192  # trials per random-number block
+HIST_BINS = 40
+
+# keys where a higher value is the better outcome (P90 = 10th percentile); the rest: P90 = 90th
+HIGHER_IS_BETTER = {"project_npv", "project_irr", "equity_npv", "equity_irr", "min_dscr", "avg_dscr", "llcr",
+                    "net_aep_year1_mwh", "net_aep_mean_mwh", "debt_amount"}
+SAMPLED_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
+                "equity_irr", "min_dscr", "avg_dscr", "llcr", "payback_year", "net_aep_year1_mwh",
+                "net_aep_mean_mwh", "capex_total", "opex_mean")
+
+
+# --------------------------------------------------------------------------- input distributions
+
+def marginal(spec, base: float):
+    """The scipy.stats frozen distribution of one ``[montecarlo.vary.KEY]`` entry.
+
+    normal(mean, sd); lognormal with the variable's own mean and sd
+    (sigma^2 = ln(1 + sd^2 / mean^2), mu = ln(mean) - sigma^2 / 2); triangular(low,
+    mode, high); uniform(low, high). ``mean`` and ``mode`` default to the scenario's
+    value of the key.
+    """
+    d = spec.distribution
+    if d == "normal":
+        mean = base if spec.mean is None else spec.mean
+        return stats.norm(loc=mean, scale=max(spec.sd, 0.0)) if spec.sd > 0 else _Point(mean)
+    if d == "lognormal":
+        mean = base if spec.mean is None else spec.mean
+        if mean <= 0:
+            raise ScenarioError("a lognormal input needs a mean > 0", key="montecarlo.vary", value=mean)
+        if spec.sd == 0:
+            return _Point(mean)
+        s2 = math.log(1.0 + (spec.sd / mean) ** 2)
+        return stats.lognorm(s=math.sqrt(s2), scale=math.exp(math.log(mean) - s2 / 2.0))
+    if d == "uniform":
+        return stats.uniform(loc=spec.low, scale=spec.high - spec.low) if spec.high > spec.low else _Point(spec.low)
+    mode = base if spec.mode is None else spec.mode
+    if spec.high <= spec.low:
+        return _Point(spec.low)
+    mode = min(max(mode, spec.low), spec.high)
+    return stats.triang(c=(mode - spec.low) / (spec.high - spec.low), loc=spec.low, scale=spec.high - spec.low)
+
+
+class _Point:
+    """A distribution with no spread."""
+
+    def __init__(self, value):
+        self.value = float(value)
+
+    def ppf(self, q):
+        return np.full(np.shape(q), self.value)
+
+    def mean(self):
+        return self.value
+
+
+def correlation_matrix(scn) -> np.ndarray:
+    keys = list(scn.montecarlo.vary)
+    m = len(keys)
+    r = np.eye(m)
+    for i, c in enumerate(scn.montecarlo.correlation):
+        a, b = keys.index(c.between[0]), keys.index(c.between[1])
+        r[a, b] = r[b, a] = c.rho
+    try:
+        np.linalg.cholesky(r)
+    except np.linalg.LinAlgError:
+        raise ScenarioError("the correlations together are impossible (the matrix is not positive definite)",
+                            key="montecarlo.correlation", has_value=False) from None
+    return r
+
+
+def _bounds(scn, key):
+    """(low, high, open_low, open_high) of a key's valid range, from the scenario model's metadata."""
+    from lcoe import scenario as sc
+    parts = key.split(".")
+    model_cls = sc.Scenario
+    node_cls = None
+    for i, part in enumerate(parts):
+        fields = getattr(model_cls, "model_fields", {})
+        if part in fields:
+            info = fields[part]
+            inner = sc._inner_model(info.annotation)
+            if i == len(parts) - 1:
+                node_cls = info
+                break
+            model_cls = inner
+        elif model_cls is not None:
+            continue  # a list item's name
+    lo, hi = -math.inf, math.inf
+    if node_cls is None:
+        return lo, hi
+    metas = list(node_cls.metadata)
+    for arg in getattr(node_cls.annotation, "__args__", ()) or ():
+        metas += list(getattr(arg, "__metadata__", ()) or ())
+        for meta in getattr(arg, "__metadata__", ()) or ():
+            metas += list(getattr(meta, "metadata", []) or [])
+    for meta in metas:
+        for attr, side in (("ge", "lo"), ("gt", "lo"), ("le", "hi"), ("lt", "hi")):
+            v = getattr(meta, attr, None)
+            if v is not None:
+                if side == "lo":
+                    lo = max(lo, v + (1e-12 if attr == "gt" else 0.0))
+                else:
+                    hi = min(hi, v - (1e-12 if attr == "lt" else 0.0))
+    return lo, hi
+
+
+def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
+    """Correlated draws of every ``[montecarlo.vary]`` input (Gaussian copula)."""
+    vary = scn.montecarlo.vary
+    if not vary or n == 0:
+        return {}
+    keys = list(vary)
+    m = len(keys)
+    if scn.montecarlo.sampling == "latin_hypercube":
+        u = stats.qmc.LatinHypercube(d=m, seed=rng).random(n)
+        z = stats.norm.ppf(np.clip(u, 1e-12, 1 - 1e-12))
+    else:
+        z = rng.standard_normal((n, m))
+    if scn.montecarlo.correlation:
+        z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
+    u = stats.norm.cdf(z)
+    out = {}
+    for j, key in enumerate(keys):
+        dist = marginal(vary[key], numeric_value(scn, key))
+        out[key] = np.asarray(dist.ppf(u[:, j]), float)
+    return out
+
+
+# --------------------------------------------------------------------------- the trials
+
+@dataclass
+class MonteCarloResult:
+    trials: int
+    seed: int
+    samples: dict
+    target_dscr: float | None
+    equity_target: float
+    warnings: list = field(default_factory=list)
+    inputs: dict = field(default_factory=dict)     # vary key -> drawn values
+
+    def stats(self, key: str) -> dict:
+        """p50, p75, p90, p99 (conservative side), mean and sd of one sampled key."""
+        x = self.samples[key]
+        x = x[np.isfinite(x)]
+        if x.size == 0:
+            return {k: None for k in ("p50", "p75", "p90", "p99", "mean", "sd")}
+        better_high = key in HIGHER_IS_BETTER
+        q = {"p50": 50.0, "p75": 25.0 if better_high else 75.0, "p90": 10.0 if better_high else 90.0,
+             "p99": 1.0 if better_high else 99.0}
+        vals = np.percentile(x, list(q.values()))
+        out = {k: float(v) for k, v in zip(q, vals)}
+        out["mean"] = float(x.mean())
+        out["sd"] = float(x.std(ddof=1)) if x.size > 1 else 0.0
+        return out
+
+    def p90_standard_error(self, key: str) -> float | None:
+        """Standard error of the P90, distribution-free: half the spread between the order
+        statistics one binomial standard deviation either side of the P90 rank."""
+        x = np.sort(self.samples[key][np.isfinite(self.samples[key])])
+        n = x.size
+        if n < 10:
+            return None
+        q = 0.10 if key in HIGHER_IS_BETTER else 0.90
+        half = math.sqrt(n * q * (1 - q))
+        lo = int(max(0, math.floor(n * q - half)))
+        hi = int(min(n - 1, math.ceil(n * q + half)))
+        return float((x[hi] - x[lo]) / 2.0)
+
+    def probability(self, key: str, below: float) -> float | None:
+        x = self.samples[key]
+        if x.size == 0:
+            return None
+        # an undefined value (no IRR, no DSCR) counts as missing the threshold
+        return float(np.mean(~(x >= below)))
+
+    def histogram(self, key: str, bins: int = HIST_BINS) -> dict:
+        x = self.samples[key]
+        x = x[np.isfinite(x)]
+        if x.size == 0:
+            return {"edges": [], "counts": []}
+        counts, edges = np.histogram(x, bins=bins)
+        return {"edges": edges.tolist(), "counts": counts.astype(int).tolist()}
+
+    def report(self) -> dict:
+        out: dict = {"trials": self.trials, "seed": self.seed}
+        for key in self.samples:
+            out[key] = self.stats(key)
+        if self.target_dscr is not None:
+            out["prob_min_dscr_below_1"] = self.probability("min_dscr", 1.0)
+            out["prob_min_dscr_below_target"] = self.probability("min_dscr", self.target_dscr)
+        out["prob_equity_irr_below_target"] = self.probability("equity_irr", self.equity_target)
+        out["p90_standard_error"] = {k: self.p90_standard_error(k) for k in self.samples}
+        out["histogram"] = {k: self.histogram(k) for k in self.samples}
+        return out
+
+
+def _block_rng(seed: int, block: int) -> np.random.Generator:
+    return np.random.default_rng(np.random.SeedSequence(entropy=seed, spawn_key=(block,)))
+
+
+def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
+    """Everything random for ``n`` trials: (vary inputs, Sample)."""
+    inputs = draw_inputs(scn, n, rng)
+    u = scn.uncertainty
+    lt_sd = math.sqrt(sum(x.sd ** 2 for x in u.speed))
+    en_sd = math.sqrt(sum(x.sd ** 2 for x in u.energy))
+    z_lt = rng.standard_normal((n, 1))
+    z_iav = rng.standard_normal((n, lifetime))
+    z_en = rng.standard_normal((n, 1))
+    speed = None
+    if lt_sd > 0 or u.interannual_speed_sd > 0:
+        speed = np.maximum((1.0 + lt_sd * z_lt) * (1.0 + u.interannual_speed_sd * z_iav), 0.0)
+    energy = np.maximum(1.0 + en_sd * z_en, 0.0) if en_sd > 0 else None
+    cost = downtime = None
+    comps = scn.maintenance.component
+    if comps and scn.montecarlo.failures == "sampled":
+        turbines = scn.project.turbines
+        cost = np.zeros((n, lifetime))
+        downtime = np.zeros((n, lifetime))
+        for c in comps:
+            key = f"maintenance.component.{c.name}."
+            rate = inputs.get(key + "failure_rate_per_turbine_year", c.failure_rate_per_turbine_year)
+            lam = np.broadcast_to(np.maximum(np.asarray(rate, float).reshape(-1, 1), 0.0) * turbines,
+                                  (n, lifetime))
+            counts = poisson(rng, lam)
+            repl = np.asarray(inputs.get(key + "replacement_cost", c.replacement_cost), float).reshape(-1, 1)
+            days = np.asarray(inputs.get(key + "downtime_days", c.downtime_days), float).reshape(-1, 1)
+            cost += counts * repl
+            downtime += counts * days / (365.0 * turbines)
+        np.minimum(downtime, 1.0, out=downtime)
+    return inputs, Sample(speed_factor=speed, energy_factor=energy, downtime=downtime, failure_cost=cost)
+
+
+def poisson(rng: np.random.Generator, lam) -> np.ndarray:
+    """Poisson counts with means ``lam``; a single mean is sampled by inverting its CDF
+    (one uniform per count, far quicker than the general sampler when counts are small)."""
+    lam = np.asarray(lam, float)
+    first = float(lam.flat[0]) if lam.size else 0.0
+    if lam.size and np.all(lam == first):
+        kmax = int(first + 12.0 * math.sqrt(first) + 20)
+        cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), first))
+        cdf[-1] = 1.0
+        return np.searchsorted(cdf, rng.random(lam.shape), side="right").astype(float)
+    return rng.poisson(lam).astype(float)
+
+
+def _clip_inputs(scn, inputs: dict, warnings: list) -> dict:
+    out = {}
+    for key, x in inputs.items():
+        lo, hi = _bounds(scn, key)
+        bad = (x < lo) | (x > hi)
+        if bad.any():
+            warnings.append(f"montecarlo.vary.{key}: {int(bad.sum())} draw(s) outside the valid range "
+                            f"[{lo:g}, {hi:g}] were clipped to it")
+            x = np.clip(x, lo, hi)
+        out[key] = x
+    return out
+
+
+def run_trials(scn, case, inputs: dict, sample: Sample) -> dict:
+    """One chunk of trials through the engine (debt as sized at close). Returns key -> values."""
+    flows, m, w = model.evaluate(scn, overrides=inputs or None, sample=sample, schedule=case.schedule,
+                                 energy=case.energy, lean=True)
+    out = {k: m[k] for k in SAMPLED_KEYS if k in m}
+    out["net_aep_year1_mwh"] = flows.energy_mwh[:, 1].copy()
+    out["net_aep_mean_mwh"] = flows.energy_mwh[:, 1:].mean(axis=1)
+    out["capex_total"] = np.broadcast_to(flows.capex_total, (flows.energy_mwh.shape[0], 1))[:, 0].copy()
+    out["opex_mean"] = flows.opex[:, 1:].mean(axis=1)
+    return out
+
+
+def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None = None,
+                chunk_size: int | None = None, progress=None) -> MonteCarloResult:
+    """Run the Monte Carlo of a scenario; ``case`` is its deterministic run (made if None)."""
+    case = case if case is not None else model.run(scn, breakeven=False)
+    n = scn.montecarlo.trials if trials is None else int(trials)
+    seed = scn.montecarlo.seed if seed is None else int(seed)
+    if n < 0:
+        raise ScenarioError("must be >= 0", key="montecarlo.trials", value=n)
+    chunk = scn.montecarlo.chunk_size if chunk_size is None else int(chunk_size)
+    chunk = max(BLOCK, (chunk // BLOCK) * BLOCK)
+    L = scn.lifetime
+    warnings: list[str] = []
+    parts: dict[str, list] = {k: [] for k in SAMPLED_KEYS}
+    drawn: dict[str, list] = {k: [] for k in scn.montecarlo.vary}
+    blocks = math.ceil(n / BLOCK) if n else 0
+    done = 0
+    b = 0
+    while b < blocks:
+        group = []
+        while b < blocks and sum(len_ for len_, *_ in group) < chunk:
+            size = min(BLOCK, n - b * BLOCK)
+            inp, smp = draw_block(scn, size, _block_rng(seed, b), L)
+            group.append((size, inp, smp))
+            b += 1
+        inputs = {k: np.concatenate([g[1][k] for g in group]) for k in scn.montecarlo.vary}
+        inputs = _clip_inputs(scn, inputs, warnings)
+        sample = Sample(*[None if getattr(group[0][2], f) is None else
+                          np.concatenate([getattr(g[2], f) for g in group])
+                          for f in ("speed_factor", "energy_factor", "downtime", "failure_cost")])
+        res = run_trials(scn, case, inputs, sample)
+        for k in SAMPLED_KEYS:
+            parts[k].append(res[k])
+        for k in drawn:
+            drawn[k].append(inputs[k])
+        done += sum(g[0] for g in group)
+        if progress is not None:
+            progress(done / n)
+    samples = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
+    for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh"):
+        bad = int(np.sum(~np.isfinite(samples[k]))) if samples[k].size else 0
+        if bad:
+            warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s); percentiles use the rest")
+    debt = scn.finance.debt
+    has_debt = debt is not None and case.metrics.get("debt_amount") and case.metrics["debt_amount"] > 0
+    if not has_debt:
+        for k in ("min_dscr", "avg_dscr", "llcr"):
+            samples.pop(k, None)
+    return MonteCarloResult(trials=n, seed=seed, samples=samples,
+                            target_dscr=debt.target_dscr if has_debt else None,
+                            equity_target=scn.equity_target_return, warnings=_dedupe(warnings),
+                            inputs={k: np.concatenate(v) for k, v in drawn.items() if v})
+
+
+def _dedupe(items):
+    return list(dict.fromkeys(items))
