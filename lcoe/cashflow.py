@@ -373,9 +373,13 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
                           inp("finance.debt.tenor_years", debt_terms.tenor_years),
                           inp("finance.debt.interest_rate", debt_terms.interest_rate),
                           inp("finance.debt.upfront_fee", debt_terms.upfront_fee), years)
-        if np.any(sched.debt <= 0):
+        zero = np.ravel(sched.debt) <= 0
+        capped = zero & np.ravel(sched.gearing_bound)   # CFADS would carry debt, but the cap is zero
+        if np.any(zero & ~capped):
             warnings.append("debt cannot be sized: the sizing-case CFADS is not positive over the tenor; "
                             "debt set to zero")
+        if np.any(capped):
+            warnings.append("no debt: finance.debt.max_gearing times the capex is zero")
     tax = tax_with_carryforward(pre_tax - dep - sched.interest, tax_rate)
     cfads = pre_tax - tax
     ds = sched.debt_service
