@@ -19,6 +19,8 @@ random numbers are drawn in fixed blocks, so the chunk size does not change resu
 from __future__ import annotations
 
 import math
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -271,7 +273,9 @@ def poisson(rng: np.random.Generator, lam) -> np.ndarray:
         kmax = int(first + 12.0 * math.sqrt(first) + 20)
         cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), first))
         cdf[-1] = 1.0
-        return np.searchsorted(cdf, rng.random(lam.shape), side="right").astype(float)
+        u = rng.random(lam.shape, dtype=np.float32)
+        counts = np.searchsorted(cdf.astype(np.float32), u, side="right")
+        return np.minimum(counts, kmax).astype(float)
     return rng.poisson(lam).astype(float)
 
 
@@ -291,7 +295,8 @@ def _clip_inputs(scn, inputs: dict, warnings: list) -> dict:
 def run_trials(scn, case, inputs: dict, sample: Sample) -> dict:
     """One chunk of trials through the engine (debt as sized at close). Returns key -> values."""
     flows, m, w = model.evaluate(scn, overrides=inputs or None, sample=sample, schedule=case.schedule,
-                                 energy=case.energy, lean=True)
+                                 energy=case.energy, lean=True,
+                                 irr_guess={k: case.metrics.get(k) for k in ("project_irr", "equity_irr")})
     out = {k: m[k] for k in SAMPLED_KEYS if k in m}
     out["net_aep_year1_mwh"] = flows.energy_mwh[:, 1].copy()
     out["net_aep_mean_mwh"] = flows.energy_mwh[:, 1:].mean(axis=1)
@@ -301,7 +306,7 @@ def run_trials(scn, case, inputs: dict, sample: Sample) -> dict:
 
 
 def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None = None,
-                chunk_size: int | None = None, progress=None) -> MonteCarloResult:
+                chunk_size: int | None = None, progress=None, workers: int | None = None) -> MonteCarloResult:
     """Run the Monte Carlo of a scenario; ``case`` is its deterministic run (made if None)."""
     case = case if case is not None else model.run(scn, breakeven=False)
     n = scn.montecarlo.trials if trials is None else int(trials)
@@ -315,28 +320,34 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     parts: dict[str, list] = {k: [] for k in SAMPLED_KEYS}
     drawn: dict[str, list] = {k: [] for k in scn.montecarlo.vary}
     blocks = math.ceil(n / BLOCK) if n else 0
-    done = 0
-    b = 0
-    while b < blocks:
-        group = []
-        while b < blocks and sum(len_ for len_, *_ in group) < chunk:
-            size = min(BLOCK, n - b * BLOCK)
-            inp, smp = draw_block(scn, size, _block_rng(seed, b), L)
-            group.append((size, inp, smp))
-            b += 1
-        inputs = {k: np.concatenate([g[1][k] for g in group]) for k in scn.montecarlo.vary}
-        inputs = _clip_inputs(scn, inputs, warnings)
-        sample = Sample(*[None if getattr(group[0][2], f) is None else
-                          np.concatenate([getattr(g[2], f) for g in group])
+    per_chunk = chunk // BLOCK
+    chunks = [(b, min(blocks, b + per_chunk)) for b in range(0, blocks, per_chunk)]
+
+    def one_chunk(span):
+        group = [draw_block(scn, min(BLOCK, n - b * BLOCK), _block_rng(seed, b), L) for b in range(*span)]
+        notes: list[str] = []
+        inputs = {k: np.concatenate([g[0][k] for g in group]) for k in scn.montecarlo.vary}
+        inputs = _clip_inputs(scn, inputs, notes)
+        sample = Sample(*[None if getattr(group[0][1], f) is None else
+                          np.concatenate([getattr(g[1], f) for g in group])
                           for f in ("speed_factor", "energy_factor", "downtime", "failure_cost")])
-        res = run_trials(scn, case, inputs, sample)
-        for k in SAMPLED_KEYS:
-            parts[k].append(res[k])
-        for k in drawn:
-            drawn[k].append(inputs[k])
-        done += sum(g[0] for g in group)
-        if progress is not None:
-            progress(done / n)
+        return run_trials(scn, case, inputs, sample), inputs, notes
+
+    workers = max(1, min(len(chunks), workers if workers is not None else (os.cpu_count() or 1), 4))
+    done = 0
+    # numpy releases the GIL inside its array loops, so chunks overlap on several cores;
+    # results are collected in chunk order, so they do not depend on the number of workers
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        results = pool.map(one_chunk, chunks) if workers > 1 else map(one_chunk, chunks)
+        for span, (res, inputs, notes) in zip(chunks, results):
+            for k in SAMPLED_KEYS:
+                parts[k].append(res[k])
+            for k in drawn:
+                drawn[k].append(inputs[k])
+            warnings.extend(notes)
+            done += min(n, span[1] * BLOCK) - span[0] * BLOCK
+            if progress is not None:
+                progress(done / n)
     samples = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
     for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh"):
         bad = int(np.sum(~np.isfinite(samples[k]))) if samples[k].size else 0
