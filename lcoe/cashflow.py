@@ -15,7 +15,7 @@ import numpy as np
 from lcoe import costs, energy as en
 from lcoe.resource import Z_90, Z_99
 
-DEBT_TOLERANCE = 1e-12   # relative change of the debt size (to capex) that ends the sizing iteration
+DEBT_TOLERANCE = 1e-12   # change of the debt and of each year's debt service (to capex) that ends the sizing iteration
 DEBT_MAX_ITER = 200
 
 # Modified ACRS, general depreciation system, half-year convention: US IRS Publication 946, Table A-1.
@@ -245,6 +245,10 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     the others are None.
     """
     inp = Inputs(scn, overrides)
+    if sample is not None:
+        for a in (sample.speed_factor, sample.energy_factor, sample.downtime, sample.failure_cost):
+            if a is not None and np.ndim(a) == 2:
+                inp.n = max(inp.n, a.shape[0])
     L = scn.lifetime
     n_turb = scn.project.turbines
     years = np.arange(1, L + 1)
@@ -420,7 +424,9 @@ def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, t
 
     DS_t = CFADS_t / target_dscr over the tenor; debt = min(PV of DS at the interest
     rate, max_gearing * capex). Interest lowers tax, which raises CFADS and the debt:
-    the loop repeats until the debt changes by less than DEBT_TOLERANCE * capex.
+    the loop repeats until the debt and every year's debt service change by less than
+    DEBT_TOLERANCE * capex (when the gearing cap binds the debt is fixed from the start,
+    but the shape of the debt service, and so the interest, still moves).
     """
     rev_s, om_s = operating(energy_t * case_factor)
     pre_tax = rev_s - om_s - decom_t
@@ -428,15 +434,16 @@ def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, t
     cap = max_gearing * capex
     interest = np.zeros_like(pre_tax)
     debt_prev = np.full(np.shape(capex), -1.0)
+    ds_prev = None
     tol = DEBT_TOLERANCE * np.maximum(np.abs(capex), 1.0)
     for it in range(1, DEBT_MAX_ITER + 1):
         tax = tax_with_carryforward(pre_tax - dep - interest, tax_rate)
         cfads = pre_tax - tax
         ds, debt, bound = sculpt(cfads, target_dscr, mask, interest_rate, cap)
         opening, interest, principal = amortise(ds, interest_rate)
-        if np.all(np.abs(debt - debt_prev) <= tol):
+        if np.all(np.abs(debt - debt_prev) <= tol) and ds_prev is not None and np.all(np.abs(ds - ds_prev) <= tol):
             break
-        debt_prev = debt
+        debt_prev, ds_prev = debt, ds
     debt = np.asarray(debt).reshape(-1, 1)
     fee = upfront_fee * debt
     return Schedule(debt, ds, interest, principal, opening, np.asarray(fee).reshape(-1, 1), cfads, it,

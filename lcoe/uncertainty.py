@@ -87,12 +87,19 @@ class _Point:
 
 
 def correlation_matrix(scn) -> np.ndarray:
+    """Correlation of the Gaussian copula that gives the requested rank correlations.
+
+    ``rho`` in ``[[montecarlo.correlation]]`` is a rank (Spearman) correlation; for a
+    Gaussian copula the normal correlation is r = 2 sin(pi rho / 6) (Pearson 1907's
+    relation between rank and product-moment correlation of a bivariate normal), and
+    rank correlations survive the marginal transforms unchanged.
+    """
     keys = list(scn.montecarlo.vary)
     m = len(keys)
     r = np.eye(m)
     for i, c in enumerate(scn.montecarlo.correlation):
         a, b = keys.index(c.between[0]), keys.index(c.between[1])
-        r[a, b] = r[b, a] = c.rho
+        r[a, b] = r[b, a] = 2.0 * math.sin(math.pi * c.rho / 6.0)
     try:
         np.linalg.cholesky(r)
     except np.linalg.LinAlgError:
@@ -269,13 +276,17 @@ def poisson(rng: np.random.Generator, lam) -> np.ndarray:
     (one uniform per count, far quicker than the general sampler when counts are small)."""
     lam = np.asarray(lam, float)
     first = float(lam.flat[0]) if lam.size else 0.0
-    if lam.size and np.all(lam == first):
+    if lam.size and np.all(lam == first) and first <= 10.0:
         kmax = int(first + 12.0 * math.sqrt(first) + 20)
-        cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), first))
-        cdf[-1] = 1.0
+        cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), first)).astype(np.float32)
         u = rng.random(lam.shape, dtype=np.float32)
-        counts = np.searchsorted(cdf.astype(np.float32), u, side="right")
-        return np.minimum(counts, kmax).astype(float)
+        # count = number of CDF steps below u; steps at 1.0 (float32) can never be passed
+        counts = np.zeros(lam.shape, np.float64)
+        for c in cdf:
+            if c >= 1.0:
+                break
+            counts += u > c
+        return counts
     return rng.poisson(lam).astype(float)
 
 

@@ -1,0 +1,207 @@
+"""Monte Carlo: sampling laws checked with scipy.stats and the standard normal quantiles."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import make_raw, make_scenario
+from scipy import stats
+
+from lcoe import model, uncertainty
+from lcoe.errors import ScenarioError
+
+Z90 = 1.2815515655446004  # standard normal 90 % quantile (scipy.stats.norm.ppf(0.9))
+
+
+def _quiet(**updates):
+    """The base test scenario with every source of spread switched off."""
+    raw = make_raw(**updates)
+    raw["uncertainty"] = {"interannual_speed_sd": 0.0}
+    raw.setdefault("montecarlo", {})["failures"] = "expected"
+    return raw
+
+
+def test_zero_spread_every_trial_equals_the_deterministic_case():
+    raw = _quiet()
+    raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": 0.03,
+                                        "replacement_cost": 300000.0, "downtime_days": 20.0}]
+    raw["montecarlo"]["vary"] = {"capex.turbine_per_kw": {"distribution": "uniform", "low": 1100.0,
+                                                          "high": 1100.0}}
+    scn = make_scenario(raw)
+    case = model.run(scn)
+    mc = uncertainty.monte_carlo(scn, case, trials=300)
+    for key in ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
+                "equity_irr", "min_dscr", "avg_dscr", "llcr", "payback_year"):
+        assert np.all(mc.samples[key] == case.metrics[key]), key
+    assert np.all(mc.samples["net_aep_year1_mwh"] == case.flows.energy_mwh[0, 1])
+
+
+def test_energy_uncertainty_p90_matches_the_normal_quantile():
+    """Standard normal quantile: P90 = P50 (1 - 1.2816 sigma); 50,000 trials, within 1 %."""
+    sigma = 0.08
+    raw = _quiet(**{"operations.availability_first_year": 0.97})
+    raw["uncertainty"]["energy"] = [{"name": "losses", "sd": sigma}]
+    scn = make_scenario(raw)
+    case = model.run(scn, breakeven=False)
+    mc = uncertainty.monte_carlo(scn, case, trials=50_000, seed=11)
+    p50 = case.flows.energy_mwh[0, 1]
+    p90 = mc.stats("net_aep_year1_mwh")["p90"]
+    assert p90 == pytest.approx(p50 * (1 - Z90 * sigma), rel=0.01)
+    assert mc.stats("net_aep_year1_mwh")["p50"] == pytest.approx(p50, rel=0.01)
+    # LCOE is a cost: its P90 is on the high side
+    lcoe = mc.stats("lcoe_nominal_per_mwh")
+    assert lcoe["p90"] > lcoe["p50"] > lcoe["p75"] - 1e9 and lcoe["p90"] > lcoe["p75"]
+
+
+@pytest.mark.parametrize("spec,dist", [
+    ({"distribution": "normal", "mean": 1100.0, "sd": 50.0}, stats.norm(1100.0, 50.0)),
+    ({"distribution": "uniform", "low": 1000.0, "high": 1200.0}, stats.uniform(1000.0, 200.0)),
+    ({"distribution": "triangular", "low": 1000.0, "mode": 1050.0, "high": 1250.0},
+     stats.triang(c=0.2, loc=1000.0, scale=250.0)),
+    ({"distribution": "lognormal", "mean": 1100.0, "sd": 80.0},
+     stats.lognorm(s=np.sqrt(np.log(1 + (80 / 1100) ** 2)),
+                   scale=np.exp(np.log(1100.0) - np.log(1 + (80 / 1100) ** 2) / 2))),
+])
+@pytest.mark.parametrize("sampling", ["random", "latin_hypercube"])
+def test_sampled_marginals_pass_kolmogorov_smirnov(spec, dist, sampling):
+    """scipy.stats.kstest of the drawn inputs against the distribution asked for."""
+    raw = _quiet()
+    raw["montecarlo"].update({"sampling": sampling, "vary": {"capex.turbine_per_kw": spec}})
+    scn = make_scenario(raw)
+    x = uncertainty.draw_inputs(scn, 4000, np.random.default_rng(3))["capex.turbine_per_kw"]
+    assert stats.kstest(x, dist.cdf).pvalue > 0.01
+    assert x.mean() == pytest.approx(dist.mean(), rel=0.01)
+
+
+@pytest.mark.parametrize("rho", [-0.6, 0.3, 0.8])
+def test_requested_rank_correlation_is_met(rho):
+    """Spearman rank correlation (scipy.stats.spearmanr) of the draws within 0.05 of rho."""
+    raw = _quiet()
+    raw["montecarlo"]["vary"] = {
+        "capex.turbine_per_kw": {"distribution": "triangular", "low": 1000.0, "high": 1300.0},
+        "maintenance.fixed_per_kw_year": {"distribution": "lognormal", "sd": 6.0},
+        "revenue.ppa_price_per_mwh": {"distribution": "uniform", "low": 50.0, "high": 80.0},
+    }
+    raw["montecarlo"]["correlation"] = [{"between": ["capex.turbine_per_kw", "maintenance.fixed_per_kw_year"],
+                                         "rho": rho}]
+    scn = make_scenario(raw)
+    d = uncertainty.draw_inputs(scn, 20_000, np.random.default_rng(8))
+    r = stats.spearmanr(d["capex.turbine_per_kw"], d["maintenance.fixed_per_kw_year"]).statistic
+    assert r == pytest.approx(rho, abs=0.05)
+    r0 = stats.spearmanr(d["capex.turbine_per_kw"], d["revenue.ppa_price_per_mwh"]).statistic
+    assert abs(r0) < 0.05
+
+
+def test_impossible_correlations_are_refused():
+    raw = _quiet()
+    raw["montecarlo"]["vary"] = {k: {"distribution": "normal", "sd": 1.0} for k in
+                                 ("capex.turbine_per_kw", "maintenance.fixed_per_kw_year",
+                                  "revenue.ppa_price_per_mwh")}
+    raw["montecarlo"]["correlation"] = [
+        {"between": ["capex.turbine_per_kw", "maintenance.fixed_per_kw_year"], "rho": 0.95},
+        {"between": ["capex.turbine_per_kw", "revenue.ppa_price_per_mwh"], "rho": 0.95},
+        {"between": ["maintenance.fixed_per_kw_year", "revenue.ppa_price_per_mwh"], "rho": -0.95}]
+    scn = make_scenario(raw)
+    with pytest.raises(ScenarioError, match=r"montecarlo.correlation: the correlations together are impossible"):
+        uncertainty.monte_carlo(scn, trials=100)
+
+
+def test_failure_counts_are_poisson():
+    """Poisson law: mean and variance of the count over the life = rate * turbines * years (3 SE)."""
+    raw = _quiet()
+    raw["montecarlo"]["failures"] = "sampled"
+    rate, turbines, years = 0.04, 10, 20
+    raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": rate,
+                                        "replacement_cost": 1.0, "downtime_days": 0.0}]
+    scn = make_scenario(raw)
+    n = 20_000
+    _, sample = uncertainty.draw_block(scn, n, np.random.default_rng(21), years)
+    counts = sample.failure_cost.sum(axis=1)          # cost 1 per event: the count over the life
+    lam = rate * turbines * years
+    assert abs(counts.mean() - lam) < 3 * np.sqrt(lam / n)
+    # the sample variance of a Poisson count has sd about sqrt((lam + 2 lam^2) / n)
+    assert abs(counts.var(ddof=1) - lam) < 3 * np.sqrt((lam + 2 * lam ** 2) / n)
+    per_year = sample.failure_cost
+    assert per_year.mean() == pytest.approx(rate * turbines, rel=0.03)
+
+
+def test_failures_cost_and_downtime_reach_the_results():
+    raw = _quiet()
+    raw["montecarlo"]["failures"] = "sampled"
+    raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": 0.05,
+                                        "replacement_cost": 400000.0, "downtime_days": 40.0}]
+    scn = make_scenario(raw)
+    case = model.run(scn, breakeven=False)
+    mc = uncertainty.monte_carlo(scn, case, trials=8000, seed=4)
+    # the expected values drive the deterministic case, so the trial means come close to it
+    assert mc.stats("opex_mean")["mean"] == pytest.approx(case.flows.opex[0, 1:].mean(), rel=0.01)
+    assert mc.stats("net_aep_mean_mwh")["mean"] == pytest.approx(case.flows.energy_mwh[0, 1:].mean(), rel=0.002)
+    assert mc.stats("lcoe_nominal_per_mwh")["sd"] > 0
+
+
+def test_same_seed_same_result_and_chunking_and_threads_do_not_matter():
+    scn = make_scenario(make_raw())
+    case = model.run(scn, breakeven=False)
+    n = 3 * uncertainty.BLOCK + 123
+    a = uncertainty.monte_carlo(scn, case, trials=n, seed=99, chunk_size=uncertainty.BLOCK, workers=1)
+    b = uncertainty.monte_carlo(scn, case, trials=n, seed=99, chunk_size=4 * uncertainty.BLOCK, workers=1)
+    c = uncertainty.monte_carlo(scn, case, trials=n, seed=99, chunk_size=uncertainty.BLOCK, workers=2)
+    d = uncertainty.monte_carlo(scn, case, trials=n, seed=100)
+    for k in a.samples:
+        np.testing.assert_array_equal(a.samples[k], b.samples[k])
+        np.testing.assert_array_equal(a.samples[k], c.samples[k])
+    assert not np.array_equal(a.samples["equity_npv"], d.samples["equity_npv"])
+    assert a.samples["equity_npv"].size == n
+
+
+def test_wind_speed_uncertainty_goes_through_the_aep_curve():
+    """A long-term speed factor moves energy by the model's own AEP(scale), not a fixed exponent."""
+    raw = _quiet()
+    raw["uncertainty"]["speed"] = [{"name": "measurement", "sd": 0.05}]
+    scn = make_scenario(raw)
+    case = model.run(scn, breakeven=False)
+    mc = uncertainty.monte_carlo(scn, case, trials=20_000, seed=5)
+    from lcoe import energy as en
+    site = en.site_for(scn)
+    # the median trial has a speed factor near 1; the 10th percentile one near 1 - 1.2816 * 0.05
+    e1 = mc.samples["net_aep_year1_mwh"]
+    f10 = 1 - Z90 * 0.05
+    expected = case.flows.energy_mwh[0, 1] * float(site.aep_direct(f10)[0] / site.gross_aep_mwh)
+    assert np.percentile(e1, 10) == pytest.approx(expected, rel=0.01)
+
+
+def test_report_block_has_the_contract_keys():
+    scn = make_scenario(make_raw())
+    case = model.run(scn, breakeven=False)
+    rep = uncertainty.monte_carlo(scn, case, trials=2000, seed=1).report()
+    assert rep["trials"] == 2000 and rep["seed"] == 1
+    for key in ("lcoe_nominal_per_mwh", "project_npv", "equity_irr", "min_dscr"):
+        assert set(rep[key]) == {"p50", "p75", "p90", "p99", "mean", "sd"}
+    for key in ("prob_min_dscr_below_1", "prob_min_dscr_below_target", "prob_equity_irr_below_target"):
+        assert 0.0 <= rep[key] <= 1.0
+    assert sum(rep["histogram"]["lcoe_nominal_per_mwh"]["counts"]) == 2000
+    assert rep["p90_standard_error"]["lcoe_nominal_per_mwh"] > 0
+    # conservative side: a higher-is-better metric has P90 below P50, a cost above it
+    assert rep["equity_npv"]["p90"] < rep["equity_npv"]["p50"]
+    assert rep["lcoe_nominal_per_mwh"]["p90"] > rep["lcoe_nominal_per_mwh"]["p50"]
+
+
+def test_draws_outside_a_keys_range_are_clipped_and_reported():
+    raw = _quiet()
+    raw["montecarlo"]["vary"] = {"losses.wake": {"distribution": "normal", "mean": 0.02, "sd": 0.05}}
+    scn = make_scenario(raw)
+    mc = uncertainty.monte_carlo(scn, trials=2000, seed=2)
+    assert mc.inputs["losses.wake"].min() >= 0.0
+    assert any("montecarlo.vary.losses.wake" in w and "clipped" in w for w in mc.warnings)
+
+
+def test_cli_trials_override_prints_the_block(capsys):
+    import json
+
+    from conftest import DEMO
+
+    from lcoe.cli import main
+    assert main(["run", str(DEMO), "--json", "--trials", "3000"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["montecarlo"]["trials"] == 3000
+    assert out["montecarlo"]["seed"] == 2028
