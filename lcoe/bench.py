@@ -38,28 +38,109 @@ def _peak_rss_mb() -> float:
     return kb / 1024.0 if sys.platform != "darwin" else kb / 1024.0 / 1024.0
 
 
-def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
-    """The straightforward way: each trial on its own, NPV and IRR from numpy-financial."""
+def _carry_forward(taxable: float, pool: float, rate: float) -> tuple[float, float]:
+    """One year of tax with a loss pool: returns (tax, new pool)."""
+    if taxable <= 0:
+        return 0.0, pool - taxable
+    used = min(pool, taxable)
+    return rate * (taxable - used), pool - used
+
+
+def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cost) -> dict:
+    """One Monte Carlo trial the straightforward way: a Python loop over the years, then
+    numpy-financial's ``npv`` and ``irr``. ``over`` holds this trial's drawn inputs;
+    ``speed``, ``downtime`` and ``fail_cost`` are its yearly draws (or None), ``efac`` its
+    energy factor (or None). The debt schedule is the one fixed at close."""
     import numpy_financial as npf
 
-    from lcoe import cashflow, metrics as mt
-    from lcoe.cashflow import Sample
+    from lcoe.cashflow import depreciation_shares
 
-    f = scn.finance
-    out = {"project_npv": [], "project_irr": [], "equity_npv": [], "equity_irr": [], "lcoe_nominal_per_mwh": []}
+    def get(key, default):
+        return float(over[key]) if key in over else float(default)
+
+    L, n = scn.lifetime, scn.project.turbines
+    kw = get("turbine.rated_power_kw", scn.turbine.rated_power_kw) * n
+    lf = 1.0
+    for name in ("wake", "electrical", "turbine_performance", "environmental", "curtailment", "other"):
+        lf *= 1.0 - get(f"losses.{name}", getattr(scn.losses, name))
+    o, m, c, r, f = scn.operations, scn.maintenance, scn.capex, scn.revenue, scn.finance
+    mature = get("operations.availability_mature", o.availability_mature)
+    first = get("operations.availability_first_year", scn.availability_first_year)
+    comps = [(get(f"maintenance.component.{x.name}.failure_rate_per_turbine_year", x.failure_rate_per_turbine_year),
+              get(f"maintenance.component.{x.name}.replacement_cost", x.replacement_cost),
+              get(f"maintenance.component.{x.name}.downtime_days", x.downtime_days)) for x in m.component]
+    exp_down = sum(rate * days / 365.0 for rate, _, days in comps)
+    exp_cost = sum(rate * n * cost for rate, cost, _ in comps)
+    capex = ((get("capex.turbine_per_kw", c.turbine_per_kw) + get("capex.balance_of_plant_per_kw",
+              c.balance_of_plant_per_kw)) * kw + get("capex.grid_connection", c.grid_connection)
+             + get("capex.development", c.development)) * (1.0 + get("capex.contingency", c.contingency))
+    esc = get("maintenance.escalation", scn.escalation)
+    shares = depreciation_shares(f.depreciation, int(get("finance.depreciation_years", f.depreciation_years)), L)
+    tax_rate = get("finance.tax_rate", f.tax_rate)
+    sched = case.schedule
+    gross = site.gross_aep_mwh
+    energy, costs, project, equity = [0.0], [0.0], [-capex], [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
+    pool_u = pool_l = 0.0
+    for t in range(1, L + 1):
+        avail = first if t <= 1 else mature
+        if t > get("operations.ageing_starts_year", o.ageing_starts_year):
+            avail -= get("operations.availability_ageing_per_year", o.availability_ageing_per_year) * (
+                t - get("operations.ageing_starts_year", o.ageing_starts_year))
+        avail = min(max(avail, 0.0), 1.0)
+        g = gross if speed is None else gross * float(np.interp(speed[t - 1], site.factors, site.aep_ratios))
+        down = exp_down if downtime is None else downtime[t - 1]
+        e = g * lf * avail * (1.0 - down) * (1.0 - get("operations.degradation_per_year",
+                                                         o.degradation_per_year)) ** (t - 1)
+        if efac is not None:
+            e *= efac
+        if t <= get("revenue.ppa_term_years", scn.ppa_term_years):
+            price = get("revenue.ppa_price_per_mwh", r.ppa_price_per_mwh) * (1 + get("revenue.ppa_escalation",
+                                                                                   r.ppa_escalation)) ** t
+        else:
+            price = get("revenue.merchant_price_per_mwh", scn.merchant_price_per_mwh) * (
+                1 + get("revenue.merchant_escalation", r.merchant_escalation)) ** t
+        credit = get("revenue.production_credit_per_mwh", r.production_credit_per_mwh) \
+            if t <= get("revenue.production_credit_years", r.production_credit_years) else 0.0
+        revenue = e * (price + credit)
+        works = sum(get(f"maintenance.overhaul.{x.name}.cost_per_turbine", x.cost_per_turbine) * n
+                    for x in m.overhaul if get(f"maintenance.overhaul.{x.name}.year", x.year) == t)
+        failures = exp_cost if fail_cost is None else fail_cost[t - 1]
+        om = ((get("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
+               + get("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)) * kw
+              + get("maintenance.variable_per_mwh", m.variable_per_mwh) * e + failures + works) * (1 + esc) ** t \
+            + get("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue) * revenue
+        decom = (get("capex.decommissioning_per_kw", c.decommissioning_per_kw)
+                 - get("capex.salvage_per_kw", c.salvage_per_kw)) * kw * (1 + esc) ** L if t == L else 0.0
+        pre_tax = revenue - om - decom
+        dep = capex * shares[t - 1]
+        tax_u, pool_u = _carry_forward(pre_tax - dep, pool_u, tax_rate)
+        tax_l, pool_l = _carry_forward(pre_tax - dep - float(sched.interest[0, t - 1]), pool_l, tax_rate)
+        energy.append(e)
+        costs.append(om + decom)
+        project.append(pre_tax - tax_u)
+        equity.append(pre_tax - tax_l - float(sched.debt_service[0, t - 1]))
+    rate = get("finance.discount_rate", f.discount_rate)
+    disc = [(1 + rate) ** -t for t in range(L + 1)]
+    pv_energy = sum(x * d for x, d in zip(energy, disc))
+    lcoe = (capex + sum(x * d for x, d in zip(costs, disc))) / pv_energy if pv_energy > 0 else float("nan")
+    eq_rate = get("finance.equity_target_return", scn.equity_target_return)
+    return {"project_npv": npf.npv(rate, project), "project_irr": npf.irr(project),
+            "equity_npv": npf.npv(eq_rate, equity), "equity_irr": npf.irr(equity), "lcoe_nominal_per_mwh": lcoe}
+
+
+def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
+    """The straightforward way: each trial on its own (:func:`reference_trial`)."""
+    from lcoe import energy as en
+
+    site = en.site_for(scn)
+    out: dict[str, list] = {}
     for i in rows:
-        one = {k: v[i:i + 1] for k, v in inputs.items()}
-        smp = Sample(*[None if getattr(sample, a) is None else getattr(sample, a)[i:i + 1]
-                       for a in ("speed_factor", "energy_factor", "downtime", "failure_cost")])
-        fl = cashflow.evaluate(scn, case.energy, overrides=one or None, sample=smp, schedule=case.schedule)
-        r = float(one.get("finance.discount_rate", [f.discount_rate])[0])
-        eq = float(one.get("finance.equity_target_return", [scn.equity_target_return])[0])
-        out["project_npv"].append(npf.npv(r, fl.project_cash_flow[0]))
-        out["project_irr"].append(npf.irr(fl.project_cash_flow[0]))
-        out["equity_npv"].append(npf.npv(eq, fl.equity_cash_flow[0]))
-        out["equity_irr"].append(npf.irr(fl.equity_cash_flow[0]))
-        out["lcoe_nominal_per_mwh"].append(float(mt.lcoe(fl.capex_total, fl.opex, fl.decommissioning,
-                                                         fl.energy_mwh, r)[0]))
+        pick = (lambda a: None if a is None else a[i])  # noqa: E731
+        res = reference_trial(scn, case, site, {k: v[i] for k, v in inputs.items()},
+                              pick(sample.speed_factor), None if sample.energy_factor is None else
+                              float(sample.energy_factor[i, 0]), pick(sample.downtime), pick(sample.failure_cost))
+        for k, v in res.items():
+            out.setdefault(k, []).append(v)
     return {k: np.asarray(v, float) for k, v in out.items()}
 
 
