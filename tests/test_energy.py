@@ -1,0 +1,222 @@
+"""Gross and net energy: the Weibull integral, hourly series, losses, availability, P-values."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+from scipy.special import gamma
+from scipy.stats import norm, weibull_min
+
+from lcoe import energy as en
+from lcoe import turbine as tb
+
+from conftest import ROOT, make_raw, make_scenario
+
+DEMO_CURVE = ROOT / "demo" / "tallowmere_curve.csv"
+
+
+@pytest.mark.parametrize("a, k", [(6.0, 1.6), (7.9, 2.0), (9.2, 2.4), (11.0, 3.2)])
+def test_uncapped_physics_curve_integrates_to_the_third_moment(a, k):
+    """Mean power of P = 0.5 rho A_rotor Cp eta v^3 over a Weibull climate is
+    0.5 rho A_rotor Cp eta A_w^3 Gamma(1 + 3/k).
+
+    Source: Weibull third moment (standard distribution formula) times the kinetic
+    energy flux (physics); tolerance 1e-4.
+    """
+    rho, d, cp, eta = 1.2, 120.0, 0.48, 0.94
+    curve = tb.physics_curve(math.inf, d, cp, cut_in_mps=0.0, cut_out_mps=90.0, drivetrain_efficiency=eta)
+    site = curve.at_density(rho)
+    got = float(en.mean_power_weibull_kw(site, a, k))
+    area = math.pi * d ** 2 / 4
+    expected = 0.5 * rho * area * cp * eta * a ** 3 * gamma(1 + 3 / k) / 1000.0
+    assert got == pytest.approx(expected, rel=1e-4)
+
+
+def test_capped_curve_integral_matches_scipy_quadrature():
+    """The piecewise Gauss-Legendre integral against scipy.integrate.quad of P(v) f(v) on the demo table."""
+    from scipy.integrate import quad
+
+    curve = tb.read_curve_csv(DEMO_CURVE, 4200.0, 136.0)
+    site = curve.at_density(1.19)
+    a, k = 8.4, 2.1
+    pts = list(site.breaks_mps)
+    ref, _ = quad(lambda v: float(site.power_kw(v)) * weibull_min.pdf(v, k, scale=a), 0.0, float(max(pts)),
+                  points=pts, limit=500, epsabs=1e-10)
+    assert float(en.mean_power_weibull_kw(site, a, k)) == pytest.approx(ref, rel=1e-6)
+
+
+# --------------------------------------------------------------------------- Weibull against a series
+
+N_HOURS = 40 * 8760   # 40 years of hours: sampling sd of the mean power about 0.16 % for this turbine
+
+
+@pytest.fixture(scope="module")
+def weibull_series(tmp_path_factory):
+    """A long hourly series sampled (fixed seed) from the BASE climate: k = 2, mean 7 m/s at hub height."""
+    import pandas as pd
+
+    k, mean = 2.0, 7.0
+    a = mean / gamma(1 + 1 / k)
+    v = weibull_min.rvs(k, scale=a, size=N_HOURS, random_state=np.random.default_rng(2024))
+    v = np.round(v, 3)
+    folder = tmp_path_factory.mktemp("series")
+    path = folder / "wind.csv"
+    stamps = pd.date_range("2000-01-01", periods=N_HOURS, freq="h", tz="UTC")
+    pd.DataFrame({"timestamp": stamps.strftime("%Y-%m-%dT%H:%M:%SZ"), "speed_mps": v}).to_csv(path, index=False)
+    return path, v
+
+
+def _series_scenario(path, **updates):
+    raw = make_raw(**updates)
+    raw["wind"].pop("mean_speed_mps")
+    raw["wind"].pop("weibull_shape")
+    raw["wind"]["timeseries"] = str(path)
+    return make_scenario(raw)
+
+
+@pytest.mark.parametrize("curve", ["physics", "table"])
+def test_weibull_integral_agrees_with_a_long_sampled_series(weibull_series, curve):
+    """Weibull-integral AEP within 0.5 % of the AEP of a long hourly series drawn from the same
+    Weibull (the law of large numbers; sampling from scipy.stats.weibull_min)."""
+    path, _ = weibull_series
+    table = {} if curve == "physics" else dict(
+        turbine__cp_max=None, turbine__cut_in_mps=None, turbine__cut_out_mps=None, turbine__drivetrain_efficiency=None,
+        turbine__power_curve=str(DEMO_CURVE), turbine__rated_power_kw=4200.0, turbine__rotor_diameter_m=136.0,
+        turbine__hub_height_m=110.0, wind__height_m=110.0)
+    weib = en.energy_of(make_scenario(**table))
+    series = en.energy_of(_series_scenario(path, **table))
+    assert series.gross_aep_mwh == pytest.approx(weib.gross_aep_mwh, rel=0.005)
+    assert series.air_density_kgm3 == weib.air_density_kgm3
+
+
+def test_series_reproduces_its_own_mean_power(weibull_series):
+    """Gross AEP of a series = turbines * 8760 h * mean of P(v_i), P evaluated here from the
+    physics formula min(rated, 0.5 rho A Cp eta v^3) inside cut-in..cut-out (kinetic energy flux)."""
+    path, v = weibull_series
+    scn = _series_scenario(path)
+    e = en.energy_of(scn)
+    rho = e.air_density_kgm3
+    p = np.minimum(0.5 * rho * math.pi * 55.0 ** 2 * 0.45 * 0.95 * v ** 3 / 1000.0, 3000.0)
+    p = np.where((v >= 3.0) & (v < 25.0), p, 0.0)
+    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * p.mean() / 1000.0, rel=1e-12)
+    assert e.hub_mean_speed_mps == pytest.approx(v.mean(), rel=1e-12)
+
+
+def test_series_with_temperature_uses_hourly_density(tmp_path):
+    """With a temperature column every hour has its own density, rho = p / (287.05 (T + 273.15))
+    (ISO 2533 pressure; IEC 61400-12-1 gas constant): the mean of P(v_i, rho_i)."""
+    import pandas as pd
+
+    n = 24 * 40
+    rng = np.random.default_rng(5)
+    v = np.round(rng.uniform(2.0, 14.0, n), 2)
+    t_c = np.round(rng.uniform(-10.0, 30.0, n), 1)
+    stamps = pd.date_range("2020-01-01", periods=n, freq="h", tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+    path = tmp_path / "w.csv"
+    pd.DataFrame({"timestamp": stamps, "speed_mps": v, "temperature_c": t_c}).to_csv(path, index=False)
+    e = en.energy_of(_series_scenario(path, wind__elevation_m=300.0))
+    pressure = 101325.0 * (1 - 2.25577e-5 * 300.0) ** 5.25588
+    rho = pressure / (287.05 * (t_c + 273.15))
+    p = np.minimum(0.5 * rho * math.pi * 55.0 ** 2 * 0.45 * 0.95 * v ** 3 / 1000.0, 3000.0)
+    p = np.where((v >= 3.0) & (v < 25.0), p, 0.0)
+    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * p.mean() / 1000.0, rel=1e-12)
+    assert e.air_density_kgm3 == pytest.approx(rho.mean(), rel=1e-12)
+
+
+# --------------------------------------------------------------------------- gross to net
+
+def _full_raw():
+    return make_raw(
+        losses={"wake": 0.08, "electrical": 0.02, "turbine_performance": 0.015, "environmental": 0.01,
+                "curtailment": 0.01, "other": 0.005},
+        operations={"availability_first_year": 0.94, "availability_mature": 0.97, "ageing_starts_year": 15,
+                    "availability_ageing_per_year": 0.002, "degradation_per_year": 0.004},
+        maintenance={"component": [
+            {"name": "gearbox", "failure_rate_per_turbine_year": 0.025, "replacement_cost": 3e5, "downtime_days": 30.0},
+            {"name": "generator", "failure_rate_per_turbine_year": 0.015, "replacement_cost": 2e5,
+             "downtime_days": 14.0}]},
+        uncertainty={"interannual_speed_sd": 0.06, "speed": [{"name": "measurement", "sd": 0.025}],
+                     "energy": [{"name": "losses", "sd": 0.03}, {"name": "curve", "sd": 0.02}]},
+    )
+
+
+def test_yearly_net_energy_follows_the_loss_chain():
+    """E_t = gross prod(1 - loss_k) avail_t (1 - D) (1 - deg)^(t - 1), written out by hand.
+
+    Loss categories as in EWEA, "Wind Energy - The Facts"; the total here (about 13 %) lies
+    in its usual 10-20 % range.
+    """
+    scn = make_scenario(_full_raw())
+    e = en.energy_of(scn)
+    lf = 0.92 * 0.98 * 0.985 * 0.99 * 0.99 * 0.995
+    assert e.loss_factor == pytest.approx(lf, rel=1e-12)
+    assert 0.10 <= 1 - lf <= 0.20
+    d = 0.025 * 30 / 365 + 0.015 * 14 / 365
+    assert e.downtime_fraction == pytest.approx(d, rel=1e-12)
+    t = np.arange(1, 21)
+    avail = np.where(t == 1, 0.94, 0.97) - np.where(t > 15, 0.002 * (t - 15), 0.0)
+    assert_allclose(e.availability, avail, rtol=1e-12)
+    assert e.availability[15] == pytest.approx(0.97 - 0.002)     # year 16: first ageing year
+    expected = e.gross_aep_mwh * lf * avail * (1 - d) * 0.996 ** (t - 1)
+    assert_allclose(e.energy_mwh, expected, rtol=1e-12)
+    assert e.net_aep_p50_mwh == pytest.approx(e.gross_aep_mwh * lf * 0.97 * (1 - d), rel=1e-12)
+    assert e.net_capacity_factor == pytest.approx(e.net_aep_p50_mwh / (30_000 * 8.76), rel=1e-12)
+
+
+def test_p_values_from_the_sensitivity_and_the_uncertainty_terms():
+    """sigma_1yr = sqrt((S iav)^2 + sum (S sd)^2 + sum sd_E^2), sigma_10yr with iav^2 / 10
+    (common practice in energy-yield assessment); P90 = P50 (1 - z_90 sigma), P99 with z_99
+    (standard normal quantiles, scipy.stats.norm)."""
+    scn = make_scenario(_full_raw())
+    e = en.energy_of(scn)
+    s = e.speed_sensitivity
+    # S = d ln AEP / d ln v by central difference of +-1 % on the scale (the conventions)
+    site = en.site_for(scn)
+    lo, hi = site.aep_direct(np.array([0.99, 1.01]))
+    assert s == pytest.approx(math.log(hi / lo) / math.log(1.01 / 0.99), rel=1e-12)
+    assert 1.0 < s < 3.0                      # between the capped and the cubic limits
+    s1 = math.sqrt((s * 0.06) ** 2 + (s * 0.025) ** 2 + 0.03 ** 2 + 0.02 ** 2)
+    s10 = math.sqrt((s * 0.06) ** 2 / 10 + (s * 0.025) ** 2 + 0.03 ** 2 + 0.02 ** 2)
+    assert e.sigma_1yr == pytest.approx(s1, rel=1e-12)
+    assert e.sigma_10yr == pytest.approx(s10, rel=1e-12)
+    assert e.net_aep_p90_1yr_mwh == pytest.approx(e.net_aep_p50_mwh * (1 - norm.ppf(0.9) * s1), rel=1e-9)
+    assert e.net_aep_p90_10yr_mwh == pytest.approx(e.net_aep_p50_mwh * (1 - norm.ppf(0.9) * s10), rel=1e-9)
+    assert e.net_aep_p99_1yr_mwh == pytest.approx(e.net_aep_p50_mwh * (1 - norm.ppf(0.99) * s1), rel=1e-9)
+
+
+def test_p90_over_p50_at_ten_percent_sigma():
+    """P90/P50 = 0.871845 at sigma 10 % (standard normal distribution), tolerance 1e-6."""
+    scn = make_scenario(uncertainty={"interannual_speed_sd": 0.0, "energy": [{"name": "all", "sd": 0.10}]})
+    e = en.energy_of(scn)
+    assert e.sigma_1yr == pytest.approx(0.10, abs=1e-15)
+    assert e.net_aep_p90_1yr_mwh / e.net_aep_p50_mwh == pytest.approx(0.871845, abs=1e-6)
+    assert e.case_factor("p90_1yr") == pytest.approx(0.871845, abs=1e-6)
+
+
+def test_n_year_sigma_shrinks_only_the_interannual_term():
+    """sigma_N = sqrt(sigma_iav^2 / N + sigma_other^2) (common practice), tolerance 1e-9."""
+    assert en.sigma_total(1.0, 0.06, [], [0.05], years=10) == pytest.approx(math.sqrt(0.06 ** 2 / 10 + 0.05 ** 2),
+                                                                              abs=1e-9)
+
+
+def test_speed_sensitivity_of_an_uncapped_cubic_curve_is_three():
+    """For P ~ v^3 with the cap (71 m/s) and the cut-out (60 m/s) far in the tail, AEP ~ A^3, so d ln AEP / d ln v = 3 (physics)."""
+    scn = make_scenario(turbine__rotor_diameter_m=20.0, turbine__cut_in_mps=0.0, turbine__cut_out_mps=60.0,
+                        wind__mean_speed_mps=6.0)
+    assert en.energy_of(scn).speed_sensitivity == pytest.approx(3.0, rel=1e-6)
+
+
+def test_availability_profile_never_negative():
+    t = np.arange(1, 61)
+    a = en.availability_profile(t, 0.95, 0.97, 10, 0.05)
+    assert a.min() == 0.0 and a[0] == 0.95 and a[10] == pytest.approx(0.92)
+
+
+def test_site_speed_factor_table_matches_direct_integration():
+    """The tabulated AEP(factor) used by batches agrees with direct integration to 1e-5."""
+    site = en.site_for(make_scenario())
+    f = np.array([0.813, 0.95, 1.0, 1.0371, 1.2])
+    assert_allclose(site.gross_at_factor(f), site.aep_direct(f), rtol=1e-5)
