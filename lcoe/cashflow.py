@@ -81,8 +81,11 @@ def tax_with_carryforward(taxable, rate):
 
 def _carry(taxable, rate):
     cum = np.cumsum(taxable, axis=-1)
-    peak = np.maximum.accumulate(np.maximum(cum, 0.0), axis=-1)
-    taxed = np.diff(peak, axis=-1, prepend=0.0)
+    np.maximum(cum, 0.0, out=cum)
+    peak = np.maximum.accumulate(cum, axis=-1)
+    taxed = np.empty_like(peak)
+    taxed[..., :1] = peak[..., :1]
+    np.subtract(peak[..., 1:], peak[..., :-1], out=taxed[..., 1:])
     return rate * taxed
 
 

@@ -94,8 +94,9 @@ class Site:
         """AEP(f) / AEP(1) by linear interpolation in the table (direct integration outside it)."""
         f = np.asarray(factor, float)
         out = _interp_uniform(f, self.factors, self.aep_ratios)
-        if np.any((f < self.factors[0]) | (f > self.factors[-1])):
-            out = np.where((f < self.factors[0]) | (f > self.factors[-1]), self._direct_ratio(f), out)
+        if f.size and (f.min() < self.factors[0] or f.max() > self.factors[-1]):
+            outside = (f < self.factors[0]) | (f > self.factors[-1])
+            out = np.where(outside, self._direct_ratio(f), out)
         return out
 
     def _direct_ratio(self, f: np.ndarray) -> np.ndarray:
@@ -119,11 +120,17 @@ def _interp_uniform(x, xp, fp):
     """np.interp for an evenly spaced grid ``xp``: the cell index is computed, not searched."""
     n = xp.size
     h = (xp[-1] - xp[0]) / (n - 1)
-    pos = (np.clip(x, xp[0], xp[-1]) - xp[0]) / h
-    i = np.minimum(pos.astype(np.intp), n - 2)
-    w = pos - i
-    lo = fp[i]
-    return lo + w * (fp[i + 1] - lo)
+    pos = np.clip(x, xp[0], xp[-1])
+    pos -= xp[0]
+    pos /= h
+    i = pos.astype(np.intp)
+    np.minimum(i, n - 2, out=i)
+    pos -= i
+    slope = np.diff(fp)
+    out = slope[i]
+    out *= pos
+    out += fp[i]
+    return out
 
 
 def climate_from(scn) -> Climate:

@@ -22,13 +22,16 @@ def npv(rate, values):
     return (v * discount_factors(rate, v.shape[-1])).sum(axis=-1)
 
 
-def _horner(c, x):
-    """f(x) = sum c_t x^t and f'(x) for rows of coefficients, by Horner's rule."""
+def _horner(ct, x):
+    """f(x) = sum c_t x^t and f'(x) by Horner's rule; ``ct`` is (periods, rows), one row of
+    coefficients per period, so each step works on contiguous memory."""
     f = np.zeros(x.shape)
     d = np.zeros(x.shape)
-    for k in range(c.shape[1] - 1, -1, -1):
-        d = d * x + f
-        f = f * x + c[:, k]
+    for k in range(ct.shape[0] - 1, -1, -1):
+        d *= x
+        d += f
+        f *= x
+        f += ct[k]
     return f, d
 
 
@@ -54,17 +57,20 @@ def irr(values, *, guess=0.1, tol=1e-13, max_iter=50):
     x = np.full(n, 1.0 / (1.0 + guess))
     active = ok.copy()
     done = np.zeros(n, bool)
+    ct = np.ascontiguousarray(c.T)
     with np.errstate(all="ignore"):
         for _ in range(max_iter):
             idx = np.nonzero(active)[0]
             if idx.size == 0:
                 break
-            f, d = _horner(c[idx], x[idx])
+            whole = idx.size == n
+            xi = x if whole else x[idx]
+            f, d = _horner(ct if whole else ct[:, idx], xi)
             step = f / d
-            xn = x[idx] - step
+            xn = xi - step
             bad = ~np.isfinite(xn) | (xn <= 0)
             conv = ~bad & (np.abs(step) <= tol * np.maximum(1.0, np.abs(xn)))
-            x[idx] = np.where(bad, x[idx], xn)
+            x[idx] = np.where(bad, xi, xn)
             done[idx[conv]] = True
             active[idx[conv | bad]] = False
         r = 1.0 / x - 1.0
@@ -81,8 +87,9 @@ def irr(values, *, guess=0.1, tol=1e-13, max_iter=50):
 
 
 def _bisect(c, iters=200):
-    lo = np.full(c.shape[0], 1.0 / (1.0 + IRR_HIGH))
-    hi = np.full(c.shape[0], 1.0 / (1.0 + IRR_LOW))
+    c = np.ascontiguousarray(c.T)
+    lo = np.full(c.shape[1], 1.0 / (1.0 + IRR_HIGH))
+    hi = np.full(c.shape[1], 1.0 / (1.0 + IRR_LOW))
     flo, _ = _horner(c, lo)
     fhi, _ = _horner(c, hi)
     valid = np.sign(flo) * np.sign(fhi) < 0

@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
+from scipy.special import ndtr, ndtri
 
 from lcoe import model
 from lcoe.cashflow import Sample
@@ -152,18 +153,41 @@ def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
     keys = list(vary)
     m = len(keys)
     if scn.montecarlo.sampling == "latin_hypercube":
-        u = stats.qmc.LatinHypercube(d=m, seed=rng).random(n)
-        z = stats.norm.ppf(np.clip(u, 1e-12, 1 - 1e-12))
+        # one point in each of n equal-probability strata per input, strata shuffled
+        # independently (McKay, Beckman and Conover 1979)
+        u = (np.argsort(rng.random((m, n)), axis=1).T + rng.random((n, m))) / n
+        if not scn.montecarlo.correlation:
+            return {key: _ppf(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
+        z = ndtri(np.clip(u, 1e-16, 1 - 1e-16))
     else:
         z = rng.standard_normal((n, m))
     if scn.montecarlo.correlation:
         z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
-    u = stats.norm.cdf(z)
-    out = {}
-    for j, key in enumerate(keys):
-        dist = marginal(vary[key], numeric_value(scn, key))
-        out[key] = np.asarray(dist.ppf(u[:, j]), float)
-    return out
+    u = ndtr(z)
+    return {key: _ppf(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
+
+
+def _ppf(spec, base: float, u: np.ndarray) -> np.ndarray:
+    """Inverse CDF of one input's distribution at probabilities ``u`` (closed forms of
+    the distributions of :func:`marginal`)."""
+    d = spec.distribution
+    if d == "normal":
+        mean = base if spec.mean is None else spec.mean
+        return mean + spec.sd * ndtri(u)
+    if d == "lognormal":
+        mean = base if spec.mean is None else spec.mean
+        if mean <= 0:
+            raise ScenarioError("a lognormal input needs a mean > 0", key="montecarlo.vary", value=mean)
+        s2 = math.log(1.0 + (spec.sd / mean) ** 2)
+        return np.exp(math.log(mean) - s2 / 2.0 + math.sqrt(s2) * ndtri(u))
+    lo, hi = spec.low, spec.high
+    if d == "uniform" or hi <= lo:
+        return lo + (hi - lo) * u
+    mode = min(max(base if spec.mode is None else spec.mode, lo), hi)
+    c = (mode - lo) / (hi - lo)
+    left = lo + np.sqrt(u * (hi - lo) * (mode - lo))
+    right = hi - np.sqrt((1.0 - u) * (hi - lo) * (hi - mode))
+    return np.where(u < c, left, right)
 
 
 # --------------------------------------------------------------------------- the trials
@@ -281,12 +305,12 @@ def poisson(rng: np.random.Generator, lam) -> np.ndarray:
         cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), first)).astype(np.float32)
         u = rng.random(lam.shape, dtype=np.float32)
         # count = number of CDF steps below u; steps at 1.0 (float32) can never be passed
-        counts = np.zeros(lam.shape, np.float64)
+        counts = np.zeros(lam.shape, np.uint8 if kmax < 255 else np.int32)
         for c in cdf:
             if c >= 1.0:
                 break
             counts += u > c
-        return counts
+        return counts.astype(float)
     return rng.poisson(lam).astype(float)
 
 
