@@ -169,7 +169,6 @@ def _fails(capsys, argv, pattern):
     assert out.out == ""
     lines = out.err.splitlines()
     assert len(lines) == 1, out.err
-    import re
     assert re.fullmatch(pattern, lines[0]), lines[0]
 
 
