@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lcoe import costs, energy as en
+from lcoe import costs, energy as en, resource
 from lcoe.resource import Z_90, Z_99
 
 DEBT_TOLERANCE = 1e-12   # change of the debt and of each year's debt service (to capex) that ends the sizing iteration
@@ -183,8 +183,24 @@ class Inputs:
             n = max(n, a.shape[0])
         self.n = n
 
+    # keys whose omitted value follows another key (SCENARIO.md defaults): an override of
+    # the source key moves them too, as it would in the file
+    FOLLOWS = {
+        "maintenance.escalation": ("finance.inflation", lambda s: s.maintenance.escalation is None),
+        "finance.equity_target_return": ("finance.discount_rate", lambda s: s.finance.equity_target_return is None),
+        "revenue.merchant_price_per_mwh": ("revenue.ppa_price_per_mwh",
+                                           lambda s: s.revenue.merchant_price_per_mwh is None),
+        "operations.availability_first_year": ("operations.availability_mature",
+                                               lambda s: s.operations.availability_first_year is None),
+    }
+
     def __call__(self, key: str, default):
-        return self.over.get(key, default)
+        if key in self.over:
+            return self.over[key]
+        follow = self.FOLLOWS.get(key)
+        if follow is not None and follow[0] in self.over and follow[1](self.scn):
+            return self.over[follow[0]]
+        return default
 
     def has(self, key: str) -> bool:
         return key in self.over
@@ -200,31 +216,44 @@ class Sample:
     failure_cost: np.ndarray | None = None    # (n, L) year-0 money
 
 
-def _gross(scn, inp: Inputs, site: en.Site):
-    """Gross AEP per row (n, 1) and the speed factor of overridden speed keys."""
+def _speed_factor(scn, inp: Inputs, site: en.Site):
+    """Hub-speed factor (n, 1) of an overridden mean speed or Weibull scale (1.0 if none)."""
+    w = scn.wind
+    hub = resource.shear_factor(scn.turbine.hub_height_m, w.height_m, w.alpha, w.roughness_length_m)
+    base = {"wind.mean_speed_mps": site.climate.mean_speed_mps / hub,
+            "wind.weibull_scale_mps": site.climate.scale_mps / hub}
     factor = 1.0
     for key in SPEED_KEYS:
-        if inp.has(key):
-            base = getattr(scn.wind, key.split(".")[1])
-            factor = inp.over[key] / base
+        if inp.has(key) and base[key]:
+            factor = inp.over[key] / base[key]
+    return factor
+
+
+def _gross(scn, inp: Inputs, site: en.Site):
+    """Gross AEP per row (n, 1), the hub-speed factor of overridden speed keys, the speed
+    sensitivity per row, and whether the factor must still be applied through the table."""
     others = [k for k in inp.over if (k.startswith("wind.") or k.startswith("turbine.")) and k not in SPEED_KEYS]
     if not others:
-        return site.gross_aep_mwh, site, factor, site.speed_sensitivity
+        factor = _speed_factor(scn, inp, site)
+        if np.ndim(factor) == 0:
+            return site.gross_aep_mwh, factor, site.speed_sensitivity
+        gross = site.gross_at_factor(factor)
+        lo, hi = site.ratio_at_factor(0.99 * factor), site.ratio_at_factor(1.01 * factor)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sens = np.log(hi / lo) / np.log(1.01 / 0.99)
+        return gross, factor, sens
     # other climate or turbine keys change the curve or the distribution: integrate each distinct row
     others += [k for k in SPEED_KEYS if inp.has(k)]
-    factor = 1.0
     stack = np.hstack([np.broadcast_to(inp.over[k], (inp.n, 1)) for k in others])
     uniq, inverse = np.unique(stack, axis=0, return_inverse=True)
     gross = np.empty((uniq.shape[0], 1))
     sens = np.empty((uniq.shape[0], 1))
-    sites = []
     for j, row in enumerate(uniq):
         s = en.site_for(scn.with_overrides({k: _typed(scn, k, v) for k, v in zip(others, row)}))
         gross[j, 0] = s.gross_aep_mwh
         sens[j, 0] = s.speed_sensitivity
-        sites.append(s)
     inverse = np.asarray(inverse).ravel()
-    return gross[inverse], sites, factor, sens[inverse]
+    return gross[inverse], 1.0, sens[inverse]
 
 
 def _typed(scn, key, value):
@@ -257,13 +286,13 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     years = np.arange(1, L + 1)
     warnings: list[str] = []
     site = en.site_for(scn)
-    gross, _sites, speed_factor, sens = _gross(scn, inp, site)
+    gross, key_factor, sens = _gross(scn, inp, site)
     if sample is not None and sample.speed_factor is not None:
-        speed_factor = speed_factor * sample.speed_factor
-    if np.ndim(speed_factor) == 0 and speed_factor == 1.0:
-        gross_t = gross
+        # the trial's speed factors apply on top of any overridden mean speed
+        gross_t = site.gross_aep_mwh * site.ratio_at_factor(key_factor * sample.speed_factor) \
+            if np.ndim(key_factor) else gross * site.ratio_at_factor(sample.speed_factor)
     else:
-        gross_t = gross * site.ratio_at_factor(speed_factor)
+        gross_t = gross
 
     # ---- energy (t = 1..L)
     lf = 1.0
