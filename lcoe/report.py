@@ -214,18 +214,28 @@ def _signed(diff, how):
     return s if s.startswith("-") else "+" + s
 
 
+MC_LABELS = {
+    "net_aep_year1_mwh": ("Net energy, year 1", "MWh", "{:,.0f}"),
+    "net_aep_mean_mwh": ("Net energy, life mean", "MWh/yr", "{:,.0f}"),
+    "capex_total": ("Capex total", "{cur} M", "m"),
+    "opex_mean": ("O&M, life mean", "{cur} M/yr", "m"),
+}
+
+
 def montecarlo_table(mc: dict, cur: str) -> list[str]:
     out = [f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
            f"  {'':<34} {'P50':>12} {'P75':>12} {'P90':>12} {'P99':>12} {'mean':>12} {'sd':>12}"]
     for k, stats in mc.items():
         if not isinstance(stats, dict) or "p50" not in stats:
             continue
-        labels = METRIC_LABELS if k in METRIC_LABELS else ENERGY_LABELS if k in ENERGY_LABELS else None
+        labels = next((lab for lab in (METRIC_LABELS, ENERGY_LABELS, MC_LABELS) if k in lab), None)
         label = _label(labels, k, cur)[:34] if labels else k
         how = labels[k][2] if labels else "{:.4g}"
         out.append(f"  {label:<34}" + "".join(f" {fmt(stats[s], how):>12}"
                                               for s in ("p50", "p75", "p90", "p99", "mean", "sd")))
-    for k in ("prob_min_dscr_below_1", "prob_min_dscr_below_target", "prob_equity_irr_below_target"):
+    for k, label in (("prob_min_dscr_below_1", "P(minimum DSCR < 1.0) [%]"),
+                     ("prob_min_dscr_below_target", "P(minimum DSCR < target) [%]"),
+                     ("prob_equity_irr_below_target", "P(equity IRR < target) [%]")):
         if k in mc:
-            out.append(f"  {k.replace('_', ' '):<34} {fmt(mc[k], 'pct'):>12} %")
+            out.append(f"  {label:<34} {fmt(mc[k], 'pct'):>12}")
     return out
