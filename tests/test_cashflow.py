@@ -355,11 +355,12 @@ N_BATCH = 1000
 
 def test_batch_rows_equal_single_runs():
     """1,000 rows through one call give, row by row, the numbers of 1,000 separate scenarios
-    built with the same values (the single-trial path). The equity target return and the O&M
-    escalation are given in the file: overrides are taken literally, so an omitted value derived
-    from an overridden key (equity return from the discount rate) would not follow it."""
+    built with the same values (the single-trial path). The equity target return, the O&M
+    escalation and the merchant price are omitted, so they follow the discount rate, the
+    inflation and the PPA price (README defaults) in both paths."""
     scn = make_scenario(finance__depreciation="declining_balance", finance__depreciation_years=12,
-                        maintenance__land_lease_share_of_revenue=0.03, finance__equity_target_return=0.09)
+                        maintenance__land_lease_share_of_revenue=0.03, maintenance__escalation=None,
+                        revenue__ppa_term_years=12)
     rng = np.random.default_rng(7)
     over = {
         "revenue.ppa_price_per_mwh": rng.uniform(30.0, 110.0, N_BATCH),
@@ -391,12 +392,22 @@ def test_batch_rows_equal_single_runs():
 
 
 def test_batch_speed_rows_equal_single_runs():
-    """Overridden mean speeds use the tabulated AEP(speed factor) (interpolated, 0.25 % steps);
-    single runs integrate afresh. They agree to 1e-5 (30 rows: each single run builds a new site)."""
+    """Overridden mean speeds use the tabulated AEP(speed factor) (interpolated, 0.25 % steps)
+    and its sensitivity for the sizing case; single runs integrate afresh. Energy, cash flows,
+    debt and ratios agree to 1e-5, NPVs to 1e-5 of capex (30 rows: each single run builds a
+    new site)."""
     scn = make_scenario()
     speeds = np.linspace(5.5, 9.0, 30)
     flows, metrics, _ = model.evaluate(scn, overrides={"wind.mean_speed_mps": speeds})
     for i, v in enumerate(speeds):
         f1, m1, _ = model.evaluate(scn.with_overrides({"wind.mean_speed_mps": float(v)}))
-        assert_allclose(flows.energy_mwh[i], f1.energy_mwh[0], rtol=1e-5)
-        assert_allclose(metrics["lcoe_nominal_per_mwh"][i], m1["lcoe_nominal_per_mwh"][0], rtol=1e-5)
+        capex = f1.capex_total[0, 0]
+        for line in ("energy_mwh", "revenue", "opex", "cfads", "debt_service", "project_cash_flow"):
+            assert_allclose(getattr(flows, line)[i], getattr(f1, line)[0], rtol=1e-5, atol=1e-5 * capex,
+                            err_msg=f"row {i}: {line}")
+        for key in ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "debt_amount", "min_dscr", "llcr"):
+            assert_allclose(metrics[key][i], m1[key][0], rtol=1e-5, err_msg=f"row {i}: {key}")
+        for key in ("project_npv", "equity_npv"):
+            assert_allclose(metrics[key][i], m1[key][0], atol=1e-5 * capex, err_msg=f"row {i}: {key}")
+        for key in ("project_irr", "equity_irr"):
+            assert_allclose(metrics[key][i], m1[key][0], atol=1e-5, err_msg=f"row {i}: {key}")

@@ -203,7 +203,8 @@ def test_n_year_sigma_shrinks_only_the_interannual_term():
 
 
 def test_speed_sensitivity_of_an_uncapped_cubic_curve_is_three():
-    """For P ~ v^3 with the cap (71 m/s) and the cut-out (60 m/s) far in the tail, AEP ~ A^3, so d ln AEP / d ln v = 3 (physics)."""
+    """For P ~ v^3, with the rated speed (71 m/s) and the cut-out (60 m/s) far in the Weibull
+    tail, AEP ~ A^3, so d ln AEP / d ln v = 3 (physics, Weibull third moment)."""
     scn = make_scenario(turbine__rotor_diameter_m=20.0, turbine__cut_in_mps=0.0, turbine__cut_out_mps=60.0,
                         wind__mean_speed_mps=6.0)
     assert en.energy_of(scn).speed_sensitivity == pytest.approx(3.0, rel=1e-6)
