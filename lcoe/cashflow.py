@@ -66,17 +66,12 @@ def tax_with_carryforward(taxable, rate):
     use up before any tax is due.
     """
     taxable = np.asarray(taxable, float)
-    if taxable.ndim == 2:
-        loss_rows = (taxable < 0).any(axis=1)
-        if not loss_rows.any():          # no loss anywhere: tax is simply rate * income
-            return rate * taxable
-        if not loss_rows.all():
-            out = rate * taxable
-            sub = taxable[loss_rows]
-            r = rate[loss_rows] if np.ndim(rate) == 2 and np.shape(rate)[0] == taxable.shape[0] else rate
-            out[loss_rows] = _carry(sub, r)
-            return out
-    return _carry(taxable, rate)
+    if taxable.size == 0 or taxable.min() >= 0:   # no loss anywhere: tax is simply rate * income
+        return rate * taxable
+    if taxable.ndim < 2:
+        return _carry(taxable, rate)
+    # rows without a loss keep the plain product, so a row's tax never depends on its batch
+    return np.where((taxable < 0).any(axis=-1, keepdims=True), _carry(taxable, rate), rate * taxable)
 
 
 def _carry(taxable, rate):
