@@ -26,7 +26,7 @@ def conventional_flows(max_len=41):
     ).map(lambda t: [-t[0]] + [t[0] * x for x in t[1]])
 
 
-@settings(max_examples=300, deadline=None)
+@settings(max_examples=200, deadline=None)
 @given(conventional_flows(), st.floats(-0.5, 0.5))
 def test_npv_matches_numpy_financial(flows, rate):
     """NPV with the first value at t = 0: numpy_financial.npv."""
