@@ -123,6 +123,8 @@ def breakeven_price(scn, energy=None, row_overrides: dict | None = None) -> tupl
     energy = energy if energy is not None else en.energy_of(scn)
     row = {k: np.asarray(v, float).reshape(-1)[:1] for k, v in (row_overrides or {}).items()}
     row.pop(PRICE_KEY, None)
+    # the merchant price stays as it is, even where the file leaves it to follow the PPA price
+    row.setdefault("revenue.merchant_price_per_mwh", np.array([scn.merchant_price_per_mwh]))
     g = lambda p: _equity_npv_at_price(scn, energy, p, row)  # noqa: E731
     lo, hi = 0.0, max(10.0, scn.revenue.ppa_price_per_mwh)
     f_lo = g(lo)

@@ -191,7 +191,8 @@ def annual_table(rows, cur) -> list[str]:
 
 def variants_table(d, cur) -> list[str]:
     names = list(d["variants"])
-    head = f"  {'':<34} {'base':>12}" + "".join(f" {n[:14]:>14} {'change':>10}" for n in names)
+    wd = max([14] + [len(n) for n in names])
+    head = f"  {'':<34} {'base':>12}" + "".join(f" {n:>{wd}} {'change':>10}" for n in names)
     out = ["Variants (each against the base)", head]
     rows = [("metrics", k, METRIC_LABELS) for k in d["metrics"]] + \
         [("energy", k, ENERGY_LABELS) for k in ("net_aep_p50_mwh", "net_capacity_factor")]
@@ -202,7 +203,7 @@ def variants_table(d, cur) -> list[str]:
         for n in names:
             v = d["variants"][n][block][k]
             diff = None if v is None or base is None else v - base
-            line += f" {fmt(v, how):>14} {_signed(diff, how):>10}"
+            line += f" {fmt(v, how):>{wd}} {_signed(diff, how):>10}"
         out.append(line)
     return out
 
