@@ -309,11 +309,13 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     else:
         downtime = sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0
     degr = en.degradation_factor(years, inp("operations.degradation_per_year", o.degradation_per_year))
-    energy_t = gross_t * lf * avail * (1.0 - downtime) * degr
+    # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
+    energy_line = _line(inp.n, L, 0.0)
+    energy_t = energy_line[:, 1:]
     if sample is not None and sample.energy_factor is not None:
-        energy_t = energy_t * sample.energy_factor
-    energy_t = np.broadcast_to(energy_t, (inp.n, L)) if np.ndim(energy_t) < 2 or energy_t.shape[0] < inp.n \
-        else energy_t
+        np.multiply(gross_t * lf * avail * (1.0 - downtime) * degr, sample.energy_factor, out=energy_t)
+    else:
+        np.multiply(gross_t * lf * avail * (1.0 - downtime), degr, out=energy_t)
     p50 = gross * lf * mature * (1.0 - (sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0))
 
     # ---- P-case factors (for debt sizing): sigma from the sensitivity and the uncertainty terms
@@ -369,12 +371,13 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     decom_t = np.where(years == L, decom, 0.0)
     fixed_real = (fixed + insurance) * plant_kw + fail + overhaul
 
-    def operating(e):
+    def operating(e, out=None):
         rev = e * (price + credit)
-        om = (fixed_real + variable * e) * esc_index + lease * rev
+        om = np.add((fixed_real + variable * e) * esc_index, lease * rev, out=out)
         return rev, om
 
-    revenue, om = operating(energy_t)
+    opex_line = _line(inp.n, L, 0.0)
+    revenue, om = operating(energy_t, out=opex_line[:, 1:])
 
     # ---- depreciation and tax
     f = scn.finance
@@ -387,7 +390,9 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     dep = capex * shares
     pre_tax = revenue - om - decom_t
     tax_u = tax_with_carryforward(pre_tax - dep, tax_rate)
-    project_ops = pre_tax - tax_u
+    capex_row = capex.ravel()
+    project_line = _line(inp.n, L, -capex_row)
+    project_ops = np.subtract(pre_tax, tax_u, out=project_line[:, 1:])
 
     # ---- debt
     debt_terms = f.debt
@@ -412,37 +417,46 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         if np.any(capped):
             warnings.append("no debt: finance.debt.max_gearing times the capex is zero")
     tax = tax_with_carryforward(pre_tax - dep - sched.interest, tax_rate)
-    cfads = pre_tax - tax
+    cfads_line = _line(inp.n, L, 0.0)
+    cfads = np.subtract(pre_tax, tax, out=cfads_line[:, 1:])
     ds = sched.debt_service
-    with np.errstate(divide="ignore", invalid="ignore"):
-        dscr = np.where(ds > 0, cfads / np.where(ds > 0, ds, 1.0), np.nan)
+    dscr_line = _line(inp.n, L, np.nan)
+    np.divide(cfads, np.where(ds > 0, ds, np.nan), out=dscr_line[:, 1:])
+    equity0 = -(capex + sched.fee - sched.debt).ravel()
+    equity_line = _line(inp.n, L, equity0)
+    np.subtract(cfads, ds, out=equity_line[:, 1:])
 
     def with_t0(a, t0=0.0, keep=False):
         if lean and not keep:
             return None
-        a = np.broadcast_to(a, (inp.n, L))
-        out = np.empty((inp.n, L + 1))
+        # in lean mode a line equal in every row stays one row (consumers broadcast it)
+        rows = 1 if lean and (np.ndim(a) < 2 or np.shape(a)[0] == 1) and np.size(t0) == 1 else inp.n
+        out = np.empty((rows, L + 1))
         out[:, 0] = t0 if np.ndim(t0) == 0 else np.asarray(t0).ravel()
         out[:, 1:] = a
         return out
 
-    capex_row = capex.ravel()
-    equity0 = -(capex + sched.fee - sched.debt).ravel()
     balance_close = None if lean else sched.balance_open + sched.interest - ds
     return Flows(
-        years=np.arange(0, L + 1), energy_mwh=with_t0(energy_t, keep=True), availability=with_t0(avail),
-        price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=with_t0(om, keep=True),
+        years=np.arange(0, L + 1), energy_mwh=energy_line, availability=with_t0(avail),
+        price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=opex_line,
         capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t, keep=True), depreciation=with_t0(dep),
         interest=with_t0(sched.interest), principal=with_t0(sched.principal),
         balance=with_t0(balance_close, sched.debt.ravel()), tax=with_t0(tax), tax_unlevered=with_t0(tax_u),
-        cfads=with_t0(cfads, keep=True), debt_service=with_t0(ds, keep=True), dscr=with_t0(dscr, np.nan, keep=True),
-        project_cash_flow=with_t0(project_ops, -capex_row, keep=True),
-        equity_cash_flow=with_t0(cfads - ds, equity0, keep=True),
+        cfads=cfads_line, debt_service=with_t0(ds, keep=True), dscr=dscr_line,
+        project_cash_flow=project_line, equity_cash_flow=equity_line,
         capex_total=np.asarray(capex).reshape(-1, 1), debt=np.asarray(sched.debt).reshape(-1, 1),
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(p50, (inp.n, 1)),
         case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in factors.items()},
         schedule=sched, warnings=warnings)
+
+
+def _line(rows: int, years: int, t0) -> np.ndarray:
+    """An empty yearly line (rows, years + 1) with its t = 0 column set."""
+    out = np.empty((rows, years + 1))
+    out[:, 0] = t0 if np.ndim(t0) == 0 else np.asarray(t0).ravel()
+    return out
 
 
 def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, target_dscr, max_gearing,
