@@ -35,11 +35,13 @@ def _horner(ct, x):
     return f, d
 
 
-def irr(values, *, guess=0.1, tol=1e-13, max_iter=50):
+def irr(values, *, guess=0.1, tol=1e-9, max_iter=50):
     """Internal rate of return of each row of cash flows (vectorised).
 
     Solves sum c_t x^t = 0 for the discount factor x = 1 / (1 + r) with Newton's
-    method, the polynomial and its derivative evaluated by Horner's rule; rows where
+    method, the polynomial and its derivative evaluated by Horner's rule. A row stops
+    once its Newton step is below ``tol`` (relative): convergence is quadratic, so the
+    step just taken leaves an error of the order of tol^2. Rows where
     Newton does not converge fall back to bisection on r in [-99 %, 1000 %]. Rows
     with no sign change, or no root in that range, give NaN.
 
@@ -74,7 +76,7 @@ def irr(values, *, guess=0.1, tol=1e-13, max_iter=50):
             done[idx[conv]] = True
             active[idx[conv | bad]] = False
         r = 1.0 / x - 1.0
-        good = done & np.isfinite(r) & (r > IRR_LOW) & (r < IRR_HIGH)
+        good = done & np.isfinite(r) & (r > -1.0)   # a converged Newton root is an IRR wherever it lies
         out[good] = r[good]
         retry = np.nonzero(ok & ~good)[0]
         if retry.size:
@@ -92,7 +94,7 @@ def _bisect(c, iters=200):
     hi = np.full(c.shape[1], 1.0 / (1.0 + IRR_LOW))
     flo, _ = _horner(c, lo)
     fhi, _ = _horner(c, hi)
-    valid = np.sign(flo) * np.sign(fhi) < 0
+    valid = np.sign(flo) * np.sign(fhi) <= 0
     for _ in range(iters):
         mid = 0.5 * (lo + hi)
         fm, _ = _horner(c, mid)
