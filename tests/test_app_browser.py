@@ -1,0 +1,109 @@
+"""The app in a real browser: served by `lcoe app`, opened in headless Chromium.
+
+The reference for every figure on the page is the engine itself (lcoe.model.run on the
+same scenario file, formatted by lcoe.report.fmt): the app must show exactly those.
+"""
+
+from __future__ import annotations
+
+import os
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+
+import pytest
+
+from conftest import DEMO, ROOT, require_tool
+from lcoe import CAUTION, model, report as rp, scenario as sc
+
+pytestmark = pytest.mark.slow
+
+HEADLINE = [("metrics", "lcoe_nominal_per_mwh"), ("metrics", "lcoe_real_per_mwh"), ("metrics", "project_npv"),
+            ("metrics", "equity_irr"), ("metrics", "min_dscr"), ("metrics", "debt_amount"),
+            ("energy", "net_aep_p50_mwh"), ("energy", "net_aep_p90_1yr_mwh"), ("energy", "net_capacity_factor")]
+CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+                 "--disable-sync", "--no-first-run"]
+
+
+def _free_port() -> int:
+    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def _wait_healthy(url: str, proc: subprocess.Popen, timeout: float = 60.0) -> None:
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if proc.poll() is not None:
+            out = proc.stdout.read().decode(errors="replace") if proc.stdout else ""
+            pytest.fail(f"the app server exited with {proc.returncode}: {out[-2000:]}")
+        try:
+            with urllib.request.urlopen(url, timeout=2) as r:
+                if r.read().decode().strip() == "ok":
+                    return
+        except OSError:
+            pass
+        time.sleep(0.3)
+    pytest.fail(f"the app server did not answer {url} within {timeout:.0f} s")
+
+
+@pytest.fixture
+def server():
+    """`lcoe app` on a free loopback port; always stopped afterwards."""
+    port = _free_port()
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    proc = subprocess.Popen([sys.executable, "-m", "lcoe", "app", "--port", str(port), "--address", "127.0.0.1"],
+                            cwd=ROOT, env=env, stdout=subprocess.PIPE, stderr=subprocess.STDOUT)
+    try:
+        _wait_healthy(f"http://127.0.0.1:{port}/_stcore/health", proc)
+        yield f"http://127.0.0.1:{port}/"
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+            proc.wait(timeout=10)
+        if proc.stdout:
+            proc.stdout.close()
+
+
+def test_headline_figures_in_the_browser(server, tmp_path):
+    chromium = require_tool("chromium")
+    sync_api = pytest.importorskip("playwright.sync_api")
+    scn = sc.load(DEMO)
+    case = model.run(scn)
+    cur = scn.project.currency
+    expected = {}
+    for block, key in HEADLINE:
+        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
+        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
+        expected[f"{name} [{unit.format(cur=cur)}]"] = rp.fmt(value, how)
+
+    with sync_api.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_page(viewport={"width": 1500, "height": 1100})
+            page.goto(server, wait_until="domcontentloaded")
+            metrics = page.locator('[data-testid="stMetric"]')
+            page.get_by_text("LCOE, nominal").first.wait_for(timeout=60_000)
+            page.locator('[data-testid="stAltairChart"], [data-testid="stVegaLiteChart"]').first.wait_for(
+                timeout=60_000)
+            page.wait_for_timeout(1500)  # let the charts draw before the screenshot
+            shown = {}
+            for i in range(metrics.count()):
+                m = metrics.nth(i)
+                label = m.locator('[data-testid="stMetricLabel"]').inner_text().strip()
+                shown[label] = m.locator('[data-testid="stMetricValue"]').inner_text().strip()
+            caution = page.get_by_text(CAUTION).count()
+            errors = page.locator('[data-testid="stException"]').count()
+            alerts = page.locator('[data-testid="stAlertContentError"]').count()
+            page.screenshot(path=str(tmp_path / "app.png"), full_page=True)
+        finally:
+            browser.close()
+    assert shown == expected
+    assert caution == 1
+    assert errors == 0 and alerts == 0
+    assert (tmp_path / "app.png").stat().st_size > 10_000

@@ -1,0 +1,603 @@
+"""The interactive app: move the assumptions of one wind site and see the economics at once.
+
+Start with ``lcoe app`` or ``streamlit run ui/app.py``. The app is thin: widgets and
+charts over the engine. Every figure shown comes from :mod:`lcoe` (the model, the
+report, the Monte Carlo, the sensitivity sweeps, the workbook); the app turns
+inputs into scenario overrides and results into tables and charts, nothing more.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import importlib
+import sys
+import tempfile
+import time
+import tomllib
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+sys.path.insert(0, str(HERE))
+try:
+    import lcoe  # noqa: F401
+except ModuleNotFoundError:  # a source checkout without ``pip install``
+    sys.path.insert(0, str(ROOT))
+
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+import streamlit as st  # noqa: E402
+
+import app_charts as charts  # noqa: E402
+import app_inputs as inputs  # noqa: E402
+from lcoe import CAUTION, energy as en, model, report as rp, resource, scenario as sc  # noqa: E402
+from lcoe.errors import ScenarioError  # noqa: E402
+
+ASSUMPTIONS = ROOT / "assumptions"
+UPLOAD = "Upload a scenario file..."
+TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Monte Carlo", "Tornado", "Compare",
+        "Yearly table"]
+LIFETIMES = list(range(15, 36))
+
+# Headline figures: (block, key); labels, units and formats are the report's own.
+HEADLINE = [("metrics", "lcoe_nominal_per_mwh"), ("metrics", "lcoe_real_per_mwh"), ("metrics", "project_npv"),
+            ("metrics", "equity_irr"), ("metrics", "min_dscr"), ("metrics", "debt_amount"),
+            ("energy", "net_aep_p50_mwh"), ("energy", "net_aep_p90_1yr_mwh"), ("energy", "net_capacity_factor")]
+LOWER_IS_BETTER = {"lcoe_nominal_per_mwh", "lcoe_real_per_mwh"}
+NEUTRAL = {"debt_amount"}
+MC_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "equity_npv", "equity_irr", "min_dscr")
+TORNADO_METRICS = ("lcoe_nominal_per_mwh", "project_npv", "equity_irr", "min_dscr")
+SHOW_SCALE = {"m": 1e-6, "pct": 100.0}   # report formats that show a value scaled: EUR M, percent
+
+st.set_page_config(page_title="lcoe: wind site economics", layout="wide")
+
+
+def _optional(name: str):
+    """An engine module that may be missing from an installation (sensitivity, uncertainty, workbook)."""
+    try:
+        return importlib.import_module(name)
+    except ModuleNotFoundError as exc:
+        if exc.name != name:
+            raise
+        return None
+
+
+# --------------------------------------------------------------------------- the engine, cached
+
+@st.cache_resource(max_entries=16, show_spinner=False)
+def load_file(path: str, mtime_ns: int) -> sc.Scenario:
+    return sc.load(path)
+
+
+def load_upload(name: str, data: bytes) -> sc.Scenario:
+    """An uploaded scenario; its relative data paths are read from assumptions/."""
+    shown = Path(name).name or "upload.toml"
+    with tempfile.TemporaryDirectory() as tmp:
+        p = Path(tmp) / "upload.toml"
+        p.write_bytes(data)
+        try:
+            raw = sc.parse_toml(p)
+        except ScenarioError as exc:
+            raise ScenarioError(exc.message, key=exc.key, value=exc.value, file=shown,
+                                has_value=exc.has_value) from None
+    scn = sc.from_dict(raw, source=shown, base_dir=ASSUMPTIONS)
+    for key, rel in (("turbine.power_curve", scn.turbine.power_curve), ("wind.timeseries", scn.wind.timeseries)):
+        if rel is not None and not scn.resolve(rel).is_file():
+            raise ScenarioError(f"not found: an uploaded scenario's data files are read relative to the "
+                                f"assumptions/ folder ({ASSUMPTIONS}); put the file there or give an absolute path",
+                                key=key, value=rel, file=shown)
+    return scn
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def scenario_of(text: str, base_dir: str, source: str) -> sc.Scenario:
+    return sc.from_dict(tomllib.loads(text), source=source, base_dir=base_dir, check_variants=False)
+
+
+@st.cache_resource(max_entries=64, show_spinner=False)
+def case_of(text: str, base_dir: str, source: str, breakeven: bool = False) -> model.Case:
+    """The deterministic case; the break-even price (a root search) only where it is shown."""
+    return model.run(scenario_of(text, base_dir, source), breakeven=breakeven)
+
+
+@st.cache_data(max_entries=16, show_spinner=False)
+def lifetime_study(text: str, base_dir: str, source: str, ext_year: int, ext_cost: float) -> pd.DataFrame:
+    """Metrics for lives of 15..35 years, with and without a life-extension overhaul in ``ext_year``.
+
+    Each life keeps the scenario's other inputs; overhauls after the life are left out
+    and a debt tenor longer than the life is cut to the life.
+    """
+    scn = scenario_of(text, base_dir, source)
+    raw_overhauls = scn.raw.get("maintenance", {}).get("overhaul", [])
+    rows = []
+    for life in LIFETIMES:
+        kept = [dict(o) for o in raw_overhauls if o["year"] <= life]
+        over = {"project.lifetime_years": life}
+        if scn.finance.debt is not None and scn.finance.debt.tenor_years > life:
+            over["finance.debt.tenor_years"] = life
+        for with_ext in (False, True):
+            work = list(kept)
+            if with_ext and life > ext_year:
+                work.append({"name": "life extension (study)", "year": int(ext_year),
+                             "cost_per_turbine": float(ext_cost)})
+            over["maintenance.overhaul"] = work
+            m = model.run(scn.with_overrides(over, label="lifetime study"), breakeven=False).metrics
+            rows.append({"life": life, "plan": "with life-extension overhaul" if with_ext else "without",
+                         "lcoe": m["lcoe_nominal_per_mwh"], "npv": m["project_npv"]})
+    return pd.DataFrame(rows)
+
+
+@st.cache_data(max_entries=16, show_spinner=False)
+def speed_study(text: str, base_dir: str, source: str, key: str, values: tuple) -> list:
+    return _optional("lcoe.sensitivity").sweep(scenario_of(text, base_dir, source), key, list(values))
+
+
+@st.cache_data(max_entries=16, show_spinner=False)
+def tornado_of(text: str, base_dir: str, source: str, metric: str) -> list:
+    return _optional("lcoe.sensitivity").tornado(scenario_of(text, base_dir, source), metric=metric)
+
+
+# --------------------------------------------------------------------------- formatting (the report's own)
+
+def label_of(block: str, key: str, cur: str) -> tuple[str, str, str]:
+    labels = rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS
+    name, unit, how = labels[key]
+    return name, unit.format(cur=cur), how
+
+
+def value_of(case: model.Case, block: str, key: str):
+    return case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
+
+
+def change_text(now, then, how: str) -> str | None:
+    """The change against the pinned case, in the figure's own format, signed ("0" for none)."""
+    if now is None or then is None:
+        return None
+    text = rp.fmt(now - then, how)
+    if text == "n/a":
+        return None
+    if text.strip("-+0.,") == "":
+        return "0"
+    return text if text.startswith("-") else "+" + text
+
+
+def headline(case: model.Case, pinned: model.Case | None, cur: str) -> None:
+    for row in (HEADLINE[:5], HEADLINE[5:]):
+        for col, (block, key) in zip(st.columns(5), row):
+            name, unit, how = label_of(block, key, cur)
+            now = value_of(case, block, key)
+            delta = change_text(now, value_of(pinned, block, key), how) if pinned is not None else None
+            color = "inverse" if key in LOWER_IS_BETTER else "off" if key in NEUTRAL else "normal"
+            col.metric(f"{name} [{unit}]", rp.fmt(now, how), delta=delta, delta_color=color,
+                       delta_arrow="off" if delta == "0" else "auto", border=True)
+
+
+def years_table(case: model.Case) -> pd.DataFrame:
+    return pd.DataFrame(case.annual())
+
+
+# --------------------------------------------------------------------------- downloads
+
+def workbook_bytes(text: str, base_dir: str, source: str, mc) -> bytes:
+    """The lender workbook of the current inputs (with the Monte Carlo when it was run on them)."""
+    try:
+        rep = rp.build(sc.from_dict(tomllib.loads(text), source=source, base_dir=base_dir), trials=0)
+    except ScenarioError:  # a variant of the file no longer fits the current inputs: leave the variants out
+        rep = rp.build(scenario_of(text, base_dir, source), trials=0, variants=False)
+    rep.montecarlo = mc
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "workbook.xlsx"
+        _optional("lcoe.workbook").write(rep, path)
+        return path.read_bytes()
+
+
+@st.cache_data(max_entries=32, show_spinner=False)
+def csv_bytes(text: str, base_dir: str, source: str) -> bytes:
+    """The yearly table exactly as ``lcoe run --csv`` writes it."""
+    from lcoe.cli import write_annual_csv
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "yearly.csv"
+        write_annual_csv(rp.Report(case_of(text, base_dir, source)), path)
+        return path.read_bytes()
+
+
+def _slug(name: str) -> str:
+    out = "".join(ch.lower() if ch.isalnum() else "_" for ch in name)
+    return "_".join(p for p in out.split("_") if p) or "scenario"
+
+
+# --------------------------------------------------------------------------- the page
+
+def pick_scenario() -> tuple[sc.Scenario | None, str]:
+    files = sorted(p.name for p in ASSUMPTIONS.glob("*.toml"))
+    st.sidebar.header("Scenario")
+    choice = st.sidebar.selectbox("Scenario file from assumptions/", files + [UPLOAD], key="scenario_file")
+    try:
+        if choice == UPLOAD:
+            up = st.sidebar.file_uploader("Scenario file (TOML)", type=["toml"], key="upload")
+            if up is None:
+                return None, ""
+            data = up.getvalue()
+            return load_upload(up.name, data), "upload:" + hashlib.sha256(data).hexdigest()[:12]
+        path = ASSUMPTIONS / choice
+        scn = load_file(str(path), path.stat().st_mtime_ns)
+        return scn, "file:" + hashlib.sha256(path.read_bytes()).hexdigest()[:12]
+    except ScenarioError as exc:
+        st.error(exc.line())
+        return None, ""
+
+
+def main() -> None:
+    started = time.perf_counter()
+    st.title("Wind site economics")
+    st.info(CAUTION, icon="⚠️")
+    base, ident = pick_scenario()
+    if base is None:
+        if st.session_state.get("scenario_file") == UPLOAD:
+            st.write("Upload a scenario file (TOML) in the sidebar, or pick one from assumptions/. Data files "
+                     "named in an uploaded scenario (power curve, wind series) are read relative to assumptions/.")
+        return
+    resets = st.session_state.setdefault("resets", {})
+    token = hashlib.sha256(f"{ident}:{resets.get(ident, 0)}".encode()).hexdigest()[:10]
+    if st.sidebar.button("Reset inputs to the file", key="reset"):
+        resets[ident] = resets.get(ident, 0) + 1
+        st.rerun()
+    st.sidebar.header("Inputs")
+    overrides = inputs.input_widgets(base, token)
+    labels = inputs.labels(base)
+    cur = base.project.currency
+    source, base_dir = base.source, str(base.base_dir)
+    try:
+        scn = base.with_overrides(overrides, label="input") if overrides else base
+        text = sc.to_toml(scn.raw)
+        case = case_of(text, base_dir, source)
+    except ScenarioError as exc:
+        st.error(exc.line())
+        return
+    pin = st.session_state.get("pinned")
+    pinned = None
+    if pin is not None:
+        try:
+            pinned = case_of(pin["text"], pin["base_dir"], pin["source"])
+        except ScenarioError as exc:
+            st.warning(f"The pinned case no longer runs: {exc.line()}")
+
+    st.subheader(f"{base.project.name}: {base.project.turbines} x {base.turbine.rated_power_kw:,.0f} kW, "
+                 f"{scn.lifetime} years")
+    changed = ", ".join(labels.get(k, k).split(" [")[0] for k in overrides) or "none"
+    note = f" Changes against the pinned case: {pin['label']}." if pinned is not None else ""
+    st.caption(f"Scenario `{Path(source).name}`; changed inputs: {changed}.{note}")
+    headline(case, pinned, cur)
+    actions(base, scn, text, base_dir, source, overrides, changed, pin)
+    if case.warnings:
+        with st.expander(f"Warnings ({len(case.warnings)})"):
+            for w in case.warnings:
+                st.write(f"- {w}")
+
+    tabs = st.tabs(TABS, key="view", on_change="rerun")
+    views = [lambda: tab_energy(scn, case), lambda: tab_cash(scn, case, cur),
+             lambda: tab_lifetime(scn, text, base_dir, source, cur),
+             lambda: tab_speed(scn, text, base_dir, source, cur),
+             lambda: tab_montecarlo(scn, case, text, cur),
+             lambda: tab_tornado(scn, text, base_dir, source, cur, labels),
+             lambda: tab_compare(base, text, base_dir, source, pin, cur),
+             lambda: tab_yearly(case, cur)]
+    for tab, view in zip(tabs, views):
+        with tab:
+            if tab.open:
+                view()
+    st.caption(f"Page computed in {1000 * (time.perf_counter() - started):.0f} ms.")
+
+
+def actions(base, scn, text, base_dir, source, overrides, changed, pin) -> None:
+    """Pin / unpin and the three downloads, under the headline."""
+    c1, c2, c3, c4, c5 = st.columns([1, 1, 1.2, 1.2, 1.2])
+    if c1.button("Pin this case", key="pin", help="Keep these inputs; the figures then show the change against them"):
+        st.session_state["pinned"] = {"text": text, "base_dir": base_dir, "source": source,
+                                      "label": Path(source).name + (f" with {changed}" if overrides else "")}
+        st.rerun()
+    if c2.button("Unpin", key="unpin", disabled=pin is None):
+        st.session_state.pop("pinned", None)
+        st.rerun()
+    name = _slug(base.project.name)
+    if _optional("lcoe.workbook") is not None:
+        mc = current_mc(text)
+        c3.download_button("Workbook (.xlsx)", data=lambda: workbook_bytes(text, base_dir, source, mc),
+                           file_name=f"{name}.xlsx", key="dl_workbook", on_click="ignore",
+                           mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+                           help="The lender workbook of these inputs, with live formulas"
+                                + (" and the Monte Carlo run" if mc is not None else ""))
+    else:
+        c3.caption("Workbook: not in this installation")
+    c4.download_button("Scenario (.toml)", data=text.encode("utf-8"), file_name=f"{name}_inputs.toml",
+                       mime="application/toml", key="dl_scenario", on_click="ignore",
+                       help="These inputs as a scenario file; its data paths are relative to assumptions/")
+    c5.download_button("Yearly table (.csv)", data=csv_bytes(text, base_dir, source), file_name=f"{name}_yearly.csv",
+                       mime="text/csv", key="dl_csv", on_click="ignore")
+
+
+# --------------------------------------------------------------------------- the screens
+
+def tab_energy(scn, case) -> None:
+    e = case.energy
+    site = en.site_for(scn)
+    c = site.climate
+    top = max(float(np.max(site.site_curve.breaks_mps)) + 2.0, 3.0 * c.mean_speed_mps)
+    v = np.linspace(0.0, top, 281)
+    curve = pd.DataFrame({"speed": v, "power": site.site_curve.power_kw(v)})
+    pdf = None
+    if np.isfinite(c.scale_mps) and np.isfinite(c.shape):
+        pdf = pd.DataFrame({"speed": v, "pdf": resource.weibull_pdf(v, c.scale_mps, c.shape)})
+    left, right = st.columns(2)
+    with left:
+        st.markdown("**Power curve over the wind-speed distribution at hub height**")
+        charts.draw(charts.power_curve, curve=curve, pdf=pdf)
+        fit = " (Weibull fitted to the series)" if c.kind == "series" else ""
+        st.caption(f"Hub-height mean {e.hub_mean_speed_mps:.2f} m/s; Weibull A {e.weibull_scale_mps:.2f} m/s, "
+                   f"k {e.weibull_shape:.2f}{fit}; air density {e.air_density_kgm3:.4f} kg/m³.")
+    with right:
+        st.markdown("**Net energy and availability by year**")
+        y = years_table(case).iloc[1:]
+        charts.draw(charts.energy_by_year, years=pd.DataFrame(
+            {"year": y["year"], "energy": y["energy_mwh"], "availability": y["availability"] * 100.0}))
+        d = e.report()
+        st.caption(" · ".join(f"{name} {rp.fmt(d[k], how)} {unit}" for k, (name, unit, how) in rp.ENERGY_LABELS.items()
+                              if k in ("gross_aep_mwh", "net_aep_p90_10yr_mwh", "net_aep_p99_1yr_mwh", "sigma_1yr")))
+
+
+CASH_LINES = {"revenue": "Revenue", "opex": "O&M", "tax": "Tax", "cfads": "CFADS", "debt_service": "Debt service",
+              "equity_cash_flow": "Equity cash flow"}
+
+
+def tab_cash(scn, case, cur) -> None:
+    y = years_table(case).iloc[1:]
+    left, right = st.columns(2)
+    with left:
+        st.markdown("**Yearly cash flow (nominal)**")
+        long = y.melt(id_vars="year", value_vars=list(CASH_LINES), var_name="line", value_name="value")
+        long["line"] = long["line"].map(CASH_LINES)
+        long["value"] = long["value"] * SHOW_SCALE["m"]
+        charts.draw(charts.cash_by_year, lines=long, ytitle=f"Nominal money [{cur} M]", order=list(CASH_LINES.values()))
+        costs = rp.costs_block(case)
+        st.caption(f"Year 0: capex {rp.fmt(costs['capex_total'], 'm')} {cur} M, debt "
+                   f"{rp.fmt(case.metrics['debt_amount'], 'm')} {cur} M. Decommissioning net of salvage in year "
+                   f"{scn.lifetime}: {rp.fmt(costs['decommissioning_net'], 'm')} {cur} M.")
+    with right:
+        st.markdown("**DSCR against the target**")
+        d = scn.finance.debt
+        y = y[y["dscr"].notna()]
+        if d is None or y.empty:
+            st.write("No debt in this case.")
+            return
+        rules = pd.DataFrame({"y": [d.target_dscr, 1.0], "what": [f"target {d.target_dscr:.2f}x", "1.00x"]})
+        charts.draw(charts.dscr_by_year, years=y[["year", "dscr"]], rules=rules)
+        st.caption(f"Debt sculpted to {d.target_dscr:.2f}x on the {d.sizing_case} case; the P50 case meets the same "
+                   f"schedule. Minimum DSCR {rp.fmt(case.metrics['min_dscr'], '{:.3f}')}x, "
+                   f"LLCR {rp.fmt(case.metrics['llcr'], '{:.3f}')}x.")
+
+
+def _extension_default(scn) -> tuple[int, float]:
+    """The scenario's own life-extension works (from a variant) when it has them."""
+    for overrides in scn.variants.values():
+        items = overrides.get("maintenance.overhaul", []) if isinstance(overrides, dict) else []
+        for item in items if isinstance(items, list) else []:
+            if isinstance(item, dict) and "extension" in str(item.get("name", "")).lower():
+                return int(item["year"]), float(item["cost_per_turbine"])
+    return 20, 0.1 * scn.capex.turbine_per_kw * scn.turbine.rated_power_kw
+
+
+def tab_lifetime(scn, text, base_dir, source, cur) -> None:
+    st.markdown("**LCOE and NPV against the operating life, with and without a life-extension overhaul**")
+    year0, cost0 = _extension_default(scn)
+    a, b, _ = st.columns([1, 1, 2])
+    year = a.number_input("Extension overhaul in year [year]", value=year0, step=1, format="%d", key="ext_year")
+    cost_k = b.number_input(f"Extension overhaul cost [{cur} k per turbine]", value=cost0 / 1e3, step=10.0,
+                            format="%.0f", key="ext_cost")
+    try:
+        with st.spinner("Running 42 lives..."):
+            df = lifetime_study(text, base_dir, source, int(year), float(cost_k) * 1e3)
+    except ScenarioError as exc:
+        st.error(exc.line())
+        return
+    df["npv"] = df["npv"] * SHOW_SCALE["m"]
+    left, right = st.columns(2)
+    with left:
+        charts.draw(charts.lines, data=df, x="life", xtitle="Operating life [years]", y="lcoe",
+                    ytitle=f"LCOE, nominal [{cur}/MWh]", color="plan", mark_x=float(scn.lifetime))
+    with right:
+        charts.draw(charts.lines, data=df, x="life", xtitle="Operating life [years]", y="npv",
+                    ytitle=f"Project NPV [{cur} M]", color="plan", mark_x=float(scn.lifetime))
+    st.caption(f"With: an overhaul of {cost_k:,.0f} {cur} k per turbine in year {int(year)} for every life longer "
+               f"than {int(year)} years. Overhauls after the life are left out and a debt tenor longer than the life "
+               "is cut to it; everything else is as in the sidebar. Dashed line: the current life. Where the line with "
+               f"the overhaul falls below its value at {int(year)} years, the extension pays for itself.")
+
+
+def tab_speed(scn, text, base_dir, source, cur) -> None:
+    st.markdown("**Energy and LCOE against the mean wind speed**")
+    w = scn.wind
+    if _optional("lcoe.sensitivity") is None:
+        st.write("The sensitivity module is not in this installation.")
+        return
+    if w.timeseries is not None:
+        st.write("This scenario uses an hourly wind series; the sweep needs a Weibull climate (a mean speed or scale).")
+        return
+    key = "wind.mean_speed_mps" if w.mean_speed_mps is not None else "wind.weibull_scale_mps"
+    now = w.mean_speed_mps if w.mean_speed_mps is not None else w.weibull_scale_mps
+    values = tuple(float(x) for x in np.round(np.linspace(max(2.0, 0.4 * now), 1.6 * now, 33), 3))
+    try:
+        with st.spinner("Sweeping the wind speed..."):
+            rows = speed_study(text, base_dir, source, key, values)
+    except ScenarioError as exc:
+        st.error(exc.line())
+        return
+    aep = pd.DataFrame([{"speed": r["value"], "what": what, "aep": r["energy"][k]} for r in rows
+                        for k, what in (("gross_aep_mwh", "gross AEP"), ("net_aep_p50_mwh", "net AEP P50"))])
+    lc = pd.DataFrame([{"speed": r["value"], "lcoe": r["metrics"]["lcoe_nominal_per_mwh"]} for r in rows]).dropna()
+    xtitle = f"{'Mean wind speed' if key.endswith('mean_speed_mps') else 'Weibull scale A'} at {w.height_m:g} m [m/s]"
+    left, right = st.columns(2)
+    with left:
+        charts.draw(charts.lines, data=aep, x="speed", xtitle=xtitle, y="aep", ytitle="AEP [MWh/yr]", color="what",
+                    mark_x=float(now))
+    with right:
+        charts.draw(charts.lines, data=lc, x="speed", xtitle=xtitle, y="lcoe", ytitle=f"LCOE, nominal [{cur}/MWh]",
+                    mark_x=float(now))
+    st.caption("At low speeds the energy grows roughly with the cube of the speed; towards rated speed it flattens. "
+               "Dashed line: the current input.")
+
+
+def current_mc(text: str):
+    store = st.session_state.get("mc")
+    return store["result"] if store and store["text"] == text else None
+
+
+def tab_montecarlo(scn, case, text, cur) -> None:
+    unc = _optional("lcoe.uncertainty")
+    if unc is None:
+        st.write("The Monte Carlo module is not in this installation.")
+        return
+    a, b, _ = st.columns([1, 1, 2])
+    trials = a.number_input("Trials [-]", value=int(scn.montecarlo.trials or 10000), min_value=100, step=1000,
+                            format="%d", key="mc_trials")
+    b.markdown("&nbsp;")
+    if b.button("Run the Monte Carlo", key="mc_run", type="primary"):
+        bar = st.progress(0.0, text="Monte Carlo: starting")
+
+        def tick(fraction):
+            f = min(max(float(fraction), 0.0), 1.0)
+            bar.progress(f, text=f"Monte Carlo: {100 * f:.0f} % of {int(trials):,} trials")
+        try:
+            res = unc.monte_carlo(scn, case, trials=int(trials), progress=tick)
+        except ScenarioError as exc:
+            st.error(exc.line())
+            return
+        bar.empty()
+        st.session_state["mc"] = {"text": text, "result": res}
+    res = current_mc(text)
+    if res is None:
+        stale = st.session_state.get("mc") is not None
+        st.write(("The inputs changed since the last run. " if stale else "")
+                 + "Run the Monte Carlo to see the spread of the figures (P90 on the conservative side).")
+        return
+    rep = res.report()
+    options = [k for k in MC_KEYS if k in res.samples]
+    names = {k: label_of("metrics", k, cur) for k in options}
+    pick = st.selectbox("Figure", options, format_func=lambda k: f"{names[k][0]} [{names[k][1]}]", key="mc_pick")
+    name, unit, how = names[pick]
+    stats, hist = res.stats(pick), rep["histogram"][pick]
+    scale = SHOW_SCALE.get(how, 1.0)
+    e = np.asarray(hist["edges"], float) * scale
+    bins = pd.DataFrame({"lo": e[:-1], "hi": e[1:], "count": hist["counts"]})
+    marks = pd.DataFrame({"x": [stats["p50"] * scale, stats["p90"] * scale],
+                          "what": [f"P50 {rp.fmt(stats['p50'], how)}", f"P90 {rp.fmt(stats['p90'], how)}"]})
+    charts.draw(charts.histogram, bins=bins, marks=marks, title=f"{name} [{unit}]")
+    table = []
+    for k in options:
+        n, u, h = names[k]
+        s = res.stats(k)
+        table.append({"Figure": f"{n} [{u}]", "P50": rp.fmt(s["p50"], h), "P75": rp.fmt(s["p75"], h),
+                      "P90": rp.fmt(s["p90"], h), "P99": rp.fmt(s["p99"], h), "Mean": rp.fmt(s["mean"], h),
+                      "SD": rp.fmt(s["sd"], h)})
+    st.dataframe(pd.DataFrame(table), hide_index=True, width="stretch")
+    st.caption(f"{res.trials:,} trials, seed {res.seed}. P90 is the conservative side: the 10th percentile of NPV, "
+               "IRR and DSCR, the 90th of LCOE. The deterministic figures above are the P50 case.")
+    for w in res.warnings:
+        st.caption(f"warning: {w}")
+
+
+def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
+    sens = _optional("lcoe.sensitivity")
+    if sens is None:
+        st.write("The sensitivity module is not in this installation.")
+        return
+    names = {k: label_of("metrics", k, cur) for k in TORNADO_METRICS}
+    pick = st.selectbox("Figure", TORNADO_METRICS, format_func=lambda k: f"{names[k][0]} [{names[k][1]}]",
+                        key="tornado_pick")
+    try:
+        with st.spinner("Moving each input in turn..."):
+            rows = tornado_of(text, base_dir, source, pick)
+    except ScenarioError as exc:
+        st.error(exc.line())
+        return
+    name, unit, how = names[pick]
+    scale = SHOW_SCALE.get(how, 1.0)
+    extra = {sens.ENERGY_INPUT: "Net energy at its 10-year P90 / P10 [MWh/yr]"}
+    bars, order = [], []
+    for r in rows:  # the engine's order: largest swing first
+        if r["metric_base"] is None:
+            continue
+        label = labels.get(r["key"]) or extra.get(r["key"]) or r["key"]
+        order.append(label)
+        for side in ("low", "high"):
+            if r[f"metric_at_{side}"] is not None:
+                bars.append({"input": label, "side": f"{side} input", "start": r["metric_base"] * scale,
+                             "end": r[f"metric_at_{side}"] * scale, "input_value": r[f"{side}_value"]})
+    if not bars:
+        st.write("No input moves this figure.")
+        return
+    base = rows[0]["metric_base"]
+    charts.draw(charts.tornado, bars=pd.DataFrame(bars), order=order, title=f"{name} [{unit}]", base=base * scale)
+    st.caption(f"Each bar: {name} with one input at its low or high value (P10 / P90 of its Monte Carlo "
+               "distribution, else ±10 %), the others at the current inputs. Widest first.")
+
+
+def tab_compare(base, text, base_dir, source, pin, cur) -> None:
+    if base.variants:
+        a, b, _ = st.columns([2, 1, 2])
+        var = a.selectbox("Or pin a variant of the scenario file", list(base.variants), key="variant_pick")
+        b.markdown("&nbsp;")
+        if b.button("Pin the variant", key="pin_variant"):
+            st.session_state["pinned"] = {"text": sc.to_toml(base.variant(var).raw), "base_dir": str(base.base_dir),
+                                          "source": base.source, "label": f"variant {var} of {Path(base.source).name}"}
+            st.rerun()
+    if pin is None:
+        st.write("Pin a case (the button under the headline figures) to compare it with the current inputs.")
+        return
+    try:
+        pinned = case_of(pin["text"], pin["base_dir"], pin["source"], breakeven=True)
+    except ScenarioError as exc:
+        st.error(exc.line())
+        return
+    case = case_of(text, base_dir, source, breakeven=True)
+    st.markdown(f"**Pinned: {pin['label']}.** Current: the inputs in the sidebar.")
+    rows = []
+    for block, labels in (("metrics", rp.METRIC_LABELS), ("energy", rp.ENERGY_LABELS)):
+        for key in labels:
+            name, unit, how = label_of(block, key, cur)
+            then, now = value_of(pinned, block, key), value_of(case, block, key)
+            rows.append({"Figure": f"{name} [{unit}]", "Pinned": rp.fmt(then, how), "Current": rp.fmt(now, how),
+                         "Change": change_text(now, then, how) or "n/a"})
+    left, right = st.columns([1, 1.3])
+    left.dataframe(pd.DataFrame(rows), hide_index=True, width="stretch", height=35 * (len(rows) + 1) + 3)
+    with right:
+        for column, title, scale, bars in (("energy_mwh", "Net energy [MWh]", 1.0, True),
+                                           ("equity_cash_flow", f"Equity cash flow [{cur} M]", SHOW_SCALE["m"], False),
+                                           ("dscr", "DSCR [x]", 1.0, False)):
+            frames = []
+            for label, c in (("pinned", pinned), ("current", case)):
+                y = years_table(c).iloc[1:]
+                frames.append(pd.DataFrame({"year": y["year"], "case": label, "value": y[column] * scale}))
+            charts.draw(charts.pinned_vs_current, data=pd.concat(frames, ignore_index=True), ytitle=title, bars=bars)
+
+
+def tab_yearly(case, cur) -> None:
+    df = years_table(case)
+    heads = {k: h.format(cur=cur).replace(f"[{cur} k]", f"[{cur}]") for k, h, _ in rp.ANNUAL_COLUMNS}
+    extra = {"availability": "Availability [-]", "capex": f"Capex [{cur}]",
+             "decommissioning": f"Decommissioning [{cur}]", "depreciation": f"Depreciation [{cur}]",
+             "interest": f"Interest [{cur}]", "principal": f"Principal [{cur}]", "balance": f"Debt balance [{cur}]",
+             "tax_unlevered": f"Tax, unlevered [{cur}]"}
+    cols = {k: heads.get(k) or extra.get(k) or k for k in df.columns}
+    fine = {"dscr": "%.3f", "availability": "%.4f", "price_per_mwh": "%.2f"}
+    shown = df.copy()
+    for k in df.columns:
+        if k not in fine and k != "year":
+            shown[k] = df[k].round(0)  # whole MWh and whole money, shown with thousands separators
+    st.dataframe(shown.rename(columns=cols), hide_index=True, width="stretch", height=35 * (len(df) + 1) + 3,
+                 column_config={cols[k]: st.column_config.NumberColumn(format=fine.get(k, "localized"))
+                                for k in df.columns if k != "year"})
+    st.caption("t = 0 is construction; nominal money; costs are positive amounts, cash-flow lines are signed. "
+               "The same table as the CSV download and `lcoe run --csv`.")
+
+
+main()
