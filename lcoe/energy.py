@@ -191,8 +191,16 @@ def _site_key(scn) -> str:
 
 
 def site_for(scn) -> Site:
-    """The :class:`Site` of a scenario, cached on what the gross energy depends on."""
-    key = _site_key(scn)
+    """The :class:`Site` of a scenario, cached on what the gross energy depends on.
+
+    The key is computed once per scenario object (scenarios are immutable)."""
+    key = getattr(scn, "_site_key_memo", None)
+    if key is None:
+        key = _site_key(scn)
+        try:
+            scn._site_key_memo = key
+        except (AttributeError, TypeError, ValueError):
+            pass
     try:
         return _SITE_CACHE[key]
     except KeyError:
