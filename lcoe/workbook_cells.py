@@ -1,0 +1,222 @@
+"""Cell writers, styles and the yearly-line helper of the lender workbook (:mod:`lcoe.workbook`).
+
+Every string goes through :meth:`Book.text`, which stores it as text even when it
+starts with = + - or @, so no scenario text can become a formula.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from openpyxl import Workbook
+from openpyxl.styles import Alignment, Font, PatternFill
+from openpyxl.utils import get_column_letter, quote_sheetname
+from openpyxl.workbook.defined_name import DefinedName
+
+# sheet names (plain trade words)
+SUMMARY, INPUTS, ENERGY, CASHFLOW, DEBT = "Summary", "Inputs", "Energy", "Cash flow", "Debt"
+MONTECARLO, SENSITIVITY, CHECKS, NOTES = "Monte Carlo", "Sensitivity", "Checks", "Notes"
+
+T0_COL = 3          # column C holds t = 0 on every yearly sheet
+YEAR_ROW = 3        # the row of years on every yearly sheet
+FIRST_ROW = 6       # first line below the years and phase rows
+HOURS_PER_YEAR = 8760
+SPARE_ROWS = 3      # empty rows left in the component and overhaul tables for additions
+CHECK_TOL = 1e-9    # relative tolerance of the debt checks (the engine converges to 1e-12 of capex)
+
+FORMATS = {
+    "money": '#,##0;[Red]-#,##0', "mwh": '#,##0', "price": '#,##0.00', "pct": '0.00%', "share": '0.0000%',
+    "ratio": '0.000', "factor": '0.000000', "int": '0', "kw": '#,##0', "flag": '0', "density": '0.0000',
+    "ok": '"OK";"-";"FAIL"', "text": '@', "days": '0.0', "rate": '0.0000', "general": "General", "int_blank": '0;-0;;@',
+}
+
+BLUE = Font(color="0000CC")
+BOLD = Font(bold=True)
+TITLE = Font(bold=True, size=14)
+ITALIC = Font(italic=True, color="555555")
+INPUT_FILL = PatternFill("solid", fgColor="FFF2CC")
+ENGINE_FILL = PatternFill("solid", fgColor="E7E6E6")
+HEAD_FILL = PatternFill("solid", fgColor="DDEBF7")
+SECTION_FILL = PatternFill("solid", fgColor="F2F2F2")
+FAIL_FILL = PatternFill("solid", fgColor="F8CBAD")
+ENGINE_MARK = "engine value"
+
+METRICS = {
+    "lcoe_nominal_per_mwh": ("LCOE, nominal", "{cur}/MWh", "price"),
+    "lcoe_real_per_mwh": ("LCOE, real (year-0 money)", "{cur}/MWh", "price"),
+    "project_npv": ("Project NPV, after tax, at the discount rate", "{cur}", "money"),
+    "project_irr": ("Project IRR, after tax", "per year", "pct"),
+    "equity_npv": ("Equity NPV at the equity target return", "{cur}", "money"),
+    "equity_irr": ("Equity IRR", "per year", "pct"),
+    "debt_amount": ("Debt at close (converged by the engine)", "{cur}", "money"),
+    "min_dscr": ("Minimum DSCR, P50 case", "x", "ratio"),
+    "avg_dscr": ("Average DSCR, P50 case", "x", "ratio"),
+    "llcr": ("LLCR, P50 case", "x", "ratio"),
+    "payback_year": ("Equity payback year", "year", "int"),
+    "breakeven_ppa_price_per_mwh": ("Break-even PPA price (engine goal seek)", "{cur}/MWh", "price"),
+}
+EXTRA_MC = {
+    "net_aep_year1_mwh": ("Net energy, year 1", "MWh", "mwh"),
+    "net_aep_mean_mwh": ("Net energy, mean of the life", "MWh/yr", "mwh"),
+    "capex_total": ("Capex total", "{cur}", "money"),
+    "opex_mean": ("O&M, mean of the life", "{cur}/yr", "money"),
+}
+HISTOGRAM_KEYS = ("lcoe_nominal_per_mwh", "equity_irr", "min_dscr", "net_aep_year1_mwh")
+CASES = ("p50", "p90_1yr", "p90_10yr", "p99_1yr")
+DEPRECIATION = ("straight_line", "declining_balance", "macrs_5", "macrs_7", "macrs_15", "macrs_20")
+LOSSES = ("wake", "electrical", "turbine_performance", "environmental", "curtailment", "other")
+
+
+# --------------------------------------------------------------------------- cells and names
+
+class Book:
+    """An openpyxl workbook with safe writers, styles and defined names."""
+
+    def __init__(self, currency: str):
+        self.wb = Workbook()
+        self.wb.remove(self.wb.active)
+        self.cur = currency
+
+    def sheet(self, title: str):
+        ws = self.wb.create_sheet(title)
+        ws.sheet_view.zoomScale = 90
+        return ws
+
+    def text(self, ws, row: int, col: int, value, font=None, fill=None):
+        """Any text, stored as text: a leading = + - @ never makes it a formula."""
+        c = ws.cell(row, col)
+        c.value = str(value)
+        c.data_type = "s"
+        if font is not None:
+            c.font = font
+        if fill is not None:
+            c.fill = fill
+        return c
+
+    def num(self, ws, row: int, col: int, value, fmt: str | None = None, font=None, fill=None):
+        """A number; None or NaN becomes the text n/a."""
+        if value is None or (isinstance(value, float) and not math.isfinite(value)):
+            return self.text(ws, row, col, "n/a", font=font, fill=fill)
+        c = ws.cell(row, col)
+        c.value = int(value) if isinstance(value, (bool, np.bool_)) else (
+            int(value) if isinstance(value, (int, np.integer)) else float(value))
+        if fmt:
+            c.number_format = FORMATS[fmt]
+        if font is not None:
+            c.font = font
+        if fill is not None:
+            c.fill = fill
+        return c
+
+    def formula(self, ws, row: int, col: int, expr: str, fmt: str | None = None, font=None):
+        c = ws.cell(row, col)
+        c.value = "=" + expr
+        if fmt:
+            c.number_format = FORMATS[fmt]
+        if font is not None:
+            c.font = font
+        return c
+
+    def unit(self, text: str) -> str:
+        return text.replace("{cur}", self.cur)
+
+    def name(self, name: str, ws, ref: str):
+        """A workbook-level defined name for an absolute reference on ``ws``."""
+        dn = DefinedName(name, attr_text=f"{quote_sheetname(ws.title)}!{ref}")
+        self.wb.defined_names[name] = dn
+
+
+def absolute(col: int, row: int) -> str:
+    return f"${get_column_letter(col)}${row}"
+
+
+def xref(ws, ref: str) -> str:
+    return f"{quote_sheetname(ws.title)}!{ref}"
+
+
+class Timeline:
+    """Yearly lines on one sheet: column C is t = 0, D.. are the operating years."""
+
+    def __init__(self, book: Book, ws, lifetime: int, title: str, note: str):
+        self.b, self.ws, self.L = book, ws, lifetime
+        self.rows: dict[str, int] = {}
+        self.pending: list = []
+        self.next = FIRST_ROW
+        book.text(ws, 1, 1, title, font=TITLE)
+        book.text(ws, 2, 1, note, font=ITALIC)
+        book.text(ws, YEAR_ROW, 1, "Year", font=BOLD, fill=HEAD_FILL)
+        book.text(ws, YEAR_ROW, 2, "unit", font=BOLD, fill=HEAD_FILL)
+        book.text(ws, YEAR_ROW + 1, 1, "Phase", font=ITALIC)
+        for t in range(lifetime + 1):
+            c = book.num(ws, YEAR_ROW, T0_COL + t, t, "int", font=BOLD, fill=HEAD_FILL)
+            c.alignment = Alignment(horizontal="center")
+            p = book.text(ws, YEAR_ROW + 1, T0_COL + t, "build" if t == 0 else "operate", font=ITALIC)
+            p.alignment = Alignment(horizontal="center")
+        ws.freeze_panes = ws.cell(FIRST_ROW - 1, T0_COL)
+        ws.column_dimensions["A"].width = 46
+        ws.column_dimensions["B"].width = 13
+        for t in range(lifetime + 1):
+            ws.column_dimensions[get_column_letter(T0_COL + t)].width = 13.5
+
+    # references
+    def col(self, t: int) -> str:
+        return get_column_letter(T0_COL + t)
+
+    def y(self, t: int) -> str:
+        """The year cell of column t (row fixed)."""
+        return f"{self.col(t)}${YEAR_ROW}"
+
+    def c(self, key: str, t: int) -> str:
+        return f"{self.col(t)}{self.rows[key]}"
+
+    def x(self, key: str, t: int) -> str:
+        """The same cell seen from another sheet."""
+        return xref(self.ws, self.c(key, t))
+
+    def span(self, key: str, t_from: int = 0, t_to: int | None = None, other: bool = False) -> str:
+        t_to = self.L if t_to is None else t_to
+        r = self.rows[key]
+        ref = f"${self.col(t_from)}${r}:${self.col(t_to)}${r}"
+        return xref(self.ws, ref) if other else ref
+
+    # writing
+    def section(self, title: str):
+        self.next += 1 if self.next > FIRST_ROW else 0
+        for col in range(1, T0_COL + self.L + 1):
+            self.ws.cell(self.next, col).fill = SECTION_FILL
+        self.b.text(self.ws, self.next, 1, title, font=BOLD, fill=SECTION_FILL)
+        self.next += 1
+
+    def single(self, key: str, label: str, unit: str, expr: str, fmt: str, name: str | None = None):
+        """One value (not yearly) in the t = 0 column."""
+        r = self.next
+        self.next += 1
+        self.b.text(self.ws, r, 1, label)
+        self.b.text(self.ws, r, 2, self.b.unit(unit), font=ITALIC)
+        self.b.formula(self.ws, r, T0_COL, expr, fmt)
+        self.rows[key] = r
+        if name:
+            self.b.name(name, self.ws, absolute(T0_COL, r))
+        return r
+
+    def line(self, key: str, label: str, unit: str, expr, fmt: str, name: str | None = None, t0=None,
+             bold: bool = False):
+        """A yearly line: ``expr(t)`` gives the formula of column t (``t0(t)`` for t = 0 if given)."""
+        r = self.next
+        self.next += 1
+        self.rows[key] = r
+        self.b.text(self.ws, r, 1, label, font=BOLD if bold else None)
+        self.b.text(self.ws, r, 2, self.b.unit(unit), font=ITALIC)
+        self.pending.append((r, expr, t0, fmt, bold))
+        if name:
+            self.b.name(name, self.ws, self.span(key))
+        return r
+
+    def render(self):
+        """Write the yearly formulas (after all lines exist, so a line may refer to a later one)."""
+        for r, expr, t0, fmt, bold in self.pending:
+            for t in range(self.L + 1):
+                fn = t0 if (t == 0 and t0 is not None) else expr
+                self.b.formula(self.ws, r, T0_COL + t, fn(t), fmt, font=BOLD if bold else None)
+        self.pending = []

@@ -1,0 +1,288 @@
+"""The Inputs sheet of the lender workbook: every assumption once, with unit and scenario key.
+
+Values the formulas use are inputs (blue on yellow) with workbook-level defined names;
+what only the engine can compute (gross AEP, the P-case energy factors, the converged
+debt at close, the break-even price) follows as marked engine values (grey).
+
+References
+----------
+MACRS tables: US IRS Publication 946, Table A-1 (half-year convention), as held in
+:data:`lcoe.cashflow.MACRS`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from openpyxl.styles import Alignment
+from openpyxl.worksheet.datavalidation import DataValidation
+
+from lcoe.cashflow import MACRS
+from lcoe.workbook_cells import (BLUE, BOLD, CASES, DEPRECIATION, ENGINE_FILL, ENGINE_MARK, FORMATS, HEAD_FILL,
+                                 INPUT_FILL, INPUTS, ITALIC, LOSSES, SPARE_ROWS, TITLE, Book, absolute)
+
+
+# --------------------------------------------------------------------------- the Inputs sheet
+
+class InputSheet:
+    """Inputs as values in one place, each with unit, scenario key and defined name."""
+
+    def __init__(self, book: Book, ws):
+        self.b, self.ws = book, ws
+        self.row = 4
+        self.cells: dict[str, tuple[int, int]] = {}
+        b = book
+        b.text(ws, 1, 1, "Inputs: every assumption the formulas use, in one place", font=TITLE)
+        b.text(ws, 2, 1, "Blue on yellow: inputs you may change. Grey: engine values (computed by lcoe, "
+                         "not by the sheet; re-run lcoe to refresh them). Money is year-0 money.", font=ITALIC)
+        for col, width in zip("ABCDEF", (46, 16, 16, 44, 16, 60)):
+            ws.column_dimensions[col].width = width
+        ws.freeze_panes = "A4"
+        self.fraction_dv = DataValidation(type="decimal", operator="between", formula1="0", formula2="1",
+                                          allow_blank=False, showErrorMessage=True,
+                                          error="A fraction between 0 and 1", errorTitle="Fraction")
+        ws.add_data_validation(self.fraction_dv)
+
+    def head(self, title: str, columns=("Item", "Value", "Unit", "Scenario key", "", "Note")):
+        self.row += 1
+        for i, h in enumerate(columns, start=1):
+            self.b.text(self.ws, self.row, i, h, font=BOLD, fill=HEAD_FILL)
+        self.b.text(self.ws, self.row, 1, title, font=BOLD, fill=HEAD_FILL)
+        self.row += 1
+
+    def value(self, name: str, label: str, value, unit: str, key: str, fmt: str, note: str = "",
+              engine: bool = False, fraction: bool = False):
+        r = self.row
+        self.row += 1
+        b, ws = self.b, self.ws
+        b.text(ws, r, 1, label)
+        if isinstance(value, str):
+            c = b.text(ws, r, 2, value, font=None if engine else BLUE, fill=ENGINE_FILL if engine else INPUT_FILL)
+        else:
+            c = b.num(ws, r, 2, value, fmt, font=None if engine else BLUE, fill=ENGINE_FILL if engine else INPUT_FILL)
+        b.text(ws, r, 3, b.unit(unit), font=ITALIC)
+        b.text(ws, r, 4, key, font=ITALIC)
+        if engine:
+            b.text(ws, r, 5, ENGINE_MARK, font=ITALIC, fill=ENGINE_FILL)
+        if note:
+            b.text(ws, r, 6, note, font=ITALIC)
+        if fraction and not engine:
+            self.fraction_dv.add(c)
+        if name:
+            b.name(name, ws, absolute(2, r))
+            self.cells[name] = (r, 2)
+        return c
+
+    def list_choice(self, name: str, options):
+        r, col = self.cells[name]
+        dv = DataValidation(type="list", formula1='"' + ",".join(options) + '"', allow_blank=False,
+                            showErrorMessage=True, error="Choose one of: " + ", ".join(options))
+        self.ws.add_data_validation(dv)
+        dv.add(self.ws.cell(r, col))
+
+    def table(self, title: str, columns, rows, fmts, names, engine: bool = False, spare: int = 0, note=""):
+        """A table of items (one per row); ``names`` maps a column index to a range name."""
+        self.head(title, columns)
+        for i in range(1, len(columns) + 1):
+            self.ws.cell(self.row - 1, i).alignment = Alignment(wrap_text=True, vertical="top")
+        self.ws.row_dimensions[self.row - 1].height = 30
+        if note:
+            self.b.text(self.ws, self.row - 1, len(columns) + 1, note, font=ITALIC)
+        first = self.row
+        for item in rows:
+            for i, (v, fmt) in enumerate(zip(item, fmts), start=1):
+                font = None if engine else BLUE
+                fill = ENGINE_FILL if engine else INPUT_FILL
+                if v is None:
+                    self.ws.cell(self.row, i).fill = fill
+                elif isinstance(v, str):
+                    self.b.text(self.ws, self.row, i, v, font=font, fill=fill)
+                else:
+                    self.b.num(self.ws, self.row, i, v, fmt, font=font, fill=fill)
+            self.row += 1
+        for _ in range(spare):
+            for i in range(1, len(columns) + 1):
+                self.ws.cell(self.row, i).fill = INPUT_FILL
+                if fmts[i - 1] and fmts[i - 1] != "text":
+                    self.ws.cell(self.row, i).number_format = FORMATS[fmts[i - 1]]
+            self.row += 1
+        last = max(first, self.row - 1)
+        for col, nm in names.items():
+            self.b.name(nm, self.ws, f"{absolute(col, first)}:{absolute(col, last)}")
+        return first, last
+
+
+def debt_service_scale(schedule, target_dscr: float) -> float:
+    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise)."""
+    if schedule is None or not bool(np.asarray(schedule.gearing_bound).ravel()[0]):
+        return 1.0
+    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / target_dscr
+    on = schedule.debt_service[0] > 0
+    total = float(raw[on].sum())
+    return float(schedule.debt_service[0][on].sum() / total) if total > 0 else 1.0
+
+
+def write_inputs(book: Book, report) -> InputSheet:
+    """The Inputs sheet: the scenario's values, then the marked engine values and the MACRS tables."""
+    case = report.case
+    scn, e, fl = case.scenario, case.energy, case.flows
+    ws = book.sheet(INPUTS)
+    inp = InputSheet(book, ws)
+    p, o, m, c, r, f = scn.project, scn.operations, scn.maintenance, scn.capex, scn.revenue, scn.finance
+    v = inp.value
+
+    inp.head("Project and plant")
+    v("lifetime_years", "Operating life", scn.lifetime, "years", "project.lifetime_years", "int",
+      "the yearly columns are laid out for this life: re-export from lcoe to change it")
+    v("turbines", "Turbines", p.turbines, "-", "project.turbines", "int")
+    v("rated_power_kw", "Rated power per turbine", scn.turbine.rated_power_kw, "kW", "turbine.rated_power_kw", "kw",
+      "scales per-kW costs and the capacity factor; the power curve itself is in the engine")
+
+    inp.head("Energy losses (fractions of gross energy, applied multiplicatively)")
+    for k in LOSSES:
+        v(f"loss_{k}", f"Loss: {k.replace('_', ' ')}", getattr(scn.losses, k), "fraction", f"losses.{k}", "pct",
+          fraction=True)
+
+    inp.head("Availability and degradation")
+    v("availability_first_year", "Availability, year 1", scn.availability_first_year, "fraction",
+      "operations.availability_first_year", "pct", fraction=True)
+    v("availability_mature", "Availability, mature (years 2..)", o.availability_mature, "fraction",
+      "operations.availability_mature", "pct", "excludes the component failures below", fraction=True)
+    v("ageing_starts_year", "Availability ageing starts after year", o.ageing_starts_year, "year",
+      "operations.ageing_starts_year", "int")
+    v("availability_ageing_per_year", "Availability lost per year of ageing", o.availability_ageing_per_year,
+      "fraction/yr", "operations.availability_ageing_per_year", "share", "absolute, per year", fraction=True)
+    v("degradation_per_year", "Performance degradation", o.degradation_per_year, "fraction/yr",
+      "operations.degradation_per_year", "share", "compounding: (1 - d)^(t - 1)", fraction=True)
+
+    inp.head("Operations and maintenance (year-0 money)")
+    v("fixed_per_kw_year", "Fixed O&M", m.fixed_per_kw_year, "{cur}/kW/yr", "maintenance.fixed_per_kw_year",
+      "price")
+    v("insurance_per_kw_year", "Insurance", m.insurance_per_kw_year, "{cur}/kW/yr",
+      "maintenance.insurance_per_kw_year", "price")
+    v("variable_per_mwh", "Variable O&M", m.variable_per_mwh, "{cur}/MWh", "maintenance.variable_per_mwh", "price")
+    v("land_lease_share_of_revenue", "Land lease", m.land_lease_share_of_revenue, "share of revenue",
+      "maintenance.land_lease_share_of_revenue", "pct", fraction=True)
+    v("om_escalation", "O&M and decommissioning escalation", scn.escalation, "per year", "maintenance.escalation",
+      "pct", "" if m.escalation is not None else "not in the file: finance.inflation, as the engine uses")
+
+    comp_rows = [(x.name, x.failure_rate_per_turbine_year, x.replacement_cost, x.downtime_days)
+                 for x in m.component]
+    inp.table("Major component failures (expected values)",
+              ("Component", "Failures per turbine-year", "Replacement cost per event [" + book.cur + "]",
+               "Downtime per event [days]"),
+              comp_rows, ("text", "rate", "money", "days"),
+              {2: "comp_rate", 3: "comp_cost", 4: "comp_downtime_days"}, spare=SPARE_ROWS,
+              note="maintenance.component; empty rows may be filled in")
+    oh_rows = [(x.name, x.year, x.cost_per_turbine) for x in m.overhaul]
+    inp.table("Planned overhauls", ("Work", "Operating year", "Cost per turbine [" + book.cur + "]"),
+              oh_rows, ("text", "int", "money"), {2: "overhaul_year", 3: "overhaul_cost_per_turbine"},
+              spare=SPARE_ROWS, note="maintenance.overhaul; empty rows may be filled in")
+
+    inp.head("Capital cost (year-0 money, all spent at t = 0)")
+    v("turbine_per_kw", "Turbines", c.turbine_per_kw, "{cur}/kW", "capex.turbine_per_kw", "price")
+    v("balance_of_plant_per_kw", "Balance of plant", c.balance_of_plant_per_kw, "{cur}/kW",
+      "capex.balance_of_plant_per_kw", "price")
+    v("grid_connection", "Grid connection", c.grid_connection, "{cur}", "capex.grid_connection", "money")
+    v("development", "Development", c.development, "{cur}", "capex.development", "money")
+    v("contingency", "Contingency", c.contingency, "fraction of the above", "capex.contingency", "pct",
+      fraction=True)
+    v("decommissioning_per_kw", "Decommissioning at year L", c.decommissioning_per_kw, "{cur}/kW",
+      "capex.decommissioning_per_kw", "price", "escalated to year L")
+    v("salvage_per_kw", "Salvage at year L", c.salvage_per_kw, "{cur}/kW", "capex.salvage_per_kw", "price",
+      "escalated to year L; reduces decommissioning")
+
+    inp.head("Revenue")
+    v("ppa_price_per_mwh", "PPA price", r.ppa_price_per_mwh, "{cur}/MWh", "revenue.ppa_price_per_mwh", "price")
+    v("ppa_term_years", "PPA term", scn.ppa_term_years, "years", "revenue.ppa_term_years", "int",
+      "" if r.ppa_term_years is not None else "not in the file: the whole life")
+    v("ppa_escalation", "PPA escalation", r.ppa_escalation, "per year", "revenue.ppa_escalation", "pct")
+    v("merchant_price_per_mwh", "Merchant price after the PPA", scn.merchant_price_per_mwh, "{cur}/MWh",
+      "revenue.merchant_price_per_mwh", "price",
+      "" if r.merchant_price_per_mwh is not None else "not in the file: the PPA price")
+    v("merchant_escalation", "Merchant price escalation", r.merchant_escalation, "per year",
+      "revenue.merchant_escalation", "pct")
+    v("production_credit_per_mwh", "Production credit", r.production_credit_per_mwh, "{cur}/MWh",
+      "revenue.production_credit_per_mwh", "price", "not escalated; excluded from the LCOE")
+    v("production_credit_years", "Production credit years", r.production_credit_years, "years",
+      "revenue.production_credit_years", "int")
+
+    inp.head("Finance and tax")
+    v("inflation", "Inflation", f.inflation, "per year", "finance.inflation", "pct")
+    v("discount_rate", "Discount rate, nominal", f.discount_rate, "per year", "finance.discount_rate", "pct",
+      "project NPV and LCOE")
+    v("equity_target_return", "Equity target return, nominal", scn.equity_target_return, "per year",
+      "finance.equity_target_return", "pct",
+      "" if f.equity_target_return is not None else "not in the file: the discount rate")
+    v("tax_rate", "Corporate tax rate", f.tax_rate, "fraction", "finance.tax_rate", "pct", fraction=True)
+    v("depreciation_method", "Tax depreciation method", f.depreciation, "", "finance.depreciation", "text",
+      "one of: " + ", ".join(DEPRECIATION))
+    inp.list_choice("depreciation_method", DEPRECIATION)
+    v("depreciation_years", "Depreciation years", f.depreciation_years, "years", "finance.depreciation_years",
+      "int", "straight line and declining balance")
+
+    d = f.debt
+    inp.head("Debt terms")
+    if d is None:
+        note = "no [finance.debt] table in the scenario: all equity"
+        v("sizing_case", "Debt sizing case", "p50", "", "finance.debt.sizing_case", "text", note)
+        v("target_dscr", "Target DSCR at the sizing case", 1.30, "x", "finance.debt.target_dscr", "ratio", note)
+        v("max_gearing", "Maximum gearing", 0.0, "debt / capex", "finance.debt.max_gearing", "pct", note)
+        v("tenor_years", "Tenor", 0, "years", "finance.debt.tenor_years", "int", note)
+        v("interest_rate", "Interest rate", 0.0, "per year", "finance.debt.interest_rate", "pct", note)
+        v("upfront_fee", "Upfront fee", 0.0, "fraction of debt", "finance.debt.upfront_fee", "pct", note)
+    else:
+        v("sizing_case", "Debt sizing case", d.sizing_case, "", "finance.debt.sizing_case", "text",
+          "one of: " + ", ".join(CASES))
+        v("target_dscr", "Target DSCR at the sizing case", d.target_dscr, "x", "finance.debt.target_dscr", "ratio")
+        v("max_gearing", "Maximum gearing", d.max_gearing, "debt / capex", "finance.debt.max_gearing", "pct",
+          fraction=True)
+        v("tenor_years", "Tenor", d.tenor_years, "years", "finance.debt.tenor_years", "int")
+        v("interest_rate", "Interest rate", d.interest_rate, "per year", "finance.debt.interest_rate", "pct")
+        v("upfront_fee", "Upfront fee", d.upfront_fee, "fraction of debt", "finance.debt.upfront_fee", "pct",
+          "paid at t = 0; not deductible", fraction=True)
+    inp.list_choice("sizing_case", CASES)
+
+    # ---- engine values
+    sched = case.schedule
+    target = d.target_dscr if d is not None else 1.30
+    inp.head("Engine values: computed by lcoe, held here as marked values",
+             ("Item", "Value", "Unit", "Source", "", "Why it is not a formula"))
+    v("gross_aep_per_turbine_mwh", "Gross AEP per turbine", float(fl.gross_aep_mwh[0, 0]) / p.turbines, "MWh/yr",
+      "lcoe.energy", "mwh", "the Weibull integral (or series mean) over the site power curve", engine=True)
+    v("debt_at_close", "Debt at close", float(fl.debt[0, 0]), "{cur}", "lcoe.cashflow.size_debt", "money",
+      "converged through the interest-tax circularity; the Checks sheet tests it against the live schedule",
+      engine=True)
+    v("debt_service_scale", "Debt-service scale (gearing cap)", debt_service_scale(sched, target), "-",
+      "lcoe.cashflow.sculpt", "factor", "1 unless the gearing cap binds; then the share of CFADS / target kept",
+      engine=True)
+    v("breakeven_engine", "Break-even PPA price", case.metrics.get("breakeven_ppa_price_per_mwh"), "{cur}/MWh",
+      "lcoe.model.breakeven_price", "price", "a goal seek that re-sizes the debt at every trial price",
+      engine=True)
+    inp.value("", "Air density at hub", e.air_density_kgm3, "kg/m3", "lcoe.energy", "density", "information",
+              engine=True)
+    inp.value("", "Mean wind speed at hub", e.hub_mean_speed_mps, "m/s", "lcoe.energy", "price", "information",
+              engine=True)
+    inp.value("", "Weibull scale A at hub", e.weibull_scale_mps, "m/s", "lcoe.energy", "price", "information",
+              engine=True)
+    inp.value("", "Weibull shape k", e.weibull_shape, "-", "lcoe.energy", "ratio", "information", engine=True)
+    inp.value("", "AEP sensitivity to mean speed", e.speed_sensitivity, "dlnE/dlnv", "lcoe.energy", "ratio",
+              "information", engine=True)
+    inp.value("", "Energy uncertainty, 1 year", e.sigma_1yr, "fraction", "lcoe.energy", "pct", "information",
+              engine=True)
+    inp.value("", "Energy uncertainty, 10 years", e.sigma_10yr, "fraction", "lcoe.energy", "pct", "information",
+              engine=True)
+    factors = [(k, float(fl.case_factors[k][0, 0])) for k in CASES]
+    inp.table("P-case energy factors (P_case / P50)", ("Case", "Factor", "", "Source"),
+              [(k, x, None, "lcoe.cashflow") for k, x in factors], ("text", "factor", None, "text"),
+              {1: "case_names", 2: "case_factors"}, engine=True,
+              note="P_x = P50 (1 - z_x sigma); sigma from the speed sensitivity and the uncertainty terms")
+    for i, (k, _) in enumerate(factors):
+        book.name(f"factor_{k}", ws, absolute(2, inp.row - len(factors) + i))
+    n_years = max(len(x) for x in MACRS.values())
+    macrs_rows = [(t + 1, *[MACRS[k][t] if t < len(MACRS[k]) else None for k in MACRS]) for t in range(n_years)]
+    first, last = inp.table("MACRS depreciation tables, percent of base by year (US IRS Publication 946, "
+                            "Table A-1, half-year convention)", ("Year", *MACRS.keys()), macrs_rows,
+                            ("int",) + ("rate",) * len(MACRS), {}, engine=True, note="lcoe.cashflow.MACRS")
+    book.name("macrs_table", ws, f"{absolute(2, first)}:{absolute(1 + len(MACRS), last)}")
+    book.name("macrs_methods", ws, f"{absolute(2, first - 1)}:{absolute(1 + len(MACRS), first - 1)}")
+    return inp

@@ -1,0 +1,523 @@
+"""The lender workbook, recalculated by LibreOffice as the reference spreadsheet engine.
+
+openpyxl stores formulas without cached values, so LibreOffice (headless, converting
+xlsx to xlsx) computes every formula on load and saves the values; the tests read
+them back with ``openpyxl.load_workbook(data_only=True)`` and compare with the
+engine. One module-scoped fixture converts every workbook of the module in a single
+LibreOffice call (each file costs about 2.5 s), with a private user profile so that
+no shared profile lock gets in the way.
+
+Agreement is to 1e-9 relative: each cell against the engine's value; a value below
+a millionth of its row's largest magnitude is compared relative to that magnitude
+(the balance rolled forward in the sheet leaves a residual of about 1e-14 of the
+debt where the engine holds exactly zero, and that residual accrues interest).
+"""
+
+from __future__ import annotations
+
+import errno
+import math
+import os
+import subprocess
+import tempfile
+from pathlib import Path
+from types import SimpleNamespace
+
+import numpy as np
+import openpyxl
+import pytest
+from openpyxl.formula import Tokenizer
+from openpyxl.utils import range_boundaries
+
+from conftest import DEMO, DEMO_EQUITY, make_scenario, require_tool
+from lcoe import CAUTION, cli, model, scenario as sc, workbook
+from lcoe import report as rp
+from lcoe.errors import ScenarioError
+
+REL = 1e-9
+ENGINE_DIGITS = 1e-15  # openpyxl stores numbers with 16 significant digits ("%.16g")
+ZERO_BAND = 1e-6       # of the row's largest magnitude: below it a value counts as zero
+ANNUAL = [k for k in model.ANNUAL_KEYS if k != "year"]
+LIVE_CHANGES = {"revenue.ppa_price_per_mwh": 61.5, "operations.degradation_per_year": 0.006}
+HOSTILE_NAME_1 = '=HYPERLINK("x")'
+HOSTILE_NAME_2 = "+1+1"
+ERROR_TEXT = ("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!")
+
+
+# --------------------------------------------------------------------------- helpers
+
+def named(wb, name):
+    """The value of a defined name: one value, or the list of a row."""
+    dests = list(wb.defined_names[name].destinations)
+    assert len(dests) == 1, name
+    sheet, ref = dests[0]
+    cells = wb[sheet][ref.replace("$", "")]
+    if isinstance(cells, tuple):
+        return [c.value for row in cells for c in (row if isinstance(row, tuple) else (row,))]
+    return cells.value
+
+
+def set_named(wb, name, value):
+    sheet, ref = next(iter(wb.defined_names[name].destinations))
+    wb[sheet][ref.replace("$", "")].value = value
+
+
+def as_array(values):
+    return np.array([np.nan if v in (None, "", "n/a") else v for v in values], float)
+
+
+def rel_diff(sheet, engine):
+    """Largest relative difference of two rows; NaN positions must agree."""
+    s, e = as_array(sheet), np.asarray(engine, float)
+    assert s.shape == e.shape
+    assert np.array_equal(np.isnan(s), np.isnan(e)), (s, e)
+    ok = ~np.isnan(e)
+    if not ok.any():
+        return 0.0
+    scale = max(float(np.max(np.abs(e[ok]))), 1e-300)
+    den = np.where(np.abs(e[ok]) >= ZERO_BAND * scale, np.abs(e[ok]), scale)
+    return float(np.max(np.abs(s[ok] - e[ok]) / den))
+
+
+def metric_matches(sheet_value, engine_value):
+    if engine_value is None:
+        return sheet_value == "n/a"
+    if not isinstance(sheet_value, (int, float)):
+        return False
+    return math.isclose(sheet_value, engine_value, rel_tol=REL, abs_tol=1e-12)
+
+
+def recalculate(paths, outdir: Path, profile: Path):
+    """LibreOffice headless: load each xlsx (computing every formula) and save it again."""
+    soffice = require_tool("soffice")
+    cmd = [soffice, f"-env:UserInstallation=file://{profile}", "--headless", "--calc", "--convert-to", "xlsx",
+           "--outdir", str(outdir), *map(str, paths)]
+    done = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    for p in paths:
+        assert (outdir / Path(p).name).is_file(), done.stdout + done.stderr
+
+
+# --------------------------------------------------------------------------- the recalculated workbooks
+
+def _macrs_scenario():
+    # MACRS 7-year with a low price: tax losses in the early years are carried forward
+    return make_scenario(**{"finance.depreciation": "macrs_7", "project.name": HOSTILE_NAME_1,
+                            "revenue.ppa_price_per_mwh": 48.0})
+
+
+def _declining_capped_scenario():
+    # declining balance over 12 years; the gearing cap binds, so debt service is scaled down; a large
+    # overhaul in year 16 makes a tax loss after years of profit (carried forward, not refunded)
+    return make_scenario(**{
+        "finance.depreciation": "declining_balance", "finance.depreciation_years": 12,
+        "project.name": HOSTILE_NAME_2, "finance.debt.max_gearing": 0.4,
+        "maintenance.component": [{"name": "=1+2", "failure_rate_per_turbine_year": 0.02,
+                                   "replacement_cost": 3.0e5, "downtime_days": 20.0}],
+        "maintenance.overhaul": [{"name": "@SUM(A1)", "year": 16, "cost_per_turbine": 1.0e6}]})
+
+
+@pytest.fixture(scope="module")
+def books(tmp_path_factory):
+    require_tool("soffice")
+    root = tmp_path_factory.mktemp("workbooks")
+    src, out = root / "src", root / "out"
+    src.mkdir()
+    out.mkdir()
+    demo = sc.load(DEMO)
+    specs = {
+        "demo": (demo, dict(trials=2000), True),
+        "equity": (sc.load(DEMO_EQUITY), dict(trials=300, variants=False), False),
+        "macrs": (_macrs_scenario(), dict(trials=0), False),
+        "capped": (_declining_capped_scenario(), dict(trials=0), False),
+    }
+    cases = {}
+    for name, (scn, build_args, with_sens) in specs.items():
+        rep = rp.build(scn, **build_args)
+        path = src / f"{name}.xlsx"
+        workbook.write(rep, path, sensitivity=with_sens)
+        cases[name] = SimpleNamespace(scn=scn, report=rep, case=rep.case, src=path)
+
+    # liveness: change the PPA price and the degradation on Inputs; the debt at close is the engine's
+    # converged value, so the test types in the one the engine converges to for the changed inputs
+    changed = demo.with_overrides(LIVE_CHANGES)
+    live_case = model.run(changed, breakeven=False)
+    for name, update_debt in (("live", True), ("held", False)):
+        wb = openpyxl.load_workbook(cases["demo"].src)
+        set_named(wb, "ppa_price_per_mwh", LIVE_CHANGES["revenue.ppa_price_per_mwh"])
+        set_named(wb, "degradation_per_year", LIVE_CHANGES["operations.degradation_per_year"])
+        if update_debt:
+            set_named(wb, "debt_at_close", live_case.metrics["debt_amount"])
+            set_named(wb, "debt_service_scale",
+                      workbook.debt_service_scale(live_case.schedule, changed.finance.debt.target_dscr))
+        path = src / f"{name}.xlsx"
+        wb.save(path)
+        cases[name] = SimpleNamespace(scn=changed, report=None, case=live_case, src=path)
+
+    recalculate([c.src for c in cases.values()], out, root / "lo-profile")
+    for name, c in cases.items():
+        c.values = openpyxl.load_workbook(out / c.src.name, data_only=True)
+        c.formulas = openpyxl.load_workbook(c.src)
+    return cases
+
+
+BASE_CASES = ("demo", "equity", "macrs", "capped")
+
+
+# --------------------------------------------------------------------------- agreement with the engine
+
+@pytest.mark.parametrize("name", BASE_CASES)
+def test_every_metric_name_equals_the_engine(books, name):
+    """Reference engine: LibreOffice. Every key of the report's metrics is a defined name of the same spelling
+    whose recalculated value equals the engine's to 1e-9 relative (None in the engine is "n/a")."""
+    c = books[name]
+    for key in model.METRIC_KEYS:
+        got = named(c.values, key)
+        assert metric_matches(got, c.case.metrics[key]), (key, got, c.case.metrics[key])
+
+
+@pytest.mark.parametrize("name", BASE_CASES)
+def test_every_yearly_row_equals_the_engine(books, name):
+    """Reference engine: LibreOffice. Each yearly cash-flow line (t = 0..L) equals the engine's to 1e-9."""
+    c = books[name]
+    for key in ANNUAL:
+        assert rel_diff(named(c.values, f"annual_{key}"), getattr(c.case.flows, key)[0]) <= REL, key
+
+
+@pytest.mark.parametrize("name", BASE_CASES)
+def test_debt_schedule_equals_the_engine(books, name):
+    """Reference engine: LibreOffice. The sculpted schedule rolled forward from the converged debt equals the
+    engine's schedule (which it computes backwards from the debt service) to 1e-9."""
+    c = books[name]
+    s, f = c.case.schedule, c.case.flows
+    zero = np.zeros(1)
+    rows = {"debt_opening": np.concatenate([zero, s.balance_open[0]]),
+            "debt_interest": np.concatenate([zero, s.interest[0]]),
+            "debt_principal": np.concatenate([zero, s.principal[0]]),
+            "debt_service_sculpted": np.concatenate([zero, s.debt_service[0]]),
+            "debt_closing": f.balance[0]}
+    if c.scn.finance.debt is not None:
+        factor = f.case_factors[c.scn.finance.debt.sizing_case][0, 0]
+        rows["sizing_cfads"] = np.concatenate([zero, s.sizing_cfads[0]])
+        rows["sizing_energy_mwh"] = f.energy_mwh[0] * factor
+    for key, engine_row in rows.items():
+        assert rel_diff(named(c.values, key), engine_row) <= REL, key
+
+
+@pytest.mark.parametrize("name", BASE_CASES)
+def test_energy_and_cost_totals_equal_the_engine(books, name):
+    """Reference engine: LibreOffice. Energy totals and the costs block of the JSON report, to 1e-9."""
+    c = books[name]
+    e = c.case.energy
+    for key in ("gross_aep_mwh", "net_aep_p50_mwh", "net_aep_p90_1yr_mwh", "net_aep_p90_10yr_mwh",
+                "net_aep_p99_1yr_mwh", "net_capacity_factor", "loss_factor", "downtime_fraction"):
+        assert math.isclose(named(c.values, key), getattr(e, key), rel_tol=REL, abs_tol=1e-15), key
+    for key, value in rp.costs_block(c.case).items():
+        assert math.isclose(named(c.values, key), value, rel_tol=REL), key
+
+
+@pytest.mark.parametrize("name", BASE_CASES)
+def test_live_checks_pass_on_the_engine_inputs(books, name):
+    c = books[name]
+    assert named(c.values, "checks_ok") == 1
+    assert all(v == 1 for v in named(c.values, "sizing_dscr_check"))
+
+
+def test_macrs_shares_are_the_irs_table(books):
+    """MACRS 7-year, half-year convention: 14.29, 24.49, 17.49, 12.49, 8.93, 8.92, 8.93, 4.46 %
+    (US IRS Publication 946, Table A-1); the rest of the life writes off nothing."""
+    shares = as_array(named(books["macrs"].values, "depreciation_share"))
+    irs = [0.1429, 0.2449, 0.1749, 0.1249, 0.0893, 0.0892, 0.0893, 0.0446]
+    assert np.allclose(shares[1:9], irs, atol=1e-4)
+    assert np.all(shares[9:] == 0) and shares[0] == 0
+    assert books["macrs"].case.flows.tax_unlevered[0, 1] == 0  # the early losses are carried forward
+
+
+def test_gearing_cap_binds_in_the_capped_case(books):
+    c = books["capped"]
+    cap = 0.4 * c.case.flows.capex_total[0, 0]
+    assert math.isclose(named(c.values, "debt_amount"), cap, rel_tol=REL)
+    assert named(c.values, "debt_service_scale") < 1
+
+
+# --------------------------------------------------------------------------- liveness
+
+def test_changed_inputs_recompute_every_metric(books):
+    """Reference engine: LibreOffice. With the PPA price and the degradation changed on Inputs (and the debt at
+    close set to the engine's converged value for those inputs), every metric and yearly row equals the engine
+    run with the same changes (Scenario.with_overrides). The break-even price is an engine goal seek, held."""
+    c = books["live"]
+    assert c.case.metrics["debt_amount"] != books["demo"].case.metrics["debt_amount"]
+    for key in model.METRIC_KEYS:
+        if key == "breakeven_ppa_price_per_mwh":
+            continue
+        got = named(c.values, key)
+        assert metric_matches(got, c.case.metrics[key]), (key, got, c.case.metrics[key])
+        assert got != named(books["demo"].values, key) or key == "payback_year", key
+    for key in ANNUAL:
+        assert rel_diff(named(c.values, f"annual_{key}"), getattr(c.case.flows, key)[0]) <= REL, key
+    assert named(c.values, "checks_ok") == 1
+
+
+def test_a_held_debt_that_no_longer_fits_is_flagged(books):
+    """Inputs changed, debt not re-converged: revenue still follows the inputs, and the live check of the
+    present value of debt service against the debt fails."""
+    c = books["held"]
+    assert rel_diff(named(c.values, "annual_revenue"), c.case.flows.revenue[0]) <= REL
+    assert named(c.values, "checks_ok") == 0
+    sheet = c.values["Checks"]
+    results = {sheet.cell(r, 1).value: sheet.cell(r, 2).value for r in range(5, sheet.max_row + 1)}
+    assert results["Present value of debt service at the interest rate equals the debt"] == 0
+
+
+# --------------------------------------------------------------------------- integrity
+
+@pytest.mark.parametrize("name", list(BASE_CASES) + ["live"])
+def test_no_error_values_after_recalculation(books, name):
+    """LibreOffice writes a circular reference or any failed formula as an error value (#VALUE!, ...)."""
+    bad = []
+    for ws in books[name].values.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                v = cell.value
+                if cell.data_type == "e" or (isinstance(v, str) and (v in ERROR_TEXT or v.startswith("Err:"))):
+                    bad.append(f"{ws.title}!{cell.coordinate} {v}")
+    assert not bad, bad[:10]
+
+
+def _references(wb, ws, formula):
+    """Cells a formula reads: (sheet, column, row) of every cell in its ranges and defined names."""
+    out = []
+    for tok in Tokenizer(formula).items:
+        if tok.type != "OPERAND" or tok.subtype != "RANGE":
+            continue
+        text = tok.value
+        if text in wb.defined_names:
+            targets = list(wb.defined_names[text].destinations)
+        elif "!" in text:
+            sheet, ref = text.rsplit("!", 1)
+            targets = [(sheet.strip("'").replace("''", "'"), ref)]
+        else:
+            targets = [(ws.title, text)]
+        for sheet, ref in targets:
+            c0, r0, c1, r1 = range_boundaries(ref.replace("$", ""))
+            out.extend((sheet, col, r) for col in range(c0, c1 + 1) for r in range(r0, r1 + 1))
+    return out
+
+
+@pytest.mark.parametrize("name", ["demo", "equity"])
+def test_no_circular_reference(books, name):
+    """The formula graph is acyclic (depth-first search over every reference)."""
+    wb = books[name].formulas
+    graph = {}
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.data_type == "f":
+                    graph[(ws.title, cell.column, cell.row)] = _references(wb, ws, cell.value)
+    assert len(graph) > 1000
+    state = {}
+    for start in graph:
+        if start in state:
+            continue
+        stack = [(start, iter(graph[start]))]
+        state[start] = "open"
+        while stack:
+            node, it = stack[-1]
+            nxt = next(it, None)
+            if nxt is None:
+                state[node] = "done"
+                stack.pop()
+            elif nxt in graph:
+                assert state.get(nxt) != "open", f"circular reference through {nxt}"
+                if nxt not in state:
+                    state[nxt] = "open"
+                    stack.append((nxt, iter(graph[nxt])))
+
+
+@pytest.mark.parametrize("name", ["demo", "capped"])
+def test_yearly_rows_are_formulas(books, name):
+    """Every filled cell of the yearly columns on Energy, Cash flow and Debt is a formula."""
+    wb = books[name].formulas
+    L = books[name].scn.lifetime
+    for title in ("Energy", "Cash flow", "Debt"):
+        ws = wb[title]
+        lines = 0
+        for r in range(workbook.FIRST_ROW, ws.max_row + 1):
+            label = ws.cell(r, 1).value
+            if label is None or ws.cell(r, workbook.T0_COL + L).value is None:
+                continue  # section heads and single values
+            lines += 1
+            for col in range(workbook.T0_COL, workbook.T0_COL + L + 1):
+                assert ws.cell(r, col).data_type == "f", f"{title}!{ws.cell(r, col).coordinate}"
+        assert lines >= 5, title
+
+
+def test_metric_names_point_at_summary_formulas(books):
+    wb = books["demo"].formulas
+    for key in model.METRIC_KEYS:
+        sheet, ref = next(iter(wb.defined_names[key].destinations))
+        cell = wb[sheet][ref.replace("$", "")]
+        assert sheet == "Summary" and cell.data_type == "f", key
+
+
+def test_key_inputs_are_named_values_on_inputs(books):
+    wb = books["demo"].formulas
+    scn = books["demo"].scn
+    expected = {"ppa_price_per_mwh": scn.revenue.ppa_price_per_mwh,
+                "degradation_per_year": scn.operations.degradation_per_year,
+                "discount_rate": scn.finance.discount_rate, "tax_rate": scn.finance.tax_rate,
+                "fixed_per_kw_year": scn.maintenance.fixed_per_kw_year, "loss_wake": scn.losses.wake,
+                "tenor_years": scn.finance.debt.tenor_years, "interest_rate": scn.finance.debt.interest_rate,
+                "target_dscr": scn.finance.debt.target_dscr, "turbine_per_kw": scn.capex.turbine_per_kw}
+    for key, value in expected.items():
+        sheet, ref = next(iter(wb.defined_names[key].destinations))
+        cell = wb[sheet][ref.replace("$", "")]
+        assert sheet == "Inputs" and cell.data_type == "n" and cell.value == value, key
+
+
+# --------------------------------------------------------------------------- text from the scenario
+
+@pytest.mark.parametrize("name, text", [("macrs", HOSTILE_NAME_1), ("capped", HOSTILE_NAME_2)])
+def test_scenario_name_is_written_as_text(books, name, text):
+    c = books[name]
+    cell = c.formulas["Summary"]["B4"]
+    assert cell.value == text and cell.data_type == "s"
+    assert c.values["Summary"]["B4"].value == text            # LibreOffice kept it as text
+    for ws in c.formulas.worksheets:                           # and no formula came from it
+        for row in ws.iter_rows():
+            for cl in row:
+                assert not (cl.data_type == "f" and ("HYPERLINK" in cl.value or cl.value == text))
+
+
+def test_item_names_are_written_as_text(books):
+    c = books["capped"]
+    found = {}
+    for row in c.formulas["Inputs"].iter_rows():
+        for cell in row:
+            if cell.value in ("=1+2", "@SUM(A1)"):
+                found[cell.value] = cell.data_type
+    assert found == {"=1+2": "s", "@SUM(A1)": "s"}
+    texts = [cell.value for row in c.values["Inputs"].iter_rows() for cell in row]
+    assert "=1+2" in texts and "@SUM(A1)" in texts
+
+
+# --------------------------------------------------------------------------- Monte Carlo and sensitivity
+
+def test_montecarlo_sheet_holds_the_engine_results(books):
+    c = books["demo"]
+    mc = c.report.montecarlo.report()
+    ws = c.formulas["Monte Carlo"]
+    assert "NOT LIVE" in ws["A2"].value
+    assert ws["B4"].value == 2000
+    rows = {ws.cell(r, 1).value: r for r in range(9, ws.max_row + 1) if ws.cell(r, 1).value}
+    lcoe_row = rows["LCOE, nominal"]
+    for j, stat in enumerate(("p50", "p75", "p90", "p99", "mean", "sd")):
+        assert ws.cell(lcoe_row, 3 + j).value == pytest.approx(mc["lcoe_nominal_per_mwh"][stat], rel=ENGINE_DIGITS)
+    # histogram of the LCOE: counts of all trials, the P50 and P90 bins marked
+    head = next(r for r in range(1, ws.max_row + 1)
+                if str(ws.cell(r, 1).value).startswith("Histogram: LCOE, nominal"))
+    counts = [ws.cell(r, 3).value for r in range(head + 2, head + 2 + len(mc["histogram"]["lcoe_nominal_per_mwh"]
+                                                                         ["counts"]))]
+    assert counts == mc["histogram"]["lcoe_nominal_per_mwh"]["counts"]
+    assert sum(counts) == 2000
+    for col, stat in ((4, "p50"), (5, "p90")):
+        marked = [r for r in range(head + 2, head + 2 + len(counts)) if ws.cell(r, col).value]
+        assert len(marked) == 1
+        lo, hi = ws.cell(marked[0], 1).value, ws.cell(marked[0], 2).value
+        assert lo <= mc["lcoe_nominal_per_mwh"][stat] <= hi
+    assert len(ws._charts) >= 3
+    eq = books["equity"].formulas["Monte Carlo"]
+    assert "Minimum DSCR, P50 case" not in [eq.cell(r, 1).value for r in range(1, eq.max_row + 1)]
+
+
+def test_sensitivity_sheet_holds_the_tornado_and_the_sweep(books):
+    sens = pytest.importorskip("lcoe.sensitivity")
+    c = books["demo"]
+    ws = c.formulas["Sensitivity"]
+    rows = sens.tornado(c.scn, metric="lcoe_nominal_per_mwh")
+    keys = [ws.cell(r, 1).value for r in range(6, 6 + len(rows))]
+    assert keys == [r["key"] for r in rows]
+    assert ws.cell(6, 7).value == pytest.approx(rows[0]["swing"], rel=ENGINE_DIGITS)
+    head = next(r for r in range(1, ws.max_row + 1) if str(ws.cell(r, 1).value).startswith("Wind-speed sweep"))
+    factors = [ws.cell(r, 1).value for r in range(head + 2, head + 15)]
+    assert factors == pytest.approx([0.7 + 0.05 * i for i in range(13)])
+    speeds = [ws.cell(r, 2).value for r in range(head + 2, head + 15)]
+    assert speeds == pytest.approx([7.4 * f for f in factors])
+    assert len(ws._charts) == 2
+    assert "Sensitivity" not in books["macrs"].formulas.sheetnames
+
+
+# --------------------------------------------------------------------------- presentation
+
+def test_presentation(books):
+    wb = books["demo"].formulas
+    assert wb.sheetnames == ["Summary", "Inputs", "Energy", "Cash flow", "Debt", "Monte Carlo", "Sensitivity",
+                             "Checks", "Notes"]
+    L = books["demo"].scn.lifetime
+    for title in ("Energy", "Cash flow", "Debt"):
+        ws = wb[title]
+        assert ws.freeze_panes == "C5"
+        assert [ws.cell(workbook.YEAR_ROW, workbook.T0_COL + t).value for t in range(L + 1)] == list(range(L + 1))
+        for r in range(workbook.FIRST_ROW, ws.max_row + 1):
+            if ws.cell(r, workbook.T0_COL + L).data_type == "f":
+                assert ws.cell(r, 2).value, f"{title} row {r} has no unit"
+                assert ws.cell(r, workbook.T0_COL + L).number_format != "General", f"{title} row {r}"
+    assert len(wb["Cash flow"]._charts) == 1 and len(wb["Debt"]._charts) == 1
+    notes = [wb["Notes"].cell(r, 1).value for r in range(1, wb["Notes"].max_row + 1)]
+    assert CAUTION in notes
+    assert any("NPV() discounts its first value" in str(n) for n in notes)
+    assert wb["Summary"]["A2"].value == CAUTION
+
+
+# --------------------------------------------------------------------------- writing safely
+
+def _small_report():
+    return rp.build(make_scenario(), trials=0, variants=False)
+
+
+def test_unwritable_folder_leaves_nothing(tmp_path, monkeypatch):
+    rep = _small_report()
+    folder = tmp_path / "locked"
+    folder.mkdir()
+    target = folder / "book.xlsx"
+    if os.geteuid() != 0:      # a real read-only folder (root may write anywhere)
+        folder.chmod(0o500)
+        try:
+            with pytest.raises(ScenarioError, match=r"^--workbook = .*: cannot write in .* \(Permission denied\)$"):
+                workbook.write(rep, target, sensitivity=False)
+        finally:
+            folder.chmod(0o700)
+        assert list(folder.iterdir()) == []
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(errno.EACCES, "Permission denied")
+
+    monkeypatch.setattr(tempfile, "mkstemp", refuse)
+    with pytest.raises(ScenarioError, match=r"^--workbook = .*: cannot write in .* \(Permission denied\)$") as exc:
+        workbook.write(rep, target, sensitivity=False)
+    assert "\n" not in str(exc.value)
+    assert list(folder.iterdir()) == []
+
+
+def test_a_failed_save_leaves_no_partial_file(tmp_path, monkeypatch):
+    rep = _small_report()
+
+    def half_save(self, filename):
+        Path(filename).write_bytes(b"PK\x03\x04 partial")
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    monkeypatch.setattr(openpyxl.Workbook, "save", half_save)
+    with pytest.raises(ScenarioError, match=r"cannot write the file \(No space left on device\)"):
+        workbook.write(rep, tmp_path / "book.xlsx", sensitivity=False)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_cli_reports_a_missing_folder_in_one_line(tmp_path, capsys):
+    target = tmp_path / "no" / "such" / "book.xlsx"
+    rc = cli.main(["run", str(DEMO_EQUITY), "--trials", "0", "--brief", "--workbook", str(target)])
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert err.count("\n") == 1
+    assert err.startswith("error: --workbook = ") and "folder does not exist" in err
+    assert not (tmp_path / "no").exists()
