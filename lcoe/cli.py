@@ -27,16 +27,35 @@ def cmd_check(args) -> int:
     return 0
 
 
+def _check_output_folders(*outputs) -> None:
+    """Refuse a missing output folder before any work is done (write_atomic's own message)."""
+    from pathlib import Path
+    for path, option in outputs:
+        folder = Path(path).parent
+        if path and not folder.is_dir():
+            raise ScenarioError(f"folder does not exist: {folder}", key=option, value=str(path))
+
+
 def cmd_run(args) -> int:
     from lcoe import report as rp
+    from pathlib import Path
+    _check_output_folders(*((p, o) for p, o in ((args.workbook, "--workbook"), (args.csv, "--csv")) if p))
     scn = _load(args.file)
     trials = args.trials
     rep = rp.build(scn, trials=trials)
-    if args.workbook:
-        from lcoe import workbook
-        workbook.write(rep, args.workbook)
-    if args.csv:
-        write_annual_csv(rep, args.csv)
+    written = []
+    try:                       # each file is atomic; if the second fails, the first goes too
+        if args.workbook:
+            from lcoe import workbook
+            workbook.write(rep, args.workbook)
+            written.append(args.workbook)
+        if args.csv:
+            write_annual_csv(rep, args.csv)
+            written.append(args.csv)
+    except BaseException:
+        for path in written:
+            Path(path).unlink(missing_ok=True)
+        raise
     if args.json:
         print(rp.to_json(rep))
     else:

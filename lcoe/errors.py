@@ -17,6 +17,10 @@ def _show(value: Any) -> str:
     return text if len(text) <= 60 else text[:57] + "..."
 
 
+# every character str.splitlines() breaks on becomes a space: the message stays one line
+_LINE_BREAKS = {ord(c): " " for c in "\n\r\v\f\x1c\x1d\x1e\x85\u2028\u2029"}
+
+
 class ScenarioError(Exception):
     """Bad user input: a scenario file, a data file or an option.
 
@@ -43,7 +47,7 @@ class ScenarioError(Exception):
                 parts.append(f" = {_show(self.value)}")
             parts.append(": ")
         parts.append(self.message)
-        return "".join(parts).replace("\n", " ")
+        return "".join(parts).translate(_LINE_BREAKS)
 
     def with_file(self, file: str) -> "ScenarioError":
         if self.file is None:

@@ -49,8 +49,10 @@ def safe_cell(value):
 def write_csv(path: str | Path, header: list[str], rows: list[list], *, option: str = "--csv") -> Path:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow([safe_cell(h) for h in header])
-    for r in rows:
-        w.writerow(["" if v is None else safe_cell(v) for v in r])
+    # Python < 3.12 leaves a field holding a bare carriage return unquoted, which splits the
+    # row on reading: such rows are written fully quoted (RFC 4180).
+    quoted = csv.writer(buf, lineterminator="\n", quoting=csv.QUOTE_ALL)
+    for r in [[safe_cell(h) for h in header]] + [["" if v is None else safe_cell(v) for v in r] for r in rows]:
+        (quoted if any(isinstance(v, str) and "\r" in v for v in r) else w).writerow(r)
     data = buf.getvalue()
     return write_atomic(path, lambda p: p.write_text(data, encoding="utf-8"), option=option)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import warnings as _warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -39,10 +40,12 @@ def weibull_moment(scale_mps, shape, n):
 def weibull_pdf(speed_mps, scale_mps, shape):
     """Weibull probability density f(v) = k/A (v/A)^(k-1) exp(-(v/A)^k). [1/(m/s)]"""
     v = np.asarray(speed_mps, dtype=float)
-    x = np.where(v > 0, v / scale_mps, 0.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        x = np.where(v > 0, v / scale_mps, 0.0)
         pdf = shape / scale_mps * np.power(x, shape - 1.0) * np.exp(-np.power(x, shape))
-    return np.where(v > 0, pdf, 0.0)
+    # far in the tail (v / A or its powers overflow, e.g. a scale of 1e-200 m/s) the exponential wins:
+    # the density's limit is 0, where the floating-point product inf * 0 would give NaN
+    return np.where((v > 0) & ~np.isnan(pdf), pdf, 0.0)
 
 
 def _gamma(x):
@@ -118,22 +121,42 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
 
     path = Path(path)
     shown = str(path)
+    name = str(path.name)
+
+    def fail(msg):
+        return ScenarioError(msg, key=key, value=name, file=shown)
+
     try:
-        df = pd.read_csv(path, dtype=str, keep_default_na=False)
+        # utf-8-sig: a byte-order mark, as some spreadsheets write, is not part of the header
+        df = pd.read_csv(path, dtype=str, keep_default_na=False, encoding="utf-8-sig")
     except FileNotFoundError:
-        raise ScenarioError(f"file not found: {shown}", key=key, value=str(path.name)) from None
-    except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
-        raise ScenarioError(f"cannot be read as CSV ({type(exc).__name__}): {shown}", key=key,
-                            value=str(path.name)) from None
-    cols = [c.strip() for c in df.columns]
+        raise fail("file not found") from None
+    except IsADirectoryError:
+        raise fail("is a folder, not a CSV file") from None
+    except pd.errors.EmptyDataError:
+        raise fail("is empty; expected the header 'timestamp,speed_mps[,temperature_c]' and one row per hour") from None
+    except pd.errors.ParserError as exc:
+        detail = str(exc).strip().splitlines()[-1] if str(exc).strip() else ""
+        raise fail(f"cannot be read as CSV (ParserError: {detail})") from None
+    except UnicodeDecodeError:
+        raise fail("cannot be read as CSV (UnicodeDecodeError): not UTF-8 text") from None
+    except (OSError, ValueError) as exc:
+        raise fail(f"cannot be read as CSV ({type(exc).__name__})") from None
+    cols = [str(c).strip() for c in df.columns]
     df.columns = cols
     if "timestamp" not in cols or "speed_mps" not in cols:
-        raise ScenarioError(f"header must be 'timestamp,speed_mps[,temperature_c]', found {','.join(cols)!r}: {shown}",
-                            key=key, value=str(path.name))
+        raise fail(f"header must be 'timestamp,speed_mps[,temperature_c]', found {','.join(cols)!r}")
+    # pandas renames a repeated column 'speed_mps' to 'speed_mps.1'; which one is meant is unclear
+    repeated = [c.rsplit(".", 1)[0] for c in cols if "." in c and c.rsplit(".", 1)[1].isdigit()
+                and c.rsplit(".", 1)[0] in cols]
+    if repeated:
+        raise fail(f"column {repeated[0]!r} appears more than once in the header")
     if len(df) == 0:
-        raise ScenarioError(f"has no data rows: {shown}", key=key, value=str(path.name))
+        raise fail("has no data rows")
     warnings: list[str] = []
-    ts = pd.to_datetime(df["timestamp"].str.strip(), errors="coerce", utc=True)
+    with _warnings.catch_warnings():   # unreadable stamps are counted below; pandas need not warn
+        _warnings.filterwarnings("ignore", message="Could not infer format", category=UserWarning)
+        ts = pd.to_datetime(df["timestamp"].str.strip(), errors="coerce", utc=True)
     speed = pd.to_numeric(df["speed_mps"].str.strip(), errors="coerce")
     temp = pd.to_numeric(df["temperature_c"].str.strip(), errors="coerce") if "temperature_c" in cols else None
     bad_ts = int(ts.isna().sum())
@@ -156,15 +179,19 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
         temp = temp[~dup] if temp is not None else None
     n = len(ts)
     if n == 0:
-        raise ScenarioError(f"has no usable rows: {shown}", key=key, value=str(path.name))
+        raise fail(f"has no usable rows ({bad_ts} unreadable timestamp(s), {int(bad_speed.sum())} bad speed(s), "
+                   f"{int(bad_temp.sum())} bad temperature(s) of {len(df)})")
     span_h = int(round((ts.max() - ts.min()).total_seconds() / 3600.0)) + 1
     expected = max(span_h, n, len(df))
     missing = expected - n
     if missing > 0:
-        warnings.append(f"{shown}: {missing} of {expected} hour(s) missing ({missing / expected:.1%})")
+        steps_h = np.diff(np.sort((ts - ts.min()).dt.total_seconds().to_numpy())) / 3600.0
+        holes = steps_h[steps_h > 1.5]
+        gaps = f"; {holes.size} gap(s) in the record, the longest {holes.max() - 1:.0f} h" if holes.size else ""
+        warnings.append(f"{shown}: {missing} of {expected} hour(s) missing ({missing / expected:.1%}){gaps}")
     if missing / expected > max_missing_share:
-        raise ScenarioError(f"{missing / expected:.1%} of the hours are missing or bad, more than "
-                            f"wind.max_missing_share = {max_missing_share:g}: {shown}", key=key, value=str(path.name))
+        raise fail(f"{missing / expected:.1%} of the hours are missing or bad, more than "
+                   f"wind.max_missing_share = {max_missing_share:g} ({missing} of {expected} hour(s))")
     if n < 24 * 30:
         warnings.append(f"{shown}: only {n} hour(s); a long-term energy estimate needs at least a year")
     return Series(speed_mps=speed.to_numpy(float), temperature_c=None if temp is None else temp.to_numpy(float),
@@ -185,5 +212,7 @@ def fit_weibull(speed_mps: np.ndarray) -> tuple[float, float]:
     if v.size < 10:
         raise ScenarioError("too few positive speeds to fit a Weibull distribution", key="wind.timeseries",
                             has_value=False)
-    k, _, a = weibull_min.fit(v, floc=0)
+    with _warnings.catch_warnings():   # a nearly constant series makes scipy warn about its moments
+        _warnings.simplefilter("ignore", RuntimeWarning)
+        k, _, a = weibull_min.fit(v, floc=0)
     return float(k), float(a)

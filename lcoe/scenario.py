@@ -18,7 +18,7 @@ from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, model_validator
 
-from lcoe.errors import ScenarioError
+from lcoe.errors import ScenarioError, _show
 
 SCHEMA_VERSION = 1
 
@@ -340,6 +340,8 @@ class Scenario(_Model):
         if self.revenue.ppa_term_years is not None and self.revenue.ppa_term_years > self.lifetime:
             out.append(f"revenue.ppa_term_years = {self.revenue.ppa_term_years} is longer than "
                        f"project.lifetime_years = {self.lifetime}; the years past the life are ignored")
+        if self.wind.timeseries is not None and self.wind.weibull_shape is not None:
+            out.append("wind.weibull_shape is ignored with wind.timeseries (the distribution comes from the series)")
         if self.revenue.production_credit_years > self.lifetime and self.revenue.production_credit_per_mwh > 0:
             out.append(f"revenue.production_credit_years = {self.revenue.production_credit_years} is longer than "
                        f"the life; the credit ends with the project")
@@ -368,6 +370,24 @@ class _Cross(ValueError):
 
 
 # --------------------------------------------------------------------------- dotted keys
+
+def suggest(word: str, known: list[str]) -> list[str]:
+    """The known key a mistyped one most likely meant (a list of 0 or 1 names).
+
+    difflib's closest match first; failing that, the one known key that begins
+    with the word (``failure_rate`` -> ``failure_rate_per_turbine_year``) or that
+    the word begins with (``lifetime_years_total`` -> ``lifetime_years``).
+    """
+    word = str(word)
+    known = [str(k) for k in known]
+    hint = difflib.get_close_matches(word, known, n=1, cutoff=0.6) or \
+        difflib.get_close_matches(word.lower(), known, n=1, cutoff=0.6)
+    if hint:
+        return hint
+    low = word.lower()
+    starts = [k for k in known if len(low) >= 3 and (k.lower().startswith(low) or low.startswith(k.lower()))]
+    return starts[:1] if len(starts) == 1 else []
+
 
 def _find_named(items: list, name: str) -> int | None:
     for i, item in enumerate(items):
@@ -438,7 +458,7 @@ def _unknown_msg(path: list[str], node: dict) -> str:
     model = _model_at(path[:-1])
     if model is not None:
         known = list(model.model_fields)
-    hint = difflib.get_close_matches(path[-1], known, n=1)
+    hint = suggest(path[-1], known)
     return "unknown key" + (f" (did you mean {'.'.join(path[:-1] + [hint[0]])!r}?)" if hint else "")
 
 
@@ -496,8 +516,8 @@ def numeric_value(scn: Scenario, key: str) -> float:
         else:
             model = node if isinstance(node, BaseModel) else None
             known = list(type(model).model_fields) if model is not None else []
-            hint = difflib.get_close_matches(part, known, n=1)
-            raise ScenarioError("unknown key" + (f" (did you mean {hint[0]!r}?)" if hint else ""),
+            hint = suggest(part, known)
+            raise ScenarioError("unknown key" + (f" (did you mean {'.'.join(parts[:i] + hint)!r}?)" if hint else ""),
                                 key=key, has_value=False)
         i += 1
     if isinstance(node, bool) or not isinstance(node, (int, float)):
@@ -589,7 +609,7 @@ def _convert(err: ValidationError, raw: dict) -> ScenarioError:
     if typ == "extra_forbidden":
         model = _model_at([p for p in loc[:-1] if isinstance(p, str)])
         known = list(model.model_fields) if model is not None else []
-        hint = difflib.get_close_matches(str(loc[-1]), known, n=1, cutoff=0.6)
+        hint = suggest(str(loc[-1]), known)
         parent = _dotted(loc[:-1])
         msg = "unknown key"
         if hint:
@@ -655,39 +675,114 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
                 try:
                     scn.with_overrides(overrides, label=f"variants.{name}")
                 except ScenarioError as exc:
-                    if exc.key and not exc.key.startswith("variants."):
-                        exc = ScenarioError(exc.message, key=f"variants.{name}.{exc.key}", value=exc.value,
-                                            has_value=exc.has_value)
-                    raise exc
+                    raise _variant_error(exc, scn, name, overrides) from None
         return scn
     except ScenarioError as exc:
         raise exc.with_file(source)
 
 
 def _check_variant_key(scn: Scenario, name: str, key: str, value: Any) -> None:
+    """A variant's dotted key must name a scenario value: a section field, or a field of a named list item."""
+    label = f"variants.{name}.{key}"
     parts = key.split(".")
-    model = _model_at(parts[:-1])
-    if model is None:
-        # list items: maintenance.component.NAME.field
-        if len(parts) >= 4 and _model_at(parts[:2]) is not None:
-            model = _model_at(parts[:2])
-            if model is not None and parts[-1] in model.model_fields:
-                return
-        head = ".".join(parts[:-1])
-        raise ScenarioError("unknown key", key=f"variants.{name}.{key}", value=value) if head else \
-            ScenarioError("unknown key", key=f"variants.{name}.{key}", value=value)
-    if parts[-1] not in model.model_fields:
-        hint = difflib.get_close_matches(parts[-1], list(model.model_fields), n=1)
-        msg = "unknown key" + (f" (did you mean {'.'.join(parts[:-1] + [hint[0]])!r}?)" if hint else "")
-        raise ScenarioError(msg, key=f"variants.{name}.{key}", value=value)
+    if any(not p for p in parts):
+        raise ScenarioError("must be a dotted key such as 'project.lifetime_years'", key=label, value=value)
+    model: Any = Scenario
+    walked: list[str] = []
+    i = 0
+    while i < len(parts):
+        part = parts[i]
+        fields = model.model_fields
+        if part not in fields:
+            hint = suggest(part, list(fields))
+            msg = "unknown key" + (f" (did you mean {'.'.join(walked + hint + parts[i + 1:])!r}?)" if hint else "")
+            raise ScenarioError(msg, key=label, value=value)
+        walked.append(part)
+        ann = fields[part].annotation
+        inner = _inner_model(ann)
+        i += 1
+        if i == len(parts):
+            return
+        if inner is None:
+            raise ScenarioError(f"{'.'.join(walked)} is a value, not a table", key=label, value=value)
+        origin = getattr(ann, "__origin__", None)
+        if origin is dict:          # montecarlo.vary.NAME...: names may hold dots; checked on validation
+            return
+        if origin is list:          # maintenance.component.NAME.field
+            walked.append(parts[i])
+            i += 1
+            if i == len(parts):
+                raise ScenarioError("name an item and a field, e.g. maintenance.component.gearbox.replacement_cost",
+                                    key=label, value=value)
+        model = inner
+
+
+def _named_key(raw: dict, key: str) -> str:
+    """``maintenance.component[0].x`` -> ``maintenance.component.gearbox.x`` (the item's name)."""
+    out: list[str] = []
+    node: Any = raw
+    for token in re.findall(r"[^.\[\]]+|\[\d+\]", key):
+        if token.startswith("[") and isinstance(node, list):
+            idx = int(token[1:-1])
+            item = node[idx] if idx < len(node) else None
+            nm = item.get("name") if isinstance(item, dict) else None
+            if not isinstance(nm, str):
+                return key
+            out.append(nm)
+            node = item
+        else:
+            out.append(token)
+            node = node.get(token) if isinstance(node, dict) else None
+    return ".".join(out)
+
+
+def _variant_error(exc: ScenarioError, scn: Scenario, name: str, overrides: dict) -> ScenarioError:
+    """Re-key an error met while applying a variant: under the variant's own key when it set that
+    value, else under ``variants.NAME`` with the scenario key it broke in the message."""
+    if not exc.key or exc.key.startswith("variants."):
+        return exc
+    raw = scn.raw
+    for k, v in overrides.items():
+        try:
+            set_dotted(raw, k, v)
+        except ScenarioError:
+            pass
+    key = _named_key(raw, exc.key)
+    if key in overrides or exc.key in overrides:
+        return ScenarioError(exc.message, key=f"variants.{name}.{key}", value=exc.value, has_value=exc.has_value)
+    inner = f"{key} = {_show(exc.value)}" if exc.has_value else key
+    return ScenarioError(f"with this variant, {inner}: {exc.message}", key=f"variants.{name}", has_value=False)
+
+
+_CONTROL = re.compile(r"[\x00-\x1f\x7f]")
+
+
+def _check_text(scn: Scenario) -> None:
+    """Names and labels are one line of printable text: they go into tables, CSV and the workbook."""
+    texts = [("project.name", scn.project.name), ("project.currency", scn.project.currency)]
+    for table in ("component", "overhaul"):
+        texts += [(f"maintenance.{table}[{i}].name", x.name) for i, x in enumerate(getattr(scn.maintenance, table))]
+    for table in ("speed", "energy"):
+        texts += [(f"uncertainty.{table}[{i}].name", x.name) for i, x in enumerate(getattr(scn.uncertainty, table))]
+    for key, text in texts:
+        if _CONTROL.search(text):
+            raise ScenarioError("must be one line of text without control characters (tab, line break, escape)",
+                                key=key, value=text)
+    if not scn.project.name.strip():
+        raise ScenarioError("must not be blank", key="project.name", value=scn.project.name)
 
 
 def _cross_checks(scn: Scenario) -> None:
+    _check_text(scn)
     L = scn.lifetime
     t = scn.turbine
     if t.hub_height_m <= t.rotor_diameter_m / 2.0:
         raise ScenarioError(f"must be above the rotor radius {t.rotor_diameter_m / 2.0:g} m "
                             "(the blade would reach the ground)", key="turbine.hub_height_m", value=t.hub_height_m)
+    downtime = sum(c.failure_rate_per_turbine_year * c.downtime_days / 365.0 for c in scn.maintenance.component)
+    if downtime >= 1.0:
+        raise ScenarioError(f"the expected downtime sum(rate * downtime_days / 365) = {downtime:.3g} must be below 1 "
+                            "(the turbines would never run)", key="maintenance.component", has_value=False)
     for i, oh in enumerate(scn.maintenance.overhaul):
         if oh.year > L:
             raise ScenarioError(f"must lie within the operating life 1..{L}",
@@ -701,8 +796,9 @@ def _cross_checks(scn: Scenario) -> None:
         try:
             numeric_value(scn, name)
         except ScenarioError as exc:
-            raise ScenarioError(f"does not name a numeric scenario value ({exc.message})",
-                                key=f"montecarlo.vary.{name}", has_value=False) from None
+            msg = exc.message if exc.message.startswith("unknown key") else \
+                f"does not name a numeric scenario value ({exc.message})"
+            raise ScenarioError(msg, key=f"montecarlo.vary.{name}", has_value=False) from None
         if name in ("project.lifetime_years", "project.turbines"):
             raise ScenarioError("cannot vary between trials (it changes the shape of the model); use variants",
                                 key=f"montecarlo.vary.{name}", has_value=False)
@@ -735,11 +831,11 @@ def parse_toml(path: Path) -> dict:
 
 _TOML_HINTS = {
     "cannot overwrite a value": "a key is given twice",
-    "cannot declare": "a table is declared twice",
     "invalid value": "text needs quotes; numbers use '.' for decimals",
     "illegal character '\\n'": "a string or value is not closed on its line",
     "unclosed array": "a '[' has no matching ']'",
     "unterminated string": "a string has no closing quote",
+    "expected newline or end of document after a statement": "one key = value per line; numbers use '.' for decimals",
 }
 
 
@@ -757,6 +853,9 @@ def _syntax_message(detail: str, text: str) -> str:
     else:
         return f"TOML syntax error: {detail}"
     what = what[:1].lower() + what[1:]
+    # tomllib names a table as a tuple of keys: ('finance', 'debt') -> [finance.debt]
+    what = re.sub(r"\(((?:'[^']*',?\s*)+)\)", lambda g: "[" + ".".join(re.findall(r"'([^']*)'", g.group(1))) + "]",
+                  what)
     hint = next((h for k, h in _TOML_HINTS.items() if what.lower().startswith(k)), None)
     out = f"TOML syntax error at line {line}, column {col}: {what}"
     if hint:
@@ -774,6 +873,18 @@ def load(path: str | Path) -> Scenario:
     return from_dict(raw, source=str(path), base_dir=path.parent)
 
 
+_TOML_ESCAPES = {"\\": "\\\\", '"': '\\"', "\b": "\\b", "\t": "\\t", "\n": "\\n", "\f": "\\f", "\r": "\\r"}
+
+
+def _toml_char(ch: str) -> str:
+    """One character of a TOML basic string: quotes, backslashes and control characters escaped."""
+    if ch in _TOML_ESCAPES:
+        return _TOML_ESCAPES[ch]
+    if ord(ch) < 0x20 or ord(ch) == 0x7F:
+        return f"\\u{ord(ch):04X}"
+    return ch
+
+
 def to_toml(raw: dict) -> str:
     """Write scenario data back as TOML (the subset this format uses)."""
     lines: list[str] = []
@@ -786,7 +897,7 @@ def to_toml(raw: dict) -> str:
         if isinstance(v, float):
             return repr(v)
         if isinstance(v, str):
-            return '"' + v.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
+            return '"' + "".join(_toml_char(ch) for ch in v) + '"'
         if isinstance(v, list):
             return "[" + ", ".join(fmt(x) for x in v) + "]"
         raise TypeError(type(v))

@@ -169,68 +169,106 @@ def physics_curve(rated_power_kw, rotor_diameter_m, cp_max, cut_in_mps=3.0, cut_
 
 def table_curve(speed_mps, power_kw, rated_power_kw, rotor_diameter_m, *, reference_density_kgm3=1.225,
                 regulation="pitch", source="power curve", key="turbine.power_curve",
-                rated_tolerance=0.02) -> PowerCurve:
-    """A validated power-curve table (speeds sorted and unique, power >= 0, peak near rated)."""
+                rated_tolerance=0.02, file: str | None = None, rows=None) -> PowerCurve:
+    """A validated power-curve table (speeds sorted and unique, power >= 0, peak near rated).
+
+    ``file`` names the data file the table came from (the error then begins with it);
+    ``rows`` gives each point's line number in that file (default: 2, 3, ...).
+    """
     v = np.asarray(speed_mps, float)
     p = np.asarray(power_kw, float)
-    where = f" in {source}"
+    line = (lambda i: int(rows[i])) if rows is not None else (lambda i: int(i) + 2)
+    where = "" if file else f" in {source}"
+    value = Path(source).name
+
+    def fail(msg, detail=""):
+        return ScenarioError(msg + where + detail, key=key, value=value, file=file)
+
     if v.size < 2:
-        raise ScenarioError(f"needs at least two rows{where}", key=key, value=Path(source).name)
+        raise fail("needs at least two rows")
+    if v.shape != p.shape:
+        raise fail(f"has {v.size} speed(s) but {p.size} power value(s)")
     if not (np.all(np.isfinite(v)) and np.all(np.isfinite(p))):
-        row = int(np.nonzero(~(np.isfinite(v) & np.isfinite(p)))[0][0]) + 2
-        raise ScenarioError(f"row {row} has a missing or non-finite value{where}", key=key, value=Path(source).name)
+        i = int(np.nonzero(~(np.isfinite(v) & np.isfinite(p)))[0][0])
+        col, val = ("speed_mps", v[i]) if not np.isfinite(v[i]) else ("power_kw", p[i])
+        raise fail(f"row {line(i)} has a missing or non-finite value",
+                   f" ({col} = {val:g}); every cell must be a number")
     if np.any(v < 0):
-        row = int(np.nonzero(v < 0)[0][0]) + 2
-        raise ScenarioError(f"row {row}: speed must be >= 0{where}", key=key, value=Path(source).name)
+        i = int(np.nonzero(v < 0)[0][0])
+        raise fail(f"row {line(i)}: speed must be >= 0", f" (speed_mps = {v[i]:g})")
     d = np.diff(v)
     if np.any(d == 0):
-        row = int(np.nonzero(d == 0)[0][0]) + 3
-        raise ScenarioError(f"row {row}: duplicate speed {v[row - 2]:g} m/s{where}", key=key, value=Path(source).name)
+        i = int(np.nonzero(d == 0)[0][0]) + 1
+        raise fail(f"row {line(i)}: duplicate speed {v[i]:g} m/s", f" (also on row {line(i - 1)})")
     if np.any(d < 0):
-        row = int(np.nonzero(d < 0)[0][0]) + 3
-        raise ScenarioError(f"row {row}: speeds must increase (sorted ascending){where}", key=key,
-                            value=Path(source).name)
+        i = int(np.nonzero(d < 0)[0][0]) + 1
+        raise fail(f"row {line(i)}: speeds must increase (sorted ascending)",
+                   f"; {v[i]:g} m/s follows {v[i - 1]:g} m/s")
     if np.any(p < 0):
-        row = int(np.nonzero(p < 0)[0][0]) + 2
-        raise ScenarioError(f"row {row}: power must be >= 0{where}", key=key, value=Path(source).name)
+        i = int(np.nonzero(p < 0)[0][0])
+        raise fail(f"row {line(i)}: power must be >= 0", f" (power_kw = {p[i]:g})")
     peak = float(p.max())
     if peak > 0 and abs(peak * 1000.0 - rated_power_kw) <= 0.1 * rated_power_kw:
-        raise ScenarioError(f"peak power {peak:g} looks like MW; the column power_kw must be in kW "
-                            f"(turbine.rated_power_kw = {rated_power_kw:g}){where}", key=key, value=Path(source).name)
+        raise fail(f"peak power {peak:g} looks like MW; the column power_kw must be in kW "
+                   f"(turbine.rated_power_kw = {rated_power_kw:g})")
+    if peak > 0 and abs(peak / 1000.0 - rated_power_kw) <= 0.1 * rated_power_kw:
+        raise fail(f"peak power {peak:g} looks like W; the column power_kw must be in kW "
+                   f"(turbine.rated_power_kw = {rated_power_kw:g})")
     if abs(peak - rated_power_kw) > rated_tolerance * rated_power_kw:
-        raise ScenarioError(f"peak power {peak:g} kW differs from turbine.rated_power_kw = {rated_power_kw:g} "
-                            f"by more than {rated_tolerance:.0%}{where}", key=key, value=Path(source).name)
+        off = (peak - rated_power_kw) / rated_power_kw
+        raise fail(f"peak power {peak:g} kW differs from turbine.rated_power_kw = {rated_power_kw:g} "
+                   f"by more than {rated_tolerance:.0%}", f" ({off:+.1%})")
     return PowerCurve("table", float(rated_power_kw), float(rotor_diameter_m), speed_mps=v, power_kw=p,
                       reference_density_kgm3=float(reference_density_kgm3), regulation=regulation)
 
 
 def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, reference_density_kgm3=1.225,
                    regulation="pitch", key="turbine.power_curve") -> PowerCurve:
-    """Read ``speed_mps, power_kw`` from a CSV file and validate it as a table curve."""
+    """Read ``speed_mps, power_kw`` from a CSV file and validate it as a table curve.
+
+    Errors begin with the file and give the line number of the bad row.
+    """
     path = Path(path)
     name = path.name
+    shown = str(path)
+
+    def fail(msg):
+        return ScenarioError(msg, key=key, value=name, file=shown)
+
     try:
-        with path.open(newline="", encoding="utf-8") as fh:
+        # utf-8-sig: a byte-order mark, as some spreadsheets write, is not part of the header
+        with path.open(newline="", encoding="utf-8-sig") as fh:
             rows = list(csv.reader(fh))
     except FileNotFoundError:
-        raise ScenarioError(f"file not found: {path}", key=key, value=name) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ScenarioError(f"cannot be read ({type(exc).__name__}): {path}", key=key, value=name) from None
-    rows = [r for r in rows if r and any(c.strip() for c in r)]
-    if not rows:
-        raise ScenarioError(f"is empty: {path}", key=key, value=name)
-    header = [c.strip() for c in rows[0]]
+        raise fail("file not found") from None
+    except IsADirectoryError:
+        raise fail("is a folder, not a CSV file") from None
+    except UnicodeDecodeError:
+        raise fail("cannot be read (UnicodeDecodeError): not UTF-8 text") from None
+    except csv.Error as exc:
+        raise fail(f"cannot be read as CSV ({exc})") from None
+    except OSError as exc:
+        raise fail(f"cannot be read ({type(exc).__name__}: {exc.strerror})") from None
+    numbered = [(i, r) for i, r in enumerate(rows, start=1) if r and any(c.strip() for c in r)]
+    if not numbered:
+        raise fail("is empty; expected the header 'speed_mps,power_kw' and one row per speed")
+    header = [c.strip() for c in numbered[0][1]]
     if header[:2] != ["speed_mps", "power_kw"]:
-        raise ScenarioError(f"header must be 'speed_mps,power_kw', found {','.join(header)!r}: {path}",
-                            key=key, value=name)
-    speeds, powers = [], []
-    for i, r in enumerate(rows[1:], start=2):
+        hint = ""
+        if header[:1] == ["speed_mps"] and len(header) > 1 and header[1].lower() in ("power_mw", "power"):
+            hint = " (power in kW, named power_kw)"
+        elif len(header) == 1 and (";" in header[0] or "\t" in header[0]):
+            hint = " (columns separated by commas)"
+        raise fail(f"header must be 'speed_mps,power_kw'{hint}, found {','.join(header)!r}")
+    speeds, powers, lines = [], [], []
+    for i, r in numbered[1:]:
         if len(r) < 2:
-            raise ScenarioError(f"row {i} has {len(r)} column(s), expected 2: {path}", key=key, value=name)
+            raise fail(f"row {i} has {len(r)} column(s), expected 2")
         try:
             speeds.append(float(r[0]))
             powers.append(float(r[1]))
         except ValueError:
-            raise ScenarioError(f"row {i} is not numeric ({','.join(r)!r}): {path}", key=key, value=name) from None
+            raise fail(f"row {i} is not numeric ({','.join(r)!r})") from None
+        lines.append(i)
     return table_curve(speeds, powers, rated_power_kw, rotor_diameter_m, reference_density_kgm3=reference_density_kgm3,
-                       regulation=regulation, source=str(path), key=key)
+                       regulation=regulation, source=shown, key=key, file=shown, rows=lines)
