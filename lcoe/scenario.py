@@ -257,7 +257,7 @@ class MonteCarlo(_Model):
     seed: Annotated[int, Field(ge=0)] = 0
     sampling: Literal["random", "latin_hypercube"] = "random"
     failures: Literal["sampled", "expected"] = "sampled"
-    chunk_size: Annotated[int, Field(ge=1000, le=1_000_000)] = 32_768
+    chunk_size: Annotated[int, Field(ge=1000, le=1_000_000)] = 8192
     vary: dict[str, Vary] = {}
     correlation: list[Correlation] = []
 
@@ -282,6 +282,7 @@ class Scenario(_Model):
     _base_dir: Path = PrivateAttr(default=Path("."))
     _source: str = PrivateAttr(default="<scenario>")
     _raw: dict = PrivateAttr(default_factory=dict)
+    _site_key_memo: str | None = PrivateAttr(default=None)
 
     @property
     def base_dir(self) -> Path:
