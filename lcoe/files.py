@@ -12,6 +12,12 @@ from typing import Callable
 from lcoe.errors import ScenarioError
 
 
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
 def write_atomic(path: str | Path, write: Callable[[Path], None], *, option: str = "output") -> Path:
     """Call ``write(tmp_path)`` then move the file into place; on any failure nothing is left.
 
@@ -29,6 +35,7 @@ def write_atomic(path: str | Path, write: Callable[[Path], None], *, option: str
     tmp_path = Path(tmp)
     try:
         write(tmp_path)
+        os.chmod(tmp_path, 0o666 & ~_umask())   # mkstemp makes owner-only files; use the usual mode
         os.replace(tmp_path, path)
     except OSError as exc:
         tmp_path.unlink(missing_ok=True)

@@ -41,9 +41,10 @@ def irr(values, *, guess=0.1, tol=1e-9, max_iter=50):
     Solves sum c_t x^t = 0 for the discount factor x = 1 / (1 + r) with Newton's
     method, the polynomial and its derivative evaluated by Horner's rule. A row stops
     once its Newton step is below ``tol`` (relative): convergence is quadratic, so the
-    step just taken leaves an error of the order of tol^2. Rows where
-    Newton does not converge fall back to bisection on r in [-99 %, 1000 %]. Rows
-    with no sign change, or no root in that range, give NaN.
+    step just taken leaves an error of the order of tol^2. A converged root counts
+    wherever it lies (r > -100 %). Rows where Newton does not converge fall back to
+    bisection on r in [-99 %, 1000 %]; rows with no sign change, or with no root found
+    either way, give NaN.
 
     Returns
     -------
