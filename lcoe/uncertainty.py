@@ -22,6 +22,7 @@ import math
 import os
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 from scipy import stats
@@ -295,6 +296,13 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
     return inputs, Sample(speed_factor=speed, energy_factor=energy, downtime=downtime, failure_cost=cost)
 
 
+@lru_cache(maxsize=256)
+def _poisson_cdf32(lam: float, kmax: int) -> np.ndarray:
+    cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), lam)).astype(np.float32)
+    cdf.flags.writeable = False
+    return cdf
+
+
 def poisson(rng: np.random.Generator, lam) -> np.ndarray:
     """Poisson counts with means ``lam``; a single mean is sampled by inverting its CDF
     (one uniform per count, far quicker than the general sampler when counts are small)."""
@@ -302,7 +310,7 @@ def poisson(rng: np.random.Generator, lam) -> np.ndarray:
     first = float(lam.flat[0]) if lam.size else 0.0
     if lam.size and np.all(lam == first) and first <= 10.0:
         kmax = int(first + 12.0 * math.sqrt(first) + 20)
-        cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), first)).astype(np.float32)
+        cdf = _poisson_cdf32(first, kmax)
         u = rng.random(lam.shape, dtype=np.float32)
         # count = number of CDF steps below u; steps at 1.0 (float32) can never be passed
         counts = np.zeros(lam.shape, np.uint8 if kmax < 255 else np.int32)
