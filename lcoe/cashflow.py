@@ -7,7 +7,6 @@ nominal; costs are positive amounts, cash flows are signed (outflows negative).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -392,7 +391,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     tax_u = tax_with_carryforward(pre_tax - dep, tax_rate)
     capex_row = capex.ravel()
     project_line = _line(inp.n, L, -capex_row)
-    project_ops = np.subtract(pre_tax, tax_u, out=project_line[:, 1:])
+    np.subtract(pre_tax, tax_u, out=project_line[:, 1:])
 
     # ---- debt
     debt_terms = f.debt

@@ -22,7 +22,6 @@ import math
 from typing import Any
 
 import numpy as np
-from scipy import stats
 from scipy.optimize import brentq
 
 from lcoe import energy as en
@@ -31,6 +30,7 @@ from lcoe import scenario as sc
 from lcoe.cashflow import SPEED_KEYS
 from lcoe.errors import ScenarioError
 from lcoe.resource import Z_90
+from lcoe.uncertainty import quantile
 
 METRIC_KEYS = model.METRIC_KEYS
 BREAKEVEN = "breakeven_ppa_price_per_mwh"
@@ -235,30 +235,12 @@ def input_p10_p90(spec, base: float, key: str = "") -> tuple[float, float]:
     high), the mode clipped into low..high; uniform(low, high). ``mean`` and
     ``mode`` default to the scenario's value ``base``.
     """
-    d = spec.distribution
-    q = np.array([0.1, 0.9])
-    if d == "normal":
-        mean = base if spec.mean is None else spec.mean
-        p = stats.norm(loc=mean, scale=spec.sd).ppf(q) if spec.sd > 0 else np.array([mean, mean])
-    elif d == "lognormal":
+    if spec.distribution == "lognormal":
         mean = base if spec.mean is None else spec.mean
         if mean <= 0:
             raise ScenarioError("a lognormal input needs a mean > 0 (the scenario value is used when mean is "
                                 "omitted)", key=f"montecarlo.vary.{key}.mean", value=mean)
-        if spec.sd > 0:
-            s2 = math.log1p((spec.sd / mean) ** 2)
-            p = stats.lognorm(s=math.sqrt(s2), scale=math.exp(math.log(mean) - s2 / 2.0)).ppf(q)
-        else:
-            p = np.array([mean, mean])
-    elif spec.high <= spec.low:
-        p = np.array([spec.low, spec.low])
-    elif d == "uniform":
-        p = stats.uniform(loc=spec.low, scale=spec.high - spec.low).ppf(q)
-    else:
-        mode = base if spec.mode is None else spec.mode
-        mode = min(max(mode, spec.low), spec.high)
-        p = stats.triang(c=(mode - spec.low) / (spec.high - spec.low), loc=spec.low,
-                         scale=spec.high - spec.low).ppf(q)
+    p = quantile(spec, base, np.array([0.1, 0.9]))
     return float(p[0]), float(p[1])
 
 

@@ -46,48 +46,6 @@ SAMPLED_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "pro
 
 # --------------------------------------------------------------------------- input distributions
 
-def marginal(spec, base: float):
-    """The scipy.stats frozen distribution of one ``[montecarlo.vary.KEY]`` entry.
-
-    normal(mean, sd); lognormal with the variable's own mean and sd
-    (sigma^2 = ln(1 + sd^2 / mean^2), mu = ln(mean) - sigma^2 / 2); triangular(low,
-    mode, high); uniform(low, high). ``mean`` and ``mode`` default to the scenario's
-    value of the key.
-    """
-    d = spec.distribution
-    if d == "normal":
-        mean = base if spec.mean is None else spec.mean
-        return stats.norm(loc=mean, scale=max(spec.sd, 0.0)) if spec.sd > 0 else _Point(mean)
-    if d == "lognormal":
-        mean = base if spec.mean is None else spec.mean
-        if mean <= 0:
-            raise ScenarioError("a lognormal input needs a mean > 0", key="montecarlo.vary", value=mean)
-        if spec.sd == 0:
-            return _Point(mean)
-        s2 = math.log(1.0 + (spec.sd / mean) ** 2)
-        return stats.lognorm(s=math.sqrt(s2), scale=math.exp(math.log(mean) - s2 / 2.0))
-    if d == "uniform":
-        return stats.uniform(loc=spec.low, scale=spec.high - spec.low) if spec.high > spec.low else _Point(spec.low)
-    mode = base if spec.mode is None else spec.mode
-    if spec.high <= spec.low:
-        return _Point(spec.low)
-    mode = min(max(mode, spec.low), spec.high)
-    return stats.triang(c=(mode - spec.low) / (spec.high - spec.low), loc=spec.low, scale=spec.high - spec.low)
-
-
-class _Point:
-    """A distribution with no spread."""
-
-    def __init__(self, value):
-        self.value = float(value)
-
-    def ppf(self, q):
-        return np.full(np.shape(q), self.value)
-
-    def mean(self):
-        return self.value
-
-
 def correlation_matrix(scn) -> np.ndarray:
     """Correlation of the Gaussian copula that gives the requested rank correlations.
 
@@ -158,19 +116,26 @@ def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
         # independently (McKay, Beckman and Conover 1979)
         u = (np.argsort(rng.random((m, n)), axis=1).T + rng.random((n, m))) / n
         if not scn.montecarlo.correlation:
-            return {key: _ppf(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
+            return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
         z = ndtri(np.clip(u, 1e-16, 1 - 1e-16))
     else:
         z = rng.standard_normal((n, m))
     if scn.montecarlo.correlation:
         z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
     u = ndtr(z)
-    return {key: _ppf(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
+    return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
 
 
-def _ppf(spec, base: float, u: np.ndarray) -> np.ndarray:
-    """Inverse CDF of one input's distribution at probabilities ``u`` (closed forms of
-    the distributions of :func:`marginal`)."""
+def quantile(spec, base: float, u) -> np.ndarray:
+    """Inverse CDF of one ``[montecarlo.vary.KEY]`` distribution at probabilities ``u``.
+
+    normal(mean, sd); lognormal with the variable's own mean and sd
+    (sigma^2 = ln(1 + sd^2 / mean^2), mu = ln(mean) - sigma^2 / 2); triangular(low,
+    mode, high), the mode clipped into low..high; uniform(low, high). ``mean`` and
+    ``mode`` default to the scenario's value ``base``. Closed forms of the
+    scipy.stats norm, lognorm, triang and uniform quantiles.
+    """
+    u = np.asarray(u, float)
     d = spec.distribution
     if d == "normal":
         mean = base if spec.mean is None else spec.mean
