@@ -48,7 +48,7 @@ def _carry_forward(taxable: float, pool: float, rate: float) -> tuple[float, flo
 
 def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cost) -> dict:
     """One Monte Carlo trial the straightforward way: a Python loop over the years, then
-    numpy-financial's ``npv`` and ``irr``. ``over`` holds this trial's drawn inputs;
+    numpy-financial's ``npv`` and ``irr`` and every other metric the engine gives. ``over`` holds this trial's drawn inputs;
     ``speed``, ``downtime`` and ``fail_cost`` are its yearly draws (or None), ``efac`` its
     energy factor (or None). The debt schedule is the one fixed at close."""
     import numpy_financial as npf
@@ -79,7 +79,8 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     tax_rate = get("finance.tax_rate", f.tax_rate)
     sched = case.schedule
     gross = site.gross_aep_mwh
-    energy, costs, project, equity = [0.0], [0.0], [-capex], [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
+    energy, costs, project, cfads = [0.0], [0.0], [-capex], [0.0]
+    equity = [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
     pool_u = pool_l = 0.0
     for t in range(1, L + 1):
         avail = first if t <= 1 else mature
@@ -118,14 +119,38 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         energy.append(e)
         costs.append(om + decom)
         project.append(pre_tax - tax_u)
+        cfads.append(pre_tax - tax_l)
         equity.append(pre_tax - tax_l - float(sched.debt_service[0, t - 1]))
     rate = get("finance.discount_rate", f.discount_rate)
+    real = (1 + rate) / (1 + get("finance.inflation", f.inflation)) - 1
     disc = [(1 + rate) ** -t for t in range(L + 1)]
+    pv_costs = capex + sum(x * d for x, d in zip(costs, disc))
     pv_energy = sum(x * d for x, d in zip(energy, disc))
-    lcoe = (capex + sum(x * d for x, d in zip(costs, disc))) / pv_energy if pv_energy > 0 else float("nan")
+    pv_energy_real = sum(x * (1 + real) ** -t for t, x in enumerate(energy))
+    nan = float("nan")
     eq_rate = get("finance.equity_target_return", scn.equity_target_return)
-    return {"project_npv": npf.npv(rate, project), "project_irr": npf.irr(project),
-            "equity_npv": npf.npv(eq_rate, equity), "equity_irr": npf.irr(equity), "lcoe_nominal_per_mwh": lcoe}
+    out = {"project_npv": npf.npv(rate, project), "project_irr": npf.irr(project),
+           "equity_npv": npf.npv(eq_rate, equity), "equity_irr": npf.irr(equity),
+           "lcoe_nominal_per_mwh": pv_costs / pv_energy if pv_energy > 0 else nan,
+           "lcoe_real_per_mwh": pv_costs / pv_energy_real if pv_energy_real > 0 else nan}
+    cum, payback = 0.0, nan
+    for t, x in enumerate(equity):
+        cum += x
+        if cum >= 0:
+            payback = float(t)
+            break
+    out["payback_year"] = payback
+    debt = float(sched.debt[0, 0])
+    if f.debt is not None and debt > 0:
+        i_rate = get("finance.debt.interest_rate", f.debt.interest_rate)
+        dscr, pv = [], 0.0
+        for t in range(1, L + 1):
+            ds = float(sched.debt_service[0, t - 1])
+            if ds > 0:
+                dscr.append(cfads[t] / ds)
+                pv += cfads[t] * (1 + i_rate) ** -t
+        out.update(min_dscr=min(dscr), avg_dscr=sum(dscr) / len(dscr), llcr=pv / debt)
+    return out
 
 
 def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
