@@ -175,7 +175,8 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 200, repeat: 
 
     scn = scenario.load(path)
     case = model.run(scn)                      # warms the site cache (gross AEP table)
-    uncertainty.monte_carlo(scn, case, trials=min(trials, 2000))   # warm-up (imports, caches)
+    # warm-up, not timed: imports, compiled kernels, caches and the memory the run will reuse
+    uncertainty.monte_carlo(scn, case, trials=min(trials, 100_000))
 
     runs = []
     for _ in range(max(1, repeat)):

@@ -28,6 +28,11 @@ MACRS = {
 
 SPEED_KEYS = ("wind.mean_speed_mps", "wind.weibull_scale_mps")
 
+try:  # compiled row loops for large batches; the array formulas below do the same without them
+    from lcoe import kernels as _kernels
+except ImportError:  # pragma: no cover - numba is a declared dependency
+    _kernels = None
+
 
 def depreciation_shares(method: str, years: int, lifetime: int) -> np.ndarray:
     """Share of the depreciable base written off in each operating year t = 1..L.
@@ -67,6 +72,10 @@ def tax_with_carryforward(taxable, rate):
     taxable = np.asarray(taxable, float)
     if taxable.size == 0 or taxable.min() >= 0:   # no loss anywhere: tax is simply rate * income
         return rate * taxable
+    if _kernels is not None and taxable.ndim == 2:
+        rows = np.ascontiguousarray(np.broadcast_to(np.asarray(rate, float).reshape(-1, 1),
+                                                    (taxable.shape[0], 1))[:, 0])
+        return _kernels.carry_rows(np.ascontiguousarray(taxable), rows, np.empty_like(taxable))
     if taxable.ndim < 2:
         return _carry(taxable, rate)
     # rows without a loss keep the plain product, so a row's tax never depends on its batch

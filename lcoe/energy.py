@@ -13,6 +13,11 @@ from lcoe.errors import ScenarioError
 from lcoe.resource import Z_90, Z_99
 from lcoe.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
 
+try:  # compiled table interpolation for large batches (lcoe.kernels)
+    from lcoe import kernels as _kernels
+except ImportError:  # pragma: no cover - numba is a declared dependency
+    _kernels = None
+
 HOURS_PER_YEAR = 8760.0
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(10)
 # speed-factor grid of the tabulated AEP(scale factor); 1.0 is a node, so the base case is exact
@@ -119,6 +124,9 @@ class Site:
 def _interp_uniform(x, xp, fp):
     """np.interp for an evenly spaced grid ``xp``: the cell index is computed, not searched."""
     n = xp.size
+    if _kernels is not None and np.ndim(x):
+        xc = np.ascontiguousarray(x, dtype=float)
+        return _kernels.interp_uniform(xc, float(xp[0]), float((xp[-1] - xp[0]) / (n - 1)), fp, np.empty_like(xc))
     h = (xp[-1] - xp[0]) / (n - 1)
     pos = np.clip(x, xp[0], xp[-1])
     pos -= xp[0]

@@ -10,6 +10,11 @@ import numpy as np
 
 IRR_LOW, IRR_HIGH = -0.99, 10.0
 
+try:  # the same Newton/bisection as below, compiled one row at a time (lcoe.kernels)
+    from lcoe import kernels as _kernels
+except ImportError:  # pragma: no cover - numba is a declared dependency
+    _kernels = None
+
 
 def discount_factors(rate, periods: int):
     """(1 + r)^-t for t = 0..periods-1; ``rate`` may be an (n, 1) array. [-]"""
@@ -52,6 +57,12 @@ def irr(values, *, guess=0.1, tol=1e-9, max_iter=50):
     """
     c = np.atleast_2d(np.asarray(values, float))
     n = c.shape[0]
+    if _kernels is not None:
+        out, status = _kernels.irr_rows(np.ascontiguousarray(c), float(guess), float(tol), int(max_iter),
+                                        1.0 / (1.0 + IRR_HIGH), 1.0 / (1.0 + IRR_LOW))
+        reasons = [(int(i), "no sign change in the cash flows") for i in np.nonzero(status == 1)[0]]
+        reasons += [(int(i), f"no IRR between {IRR_LOW:.0%} and {IRR_HIGH:.0%}") for i in np.nonzero(status == 2)[0]]
+        return out, sorted(reasons)
     out = np.full(n, np.nan)
     reasons: list[tuple[int, str]] = []
     has_pos = (c > 0).any(axis=1)
@@ -168,3 +179,17 @@ def payback_year(cash_flow):
     nonneg = cum >= 0
     first = np.argmax(nonneg, axis=-1).astype(float)
     return np.where(nonneg.any(axis=-1), first, np.nan)
+
+
+def coverage(dscr, cfads, debt_service, debt, rate, equity_cash_flow):
+    """(min DSCR, average DSCR, LLCR, payback year) per row, as :func:`dscr_stats`,
+    :func:`llcr` and :func:`payback_year` define them (one compiled pass where available)."""
+    n = np.shape(cfads)[0]
+    if _kernels is not None:
+        rows = np.ascontiguousarray(np.broadcast_to(np.asarray(rate, float).reshape(-1, 1), (n, 1))[:, 0])
+        debt_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(debt, float).reshape(-1, 1), (n, 1))[:, 0])
+        return _kernels.coverage_rows(np.ascontiguousarray(dscr, dtype=float), np.ascontiguousarray(cfads, dtype=float),
+                                      np.ascontiguousarray(debt_service, dtype=float), debt_rows, rows,
+                                      np.ascontiguousarray(equity_cash_flow, dtype=float))
+    mn, avg = dscr_stats(dscr)
+    return mn, avg, llcr(cfads, debt_service, debt, rate), payback_year(equity_cash_flow)

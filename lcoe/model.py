@@ -53,10 +53,9 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
             first = reasons[0][1]
             warnings.append(f"{what}: none in {len(reasons)} of {len(rates)} row(s) ({first})"
                             if len(rates) > 1 else f"{what} is null: {first}")
-    out["min_dscr"], out["avg_dscr"] = mt.dscr_stats(flows.dscr)
     rate_i = inp("finance.debt.interest_rate", f.debt.interest_rate) if f.debt is not None else 0.0
-    out["llcr"] = mt.llcr(flows.cfads, flows.debt_service, flows.debt, rate_i)
-    out["payback_year"] = mt.payback_year(flows.equity_cash_flow)
+    out["min_dscr"], out["avg_dscr"], out["llcr"], out["payback_year"] = mt.coverage(
+        flows.dscr, flows.cfads, flows.debt_service, flows.debt, rate_i, flows.equity_cash_flow)
     if np.any(~np.isfinite(out["lcoe_nominal_per_mwh"])):
         warnings.append("LCOE is null: the discounted energy is zero")
     if f.debt is None:

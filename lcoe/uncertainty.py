@@ -33,6 +33,11 @@ from lcoe.cashflow import Sample
 from lcoe.errors import ScenarioError
 from lcoe.scenario import numeric_value
 
+try:  # compiled failure counting (lcoe.kernels); poisson() below draws the same numbers without it
+    from lcoe import kernels as _kernels
+except ImportError:  # pragma: no cover - numba is a declared dependency
+    _kernels = None
+
 BLOCK = 8192  # trials per random-number block
 HIST_BINS = 40
 
@@ -114,7 +119,8 @@ def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
     if scn.montecarlo.sampling == "latin_hypercube":
         # one point in each of n equal-probability strata per input, strata shuffled
         # independently (McKay, Beckman and Conover 1979)
-        u = (np.argsort(rng.random((m, n)), axis=1).T + rng.random((n, m))) / n
+        strata = rng.permuted(np.broadcast_to(np.arange(n, dtype=float), (m, n)), axis=1)
+        u = (strata.T + rng.random((n, m))) / n
         if not scn.montecarlo.correlation:
             return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
         z = ndtri(np.clip(u, 1e-16, 1 - 1e-16))
@@ -252,9 +258,18 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
             rate = inputs.get(key + "failure_rate_per_turbine_year", c.failure_rate_per_turbine_year)
             lam = np.broadcast_to(np.maximum(np.asarray(rate, float).reshape(-1, 1), 0.0) * turbines,
                                   (n, lifetime))
-            counts = poisson(rng, lam)
             repl = np.asarray(inputs.get(key + "replacement_cost", c.replacement_cost), float).reshape(-1, 1)
             days = np.asarray(inputs.get(key + "downtime_days", c.downtime_days), float).reshape(-1, 1)
+            first = float(lam.flat[0]) if lam.size else 0.0
+            if _kernels is not None and lam.size and first <= 10.0 and np.all(lam == first):
+                # the same draws as poisson(), counted and costed in one compiled pass
+                cdf = _poisson_cdf32(first, int(first + 12.0 * math.sqrt(first) + 20))
+                u_fail = rng.random((n, lifetime), dtype=np.float32)
+                _kernels.add_failures(u_fail, cdf, np.ascontiguousarray(np.broadcast_to(repl, (n, 1))[:, 0]),
+                                      np.ascontiguousarray(np.broadcast_to(days, (n, 1))[:, 0]), float(turbines),
+                                      cost, downtime)
+                continue
+            counts = poisson(rng, lam)
             cost += counts * repl
             downtime += counts * days / (365.0 * turbines)
         np.minimum(downtime, 1.0, out=downtime)

@@ -1,0 +1,84 @@
+"""The compiled row loops (lcoe.kernels) against the array formulas they replace and
+against numpy-financial; both paths must give the same answers."""
+
+from __future__ import annotations
+
+import numpy as np
+import numpy_financial as npf
+import pytest
+
+from lcoe import cashflow, energy, kernels, metrics as mt
+
+
+@pytest.fixture
+def flows():
+    rng = np.random.default_rng(12)
+    n, years = 400, 26
+    c = rng.normal(8.0, 3.0, (n, years))
+    c[:, 0] = -rng.uniform(60, 120, n)
+    c[:5] = np.abs(c[:5])           # no sign change
+    c[5, :] = 0.0
+    return c
+
+
+def test_irr_kernel_equals_the_array_iteration_and_numpy_financial(flows, monkeypatch):
+    fast, why_fast = mt.irr(flows)
+    monkeypatch.setattr(mt, "_kernels", None)
+    slow, why_slow = mt.irr(flows)
+    np.testing.assert_allclose(fast, slow, rtol=0, atol=1e-12, equal_nan=True)
+    assert why_fast == why_slow and why_fast[0] == (0, "no sign change in the cash flows")
+    ok = np.isfinite(fast)
+    # numpy_financial.irr as the outside reference, row by row
+    ref = np.array([npf.irr(row) for row in flows[ok][:60]])
+    np.testing.assert_allclose(fast[ok][:60], ref, atol=1e-9)
+
+
+def test_tax_kernel_equals_the_running_maximum_formula(monkeypatch):
+    rng = np.random.default_rng(3)
+    taxable = rng.normal(1.0, 2.0, (300, 25))
+    rate = rng.uniform(0.1, 0.4, (300, 1))
+    fast = cashflow.tax_with_carryforward(taxable, rate)
+    monkeypatch.setattr(cashflow, "_kernels", None)
+    slow = cashflow.tax_with_carryforward(taxable, rate)
+    np.testing.assert_allclose(fast, slow, rtol=1e-12, atol=1e-12)
+    assert (fast >= 0).all()
+
+
+def test_interpolation_kernel_equals_numpy_interp():
+    xp = np.round(np.arange(0.1, 2.5 + 1e-9, 0.0025), 6)
+    fp = np.sin(xp) + xp ** 2
+    x = np.random.default_rng(1).uniform(0.0, 3.0, (50, 25))
+    got = energy._interp_uniform(x, xp, fp)
+    np.testing.assert_allclose(got, np.interp(x, xp, fp), rtol=1e-12, atol=1e-12)
+
+
+def test_coverage_kernel_equals_the_array_formulas(monkeypatch):
+    rng = np.random.default_rng(9)
+    n, cols = 200, 21
+    cfads = rng.normal(10, 2, (n, cols))
+    cfads[:, 0] = 0.0
+    ds = np.zeros((1, cols))
+    ds[0, 1:16] = 7.0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dscr = np.where(ds > 0, cfads / np.where(ds > 0, ds, 1.0), np.nan)
+    debt = np.full((n, 1), 60.0)
+    equity = cfads - ds
+    equity[:, 0] = -40.0
+    fast = mt.coverage(dscr, cfads, ds, debt, 0.05, equity)
+    monkeypatch.setattr(mt, "_kernels", None)
+    slow = mt.coverage(dscr, cfads, ds, debt, 0.05, equity)
+    for a, b in zip(fast, slow):
+        np.testing.assert_allclose(a, b, rtol=1e-12, equal_nan=True)
+
+
+def test_failure_kernel_counts_like_the_plain_inversion():
+    rng = np.random.default_rng(5)
+    u = rng.random((1000, 20), dtype=np.float32)
+    from lcoe.uncertainty import _poisson_cdf32
+    cdf = _poisson_cdf32(0.4, 30)
+    cost = np.zeros((1000, 20))
+    down = np.zeros((1000, 20))
+    kernels.add_failures(u, cdf, np.full(1000, 2.0), np.full(1000, 36.5), 10.0, cost, down)
+    counts = sum((u > c).astype(int) for c in cdf if c < 1.0)
+    np.testing.assert_array_equal(cost, 2.0 * counts)
+    np.testing.assert_allclose(down, counts * 36.5 / 3650.0)
