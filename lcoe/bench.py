@@ -169,7 +169,7 @@ def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
     return {k: np.asarray(v, float) for k, v in out.items()}
 
 
-def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 200, repeat: int = 3) -> dict:
+def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: int = 5) -> dict:
     """Time the engine; ``engine_s`` is the median of ``repeat`` Monte Carlo runs."""
     from lcoe import energy as en, model, scenario, uncertainty
 
@@ -251,7 +251,7 @@ def register(sub) -> None:
     b = sub.add_parser("bench", help="time the engine on the demo scenario (Monte Carlo, loop, deterministic)")
     b.add_argument("file", nargs="?", default=None, help="scenario (default: the demo)")
     b.add_argument("--trials", type=_nonneg_int, default=100_000)
-    b.add_argument("--loop-sample", type=_nonneg_int, default=200, help="trials timed in the per-trial loop")
-    b.add_argument("--repeat", type=_nonneg_int, default=3, help="Monte Carlo runs timed (the median is reported)")
+    b.add_argument("--loop-sample", type=_nonneg_int, default=500, help="trials timed in the per-trial loop")
+    b.add_argument("--repeat", type=_nonneg_int, default=5, help="Monte Carlo runs timed (the median is reported)")
     b.add_argument("--json", action="store_true")
     b.set_defaults(func=cmd_bench)
