@@ -128,8 +128,25 @@ def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
         z = rng.standard_normal((n, m))
     if scn.montecarlo.correlation:
         z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
-    u = ndtr(z)
-    return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
+    out = {}
+    for j, key in enumerate(keys):
+        spec, base = vary[key], numeric_value(scn, key)
+        if spec.distribution in ("normal", "lognormal"):
+            out[key] = _from_normal(spec, base, z[:, j])    # quantile(ndtr(z)) without the round trip
+        else:
+            out[key] = quantile(spec, base, ndtr(z[:, j]))
+    return out
+
+
+def _from_normal(spec, base: float, z: np.ndarray) -> np.ndarray:
+    """A normal or lognormal input from standard normal draws ``z`` (see :func:`quantile`)."""
+    mean = base if spec.mean is None else spec.mean
+    if spec.distribution == "normal":
+        return mean + spec.sd * z
+    if mean <= 0:
+        raise ScenarioError("a lognormal input needs a mean > 0", key="montecarlo.vary", value=mean)
+    s2 = math.log(1.0 + (spec.sd / mean) ** 2)
+    return np.exp(math.log(mean) - s2 / 2.0 + math.sqrt(s2) * z)
 
 
 def quantile(spec, base: float, u) -> np.ndarray:
@@ -253,6 +270,7 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
         turbines = scn.project.turbines
         cost = np.zeros((n, lifetime))
         downtime = np.zeros((n, lifetime))
+        fast = []   # components counted together in one compiled pass (same draws as poisson())
         for c in comps:
             key = f"maintenance.component.{c.name}."
             rate = inputs.get(key + "failure_rate_per_turbine_year", c.failure_rate_per_turbine_year)
@@ -262,16 +280,20 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
             days = np.asarray(inputs.get(key + "downtime_days", c.downtime_days), float).reshape(-1, 1)
             first = float(lam.flat[0]) if lam.size else 0.0
             if _kernels is not None and lam.size and first <= 10.0 and np.all(lam == first):
-                # the same draws as poisson(), counted and costed in one compiled pass
                 cdf = _poisson_cdf32(first, int(first + 12.0 * math.sqrt(first) + 20))
-                u_fail = rng.random((n, lifetime), dtype=np.float32)
-                _kernels.add_failures(u_fail, cdf, np.ascontiguousarray(np.broadcast_to(repl, (n, 1))[:, 0]),
-                                      np.ascontiguousarray(np.broadcast_to(days, (n, 1))[:, 0]), float(turbines),
-                                      cost, downtime)
+                fast.append((rng.random((n, lifetime), dtype=np.float32), cdf,
+                             np.broadcast_to(repl, (n, 1))[:, 0], np.broadcast_to(days, (n, 1))[:, 0]))
                 continue
             counts = poisson(rng, lam)
             cost += counts * repl
             downtime += counts * days / (365.0 * turbines)
+        if fast:
+            steps = max(f[1].size for f in fast)
+            cdfs = np.ones((len(fast), steps), np.float32)
+            for j, f in enumerate(fast):
+                cdfs[j, :f[1].size] = f[1]
+            _kernels.add_failures_many(np.stack([f[0] for f in fast]), cdfs, np.stack([f[2] for f in fast]),
+                                       np.stack([f[3] for f in fast]), float(turbines), cost, downtime)
         np.minimum(downtime, 1.0, out=downtime)
     return inputs, Sample(speed_factor=speed, energy_factor=energy, downtime=downtime, failure_cost=cost)
 
