@@ -59,7 +59,7 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
     if np.any(~np.isfinite(out["lcoe_nominal_per_mwh"])):
         warnings.append("LCOE is null: the discounted energy is zero")
     if f.debt is None:
-        pass
+        warnings.append("DSCR and LLCR are null: the scenario has no [finance.debt] table (all equity)")
     elif np.all(flows.debt <= 0):
         warnings.append("DSCR and LLCR are null: there is no debt")
     return out, warnings
