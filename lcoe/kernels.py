@@ -201,22 +201,30 @@ def coverage_rows(dscr, cfads, debt_service, debt, rate, equity):
 
 @njit(cache=True, nogil=True)
 def add_failures_many(u, cdf, cost_per_event, days_per_event, turbines, cost, downtime):
-    """:func:`add_failures` for several components at once (one pass over the years):
-    ``u`` (components, rows, years), ``cdf`` (components, steps) padded with 1.0,
-    ``cost_per_event`` and ``days_per_event`` (components, rows)."""
-    comps, n, years = u.shape
+    """:func:`add_failures` for several components at once: ``u`` a tuple of (rows, years)
+    uniforms, one per component; ``cdf`` (components, steps) padded with 1.0;
+    ``cost_per_event`` and ``days_per_event`` (components, rows). Each row's years are
+    summed over the components before they are added, so memory is read and written once."""
+    comps = len(u)
+    n, years = cost.shape
     m = cdf.shape[1]
+    add_cost = np.zeros(years)
+    add_down = np.zeros(years)
     for i in range(n):
-        for t in range(years):
-            add_cost = 0.0
-            add_down = 0.0
-            for j in range(comps):
-                x = u[j, i, t]
+        add_cost[:] = 0.0
+        add_down[:] = 0.0
+        for j in range(comps):
+            uj = u[j]
+            c = cost_per_event[j, i]
+            share = days_per_event[j, i] / (365.0 * turbines)
+            for t in range(years):
+                x = uj[i, t]
                 k = 0
                 while k < m and cdf[j, k] < 1.0 and x > cdf[j, k]:
                     k += 1
                 if k:
-                    add_cost += k * cost_per_event[j, i]
-                    add_down += k * (days_per_event[j, i] / (365.0 * turbines))
-            cost[i, t] += add_cost
-            downtime[i, t] += add_down
+                    add_cost[t] += k * c
+                    add_down[t] += k * share
+        for t in range(years):
+            cost[i, t] += add_cost[t]
+            downtime[i, t] += add_down[t]

@@ -279,7 +279,7 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
             repl = np.asarray(inputs.get(key + "replacement_cost", c.replacement_cost), float).reshape(-1, 1)
             days = np.asarray(inputs.get(key + "downtime_days", c.downtime_days), float).reshape(-1, 1)
             first = float(lam.flat[0]) if lam.size else 0.0
-            if _kernels is not None and lam.size and first <= 10.0 and np.all(lam == first):
+            if _kernels is not None and lam.size and first <= 10.0 and (np.ndim(rate) == 0 or np.all(lam == first)):
                 cdf = _poisson_cdf32(first, int(first + 12.0 * math.sqrt(first) + 20))
                 fast.append((rng.random((n, lifetime), dtype=np.float32), cdf,
                              np.broadcast_to(repl, (n, 1))[:, 0], np.broadcast_to(days, (n, 1))[:, 0]))
@@ -292,7 +292,7 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
             cdfs = np.ones((len(fast), steps), np.float32)
             for j, f in enumerate(fast):
                 cdfs[j, :f[1].size] = f[1]
-            _kernels.add_failures_many(np.stack([f[0] for f in fast]), cdfs, np.stack([f[2] for f in fast]),
+            _kernels.add_failures_many(tuple(f[0] for f in fast), cdfs, np.stack([f[2] for f in fast]),
                                        np.stack([f[3] for f in fast]), float(turbines), cost, downtime)
         np.minimum(downtime, 1.0, out=downtime)
     return inputs, Sample(speed_factor=speed, energy_factor=energy, downtime=downtime, failure_cost=cost)

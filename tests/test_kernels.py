@@ -98,6 +98,6 @@ def test_many_components_at_once_equal_one_at_a_time():
     for j, c in enumerate(cdfs):
         padded[j, :c.size] = c
     many = [np.zeros((500, 20)), np.zeros((500, 20))]
-    kernels.add_failures_many(u, padded, costs, days, 12.0, *many)
+    kernels.add_failures_many(tuple(u), padded, costs, days, 12.0, *many)
     np.testing.assert_allclose(many[0], one[0], rtol=1e-12)
     np.testing.assert_allclose(many[1], one[1], rtol=1e-12)
