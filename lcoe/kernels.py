@@ -117,25 +117,6 @@ def carry_rows(taxable, rate, out):
 
 
 @njit(cache=True, nogil=True)
-def add_failures(u, cdf, cost_per_event, days_per_event, turbines, cost, downtime):
-    """Count failures by inverting a Poisson CDF (one uniform per turbine-fleet year) and add
-    their cost and downtime share: count = number of CDF steps below u."""
-    n, years = u.shape
-    m = cdf.shape[0]
-    for i in range(n):
-        c = cost_per_event[i]
-        share = days_per_event[i] / (365.0 * turbines)
-        for t in range(years):
-            x = u[i, t]
-            k = 0
-            while k < m and cdf[k] < 1.0 and x > cdf[k]:
-                k += 1
-            if k:
-                cost[i, t] += k * c
-                downtime[i, t] += k * share
-
-
-@njit(cache=True, nogil=True)
 def interp_uniform(x, x0, h, fp, out):
     """Linear interpolation in a table on the evenly spaced grid x0 + h k (clipped to it)."""
     last = fp.shape[0] - 1
@@ -201,30 +182,34 @@ def coverage_rows(dscr, cfads, debt_service, debt, rate, equity):
 
 @njit(cache=True, nogil=True)
 def add_failures_many(u, cdf, cost_per_event, days_per_event, turbines, cost, downtime):
-    """:func:`add_failures` for several components at once: ``u`` a tuple of (rows, years)
-    uniforms, one per component; ``cdf`` (components, steps) padded with 1.0;
-    ``cost_per_event`` and ``days_per_event`` (components, rows). Each row's years are
-    summed over the components before they are added, so memory is read and written once."""
-    comps = len(u)
-    n, years = cost.shape
-    m = cdf.shape[1]
+    """Failure counts of several components, by inverting each one's Poisson CDF (one
+    uniform per turbine-fleet year), with their cost and downtime share added to
+    ``cost`` and ``downtime``: ``u`` (components, rows, years) uniforms; ``cdf`` (components, steps) padded with 1.0; ``cost_per_event`` and
+    ``days_per_event`` (components, rows). The count is the number of CDF steps below u,
+    summed step by step without branches; each row's years are summed over the
+    components before they are added, so memory is read and written once."""
+    comps, n, years = u.shape
+    steps = np.zeros(comps, np.int64)
+    for j in range(comps):
+        while steps[j] < cdf.shape[1] and cdf[j, steps[j]] < 1.0:
+            steps[j] += 1
+    counts = np.zeros(years)
     add_cost = np.zeros(years)
     add_down = np.zeros(years)
     for i in range(n):
         add_cost[:] = 0.0
         add_down[:] = 0.0
         for j in range(comps):
-            uj = u[j]
-            c = cost_per_event[j, i]
+            counts[:] = 0.0
+            for k in range(steps[j]):
+                c = cdf[j, k]
+                for t in range(years):
+                    counts[t] += u[j, i, t] > c
+            cost_j = cost_per_event[j, i]
             share = days_per_event[j, i] / (365.0 * turbines)
             for t in range(years):
-                x = uj[i, t]
-                k = 0
-                while k < m and cdf[j, k] < 1.0 and x > cdf[j, k]:
-                    k += 1
-                if k:
-                    add_cost[t] += k * c
-                    add_down[t] += k * share
+                add_cost[t] += counts[t] * cost_j
+                add_down[t] += counts[t] * share
         for t in range(years):
             cost[i, t] += add_cost[t]
             downtime[i, t] += add_down[t]

@@ -270,7 +270,7 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
         turbines = scn.project.turbines
         cost = np.zeros((n, lifetime))
         downtime = np.zeros((n, lifetime))
-        fast = []   # components counted together in one compiled pass (same draws as poisson())
+        plan = []
         for c in comps:
             key = f"maintenance.component.{c.name}."
             rate = inputs.get(key + "failure_rate_per_turbine_year", c.failure_rate_per_turbine_year)
@@ -279,21 +279,30 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
             repl = np.asarray(inputs.get(key + "replacement_cost", c.replacement_cost), float).reshape(-1, 1)
             days = np.asarray(inputs.get(key + "downtime_days", c.downtime_days), float).reshape(-1, 1)
             first = float(lam.flat[0]) if lam.size else 0.0
-            if _kernels is not None and lam.size and first <= 10.0 and (np.ndim(rate) == 0 or np.all(lam == first)):
-                cdf = _poisson_cdf32(first, int(first + 12.0 * math.sqrt(first) + 20))
-                fast.append((rng.random((n, lifetime), dtype=np.float32), cdf,
-                             np.broadcast_to(repl, (n, 1))[:, 0], np.broadcast_to(days, (n, 1))[:, 0]))
+            fast = _kernels is not None and lam.size and first <= 10.0 and (np.ndim(rate) == 0 or
+                                                                             np.all(lam == first))
+            plan.append((fast, lam, first, repl, days))
+        quick = [p for p in plan if p[0]]
+        # components with one rate are counted together in one compiled pass from the same
+        # uniforms poisson() would draw; the others go through poisson()
+        u_all = np.empty((len(quick), n, lifetime), np.float32) if quick else None
+        j = 0
+        for fast, lam, first, repl, days in plan:
+            if fast:
+                rng.random(out=u_all[j], dtype=np.float32)
+                j += 1
                 continue
             counts = poisson(rng, lam)
             cost += counts * repl
             downtime += counts * days / (365.0 * turbines)
-        if fast:
-            steps = max(f[1].size for f in fast)
-            cdfs = np.ones((len(fast), steps), np.float32)
-            for j, f in enumerate(fast):
-                cdfs[j, :f[1].size] = f[1]
-            _kernels.add_failures_many(tuple(f[0] for f in fast), cdfs, np.stack([f[2] for f in fast]),
-                                       np.stack([f[3] for f in fast]), float(turbines), cost, downtime)
+        if quick:
+            cdf_list = [_poisson_cdf32(p[2], int(p[2] + 12.0 * math.sqrt(p[2]) + 20)) for p in quick]
+            cdfs = np.ones((len(quick), max(c.size for c in cdf_list)), np.float32)
+            for k, cdf in enumerate(cdf_list):
+                cdfs[k, :cdf.size] = cdf
+            _kernels.add_failures_many(u_all, cdfs, np.stack([np.broadcast_to(p[3], (n, 1))[:, 0] for p in quick]),
+                                       np.stack([np.broadcast_to(p[4], (n, 1))[:, 0] for p in quick]),
+                                       float(turbines), cost, downtime)
         np.minimum(downtime, 1.0, out=downtime)
     return inputs, Sample(speed_factor=speed, energy_factor=energy, downtime=downtime, failure_cost=cost)
 
