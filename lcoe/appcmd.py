@@ -40,20 +40,10 @@ def cmd_app(args) -> int:
     return 0  # not reached
 
 
-def _port(text: str) -> int:
-    import argparse
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
-    if not 1 <= v <= 65535:
-        raise argparse.ArgumentTypeError(f"must be between 1 and 65535, got {v}")
-    return v
-
-
 def register(sub) -> None:
+    from lcoe.cli import whole_number
     a = sub.add_parser("app", help="start the interactive app in the browser (Streamlit)")
-    a.add_argument("--port", type=_port, default=8501, help="port to serve on (default 8501)")
+    a.add_argument("--port", type=whole_number(1, 65535), default=8501, help="port to serve on (default 8501)")
     a.add_argument("--address", default="127.0.0.1",
                    help="address to listen on (default 127.0.0.1, this machine only)")
     a.set_defaults(func=cmd_app)

@@ -54,6 +54,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     import numpy_financial as npf
 
     from lcoe.cashflow import depreciation_shares
+    from lcoe.scenario import LOSS_CATEGORIES
 
     def get(key, default):
         return float(over[key]) if key in over else float(default)
@@ -61,7 +62,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     L, n = scn.lifetime, scn.project.turbines
     kw = get("turbine.rated_power_kw", scn.turbine.rated_power_kw) * n
     lf = 1.0
-    for name in ("wake", "electrical", "turbine_performance", "environmental", "curtailment", "other"):
+    for name in LOSS_CATEGORIES:
         lf *= 1.0 - get(f"losses.{name}", getattr(scn.losses, name))
     o, m, c, r, f = scn.operations, scn.maintenance, scn.capex, scn.revenue, scn.finance
     mature = get("operations.availability_mature", o.availability_mature)

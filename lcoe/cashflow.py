@@ -13,6 +13,7 @@ import numpy as np
 
 from lcoe import costs, energy as en, resource
 from lcoe.resource import Z_90, Z_99
+from lcoe.scenario import LOSS_CATEGORIES
 
 DEBT_TOLERANCE = 1e-12   # change of the debt and of each year's debt service (to capex) that ends the sizing iteration
 DEBT_MAX_ITER = 200
@@ -105,12 +106,6 @@ class Schedule:
     sizing_cfads: np.ndarray  # (n, L), CFADS of the sizing case at close
     iterations: int
     gearing_bound: np.ndarray  # (n, 1) bool
-
-    def row(self, i: int) -> "Schedule":
-        pick = lambda a: a[i:i + 1] if np.ndim(a) == 2 and a.shape[0] > 1 else a  # noqa: E731
-        return Schedule(pick(self.debt), pick(self.debt_service), pick(self.interest), pick(self.principal),
-                        pick(self.balance_open), pick(self.fee), pick(self.sizing_cfads), self.iterations,
-                        pick(self.gearing_bound))
 
 
 def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
@@ -299,7 +294,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
 
     # ---- energy (t = 1..L)
     lf = 1.0
-    for name in ("wake", "electrical", "turbine_performance", "environmental", "curtailment", "other"):
+    for name in LOSS_CATEGORIES:
         lf = lf * (1.0 - inp(f"losses.{name}", getattr(scn.losses, name)))
     o = scn.operations
     mature = inp("operations.availability_mature", o.availability_mature)

@@ -96,14 +96,22 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
-def _nonneg_int(text: str) -> int:
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
-    if v < 0:
-        raise argparse.ArgumentTypeError(f"must be >= 0, got {v}")
-    return v
+def whole_number(low: int = 0, high: int | None = None):
+    """An argparse type: a whole number >= low (and <= high when given)."""
+    def parse(text: str) -> int:
+        try:
+            v = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
+        if high is None and v < low:
+            raise argparse.ArgumentTypeError(f"must be >= {low}, got {v}")
+        if high is not None and not low <= v <= high:
+            raise argparse.ArgumentTypeError(f"must be between {low} and {high}, got {v}")
+        return v
+    return parse
+
+
+_nonneg_int = whole_number(0)
 
 
 def _optional_commands(sub) -> None:

@@ -14,7 +14,7 @@ import math
 import re
 import tomllib
 from pathlib import Path
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Literal, get_args
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, model_validator
 
@@ -122,10 +122,12 @@ class Losses(_Model):
 
     def factor(self) -> float:
         out = 1.0
-        for v in (self.wake, self.electrical, self.turbine_performance, self.environmental,
-                  self.curtailment, self.other):
-            out *= 1.0 - v
+        for name in LOSS_CATEGORIES:
+            out *= 1.0 - getattr(self, name)
         return out
+
+
+LOSS_CATEGORIES = tuple(Losses.model_fields)
 
 
 class Operations(_Model):
@@ -207,6 +209,10 @@ class Finance(_Model):
                           "macrs_15", "macrs_20"] = "straight_line"
     depreciation_years: Annotated[int, Field(ge=1, le=60)] = 20
     debt: Debt | None = None
+
+
+DEPRECIATION_METHODS = get_args(Finance.model_fields["depreciation"].annotation)
+SIZING_CASES = get_args(Debt.model_fields["sizing_case"].annotation)
 
 
 class SpeedTerm(_Model):

@@ -647,19 +647,9 @@ def _finite(text: str) -> float:
     return v
 
 
-def _count(text: str) -> int:
-    import argparse
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
-    if not 1 <= v <= 10000:
-        raise argparse.ArgumentTypeError(f"must be between 1 and 10000, got {v}")
-    return v
-
-
 def register(sub) -> None:
     """Add ``sweep``, ``tornado`` and ``solve`` to the ``lcoe`` command."""
+    from lcoe.cli import whole_number
     p = sub.add_parser("sweep", help="the model over a range of one input (with the AEP elasticity)",
                        description="Run the model at STEPS evenly spaced values of KEY from START to STOP (both "
                                    "included), the other inputs as in the file.")
@@ -667,7 +657,7 @@ def register(sub) -> None:
     p.add_argument("key", help="dotted scenario key, e.g. wind.mean_speed_mps")
     p.add_argument("start", type=_finite)
     p.add_argument("stop", type=_finite)
-    p.add_argument("steps", type=_count, help="number of values, START and STOP included")
+    p.add_argument("steps", type=whole_number(1, 10000), help="number of values, START and STOP included")
     p.add_argument("--json", action="store_true", help="print JSON")
     p.add_argument("--breakeven", action="store_true", help="also solve the break-even PPA price at each value")
     p.add_argument("--metrics", metavar="LIST", help="comma-separated metrics for the table columns")

@@ -14,6 +14,8 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter, quote_sheetname
 from openpyxl.workbook.defined_name import DefinedName
 
+from lcoe.scenario import DEPRECIATION_METHODS, LOSS_CATEGORIES, SIZING_CASES
+
 # sheet names (plain trade words)
 SUMMARY, INPUTS, ENERGY, CASHFLOW, DEBT = "Summary", "Inputs", "Energy", "Cash flow", "Debt"
 MONTECARLO, SENSITIVITY, CHECKS, NOTES = "Monte Carlo", "Sensitivity", "Checks", "Notes"
@@ -63,9 +65,9 @@ EXTRA_MC = {
     "opex_mean": ("O&M, mean of the life", "{cur}/yr", "money"),
 }
 HISTOGRAM_KEYS = ("lcoe_nominal_per_mwh", "equity_irr", "min_dscr", "net_aep_year1_mwh")
-CASES = ("p50", "p90_1yr", "p90_10yr", "p99_1yr")
-DEPRECIATION = ("straight_line", "declining_balance", "macrs_5", "macrs_7", "macrs_15", "macrs_20")
-LOSSES = ("wake", "electrical", "turbine_performance", "environmental", "curtailment", "other")
+CASES = SIZING_CASES
+DEPRECIATION = DEPRECIATION_METHODS
+LOSSES = LOSS_CATEGORIES
 
 
 # --------------------------------------------------------------------------- cells and names

@@ -112,10 +112,10 @@ def input_groups(scn) -> list[tuple[str, list[dict]]]:
                _f("finance.equity_target_return", "Equity target return", "%", 0.25, "%.2f", "pct"),
                _f("finance.tax_rate", "Tax rate", "%", 0.5, "%.1f", "pct"),
                _choice("finance.depreciation", "Tax depreciation",
-                       ["straight_line", "declining_balance", "macrs_5", "macrs_7", "macrs_15", "macrs_20"]),
+                       list(sc.DEPRECIATION_METHODS)),
                _i("finance.depreciation_years", "Depreciation period")]
     if scn.finance.debt is not None:
-        finance += [_choice("finance.debt.sizing_case", "Debt sized on", ["p50", "p90_1yr", "p90_10yr", "p99_1yr"]),
+        finance += [_choice("finance.debt.sizing_case", "Debt sized on", list(sc.SIZING_CASES)),
                     _f("finance.debt.target_dscr", "Target DSCR", "x", 0.05),
                     _f("finance.debt.max_gearing", "Maximum gearing", "% of capex", 1.0, "%.1f", "pct"),
                     _i("finance.debt.tenor_years", "Debt tenor"),
