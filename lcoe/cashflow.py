@@ -264,16 +264,44 @@ def _typed(scn, key, value):
     return int(round(value)) if "int" in ann and "float" not in ann else float(value)
 
 
-def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
-             schedule: Schedule | None = None, lean: bool = False) -> Flows:
-    """Run the yearly engine for a batch of rows.
+@dataclass
+class Terms:
+    """Everything the yearly lines of a batch are made from, computed once per batch.
 
-    ``overrides`` maps dotted keys to one value per row; ``sample`` carries Monte Carlo
-    draws; ``schedule`` is a debt schedule fixed at close (None: size the debt here,
-    per row, on the sizing case). ``lean`` keeps only the lines the metrics need
-    (energy, O&M, decommissioning, CFADS, debt service, DSCR and the two cash flows);
-    the others are None.
+    Per-row values are floats or (n, 1) arrays; yearly values are (1 or n, L) arrays
+    over t = 1..L (or floats where they do not change over the years). The lines
+    themselves, shaped (n, L), are left to :func:`evaluate` (numpy) and to the fused
+    trial kernel of :func:`lcoe.model.trial_metrics`; both follow the formulas here.
     """
+
+    inp: Inputs
+    years: np.ndarray
+    gross: object             # (n, 1) or float: gross AEP at the rows' mean speed [MWh/yr]
+    gross_t: object           # gross AEP of each year with the trial's speed factors [MWh/yr]
+    speed_ratio: object       # None, or (n, L) AEP(f)/AEP(1) of the trials' speed factors ...
+    speed_gross: object       # ... multiplied by this gross AEP: gross_t = speed_gross * speed_ratio
+    loss_factor: object       # product of (1 - loss)
+    availability: object
+    downtime: object
+    degradation: object
+    energy_factor: object     # None or (n, 1)
+    p50: object
+    factors: dict             # sizing case -> P_case / P50
+    price: object
+    credit: object
+    capex: np.ndarray         # (n, 1)
+    fixed_real: object        # (fixed + insurance) kW + failures + overhauls, year-0 money
+    variable: object
+    lease: object
+    esc_index: object
+    decom_t: object
+    shares: object            # depreciation share of each year (the depreciation is capex * shares)
+    tax_rate: object
+    warnings: list
+
+
+def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: Sample | None = None) -> Terms:
+    """The per-row and per-year terms of a batch (see :class:`Terms` and :func:`evaluate`)."""
     inp = Inputs(scn, overrides)
     if sample is not None:
         for a in (sample.speed_factor, sample.energy_factor, sample.downtime, sample.failure_cost):
@@ -282,13 +310,16 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     L = scn.lifetime
     n_turb = scn.project.turbines
     years = np.arange(1, L + 1)
-    warnings: list[str] = []
     site = en.site_for(scn)
     gross, key_factor, sens = _gross(scn, inp, site)
+    speed_ratio = speed_gross = None
     if sample is not None and sample.speed_factor is not None:
         # the trial's speed factors apply on top of any overridden mean speed
-        gross_t = site.gross_aep_mwh * site.ratio_at_factor(key_factor * sample.speed_factor) \
-            if np.ndim(key_factor) else gross * site.ratio_at_factor(sample.speed_factor)
+        if np.ndim(key_factor):
+            speed_gross, speed_ratio = site.gross_aep_mwh, site.ratio_at_factor(key_factor * sample.speed_factor)
+        else:
+            speed_gross, speed_ratio = gross, site.ratio_at_factor(sample.speed_factor)
+        gross_t = speed_gross * speed_ratio
     else:
         gross_t = gross
 
@@ -312,13 +343,6 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     else:
         downtime = sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0
     degr = en.degradation_factor(years, inp("operations.degradation_per_year", o.degradation_per_year))
-    # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
-    energy_line = _line(inp.n, L, 0.0)
-    energy_t = energy_line[:, 1:]
-    if sample is not None and sample.energy_factor is not None:
-        np.multiply(gross_t * lf * avail * (1.0 - downtime) * degr, sample.energy_factor, out=energy_t)
-    else:
-        np.multiply(gross_t * lf * avail * (1.0 - downtime), degr, out=energy_t)
     p50 = gross * lf * mature * (1.0 - (sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0))
 
     # ---- P-case factors (for debt sizing): sigma from the sensitivity and the uncertainty terms
@@ -366,31 +390,59 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
                                      for x in ohs], n_turb, years) if ohs else 0.0
     fixed = inp("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
     insurance = inp("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)
-    variable = inp("maintenance.variable_per_mwh", m.variable_per_mwh)
-    lease = inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue)
     esc_index = costs.escalation_index(esc, years)
     decom = costs.decommissioning_net(inp("capex.decommissioning_per_kw", c.decommissioning_per_kw),
                                       inp("capex.salvage_per_kw", c.salvage_per_kw), plant_kw, esc, L)
-    decom_t = np.where(years == L, decom, 0.0)
-    fixed_real = (fixed + insurance) * plant_kw + fail + overhaul
-
-    def operating(e, out=None):
-        rev = e * (price + credit)
-        om = np.add((fixed_real + variable * e) * esc_index, lease * rev, out=out)
-        return rev, om
-
-    opex_line = _line(inp.n, L, 0.0)
-    revenue, om = operating(energy_t, out=opex_line[:, 1:])
 
     # ---- depreciation and tax
     f = scn.finance
-    tax_rate = inp("finance.tax_rate", f.tax_rate)
     dep_years = inp("finance.depreciation_years", f.depreciation_years)
     if np.ndim(dep_years) == 0:
         shares = depreciation_shares(f.depreciation, int(dep_years), L)
     else:
         shares = np.vstack([depreciation_shares(f.depreciation, int(round(y)), L) for y in dep_years.ravel()])
-    dep = capex * shares
+    return Terms(inp=inp, years=years, gross=gross, gross_t=gross_t, speed_ratio=speed_ratio,
+                 speed_gross=speed_gross, loss_factor=lf, availability=avail, downtime=downtime, degradation=degr,
+                 energy_factor=None if sample is None else sample.energy_factor, p50=p50, factors=factors,
+                 price=price, credit=credit, capex=capex, fixed_real=(fixed + insurance) * plant_kw + fail + overhaul,
+                 variable=inp("maintenance.variable_per_mwh", m.variable_per_mwh),
+                 lease=inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue),
+                 esc_index=esc_index, decom_t=np.where(years == L, decom, 0.0), shares=shares,
+                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[])
+
+
+def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
+             schedule: Schedule | None = None, lean: bool = False) -> Flows:
+    """Run the yearly engine for a batch of rows.
+
+    ``overrides`` maps dotted keys to one value per row; ``sample`` carries Monte Carlo
+    draws; ``schedule`` is a debt schedule fixed at close (None: size the debt here,
+    per row, on the sizing case). ``lean`` keeps only the lines the metrics need
+    (energy, O&M, decommissioning, CFADS, debt service, DSCR and the two cash flows);
+    the others are None.
+    """
+    tm = terms(scn, energy, overrides, sample)
+    inp, years, L = tm.inp, tm.years, scn.lifetime
+    warnings = tm.warnings
+    # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
+    energy_line = _line(inp.n, L, 0.0)
+    energy_t = energy_line[:, 1:]
+    if tm.energy_factor is not None:
+        np.multiply(tm.gross_t * tm.loss_factor * tm.availability * (1.0 - tm.downtime) * tm.degradation,
+                    tm.energy_factor, out=energy_t)
+    else:
+        np.multiply(tm.gross_t * tm.loss_factor * tm.availability * (1.0 - tm.downtime), tm.degradation,
+                    out=energy_t)
+    price, credit, decom_t, capex, tax_rate = tm.price, tm.credit, tm.decom_t, tm.capex, tm.tax_rate
+    dep = capex * tm.shares
+
+    def operating(e, out=None):
+        rev = e * (price + credit)
+        om = np.add((tm.fixed_real + tm.variable * e) * tm.esc_index, tm.lease * rev, out=out)
+        return rev, om
+
+    opex_line = _line(inp.n, L, 0.0)
+    revenue, om = operating(energy_t, out=opex_line[:, 1:])
     pre_tax = revenue - om - decom_t
     tax_u = tax_with_carryforward(pre_tax - dep, tax_rate)
     capex_row = capex.ravel()
@@ -398,6 +450,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     np.subtract(pre_tax, tax_u, out=project_line[:, 1:])
 
     # ---- debt
+    f = scn.finance
     debt_terms = f.debt
     if debt_terms is None:
         zeros = np.zeros((inp.n, L))
@@ -406,7 +459,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     elif schedule is not None:
         sched = schedule
     else:
-        sched = size_debt(operating, energy_t, factors[debt_terms.sizing_case], decom_t, dep, capex, tax_rate,
+        sched = size_debt(operating, energy_t, tm.factors[debt_terms.sizing_case], decom_t, dep, capex, tax_rate,
                           inp("finance.debt.target_dscr", debt_terms.target_dscr),
                           inp("finance.debt.max_gearing", debt_terms.max_gearing),
                           inp("finance.debt.tenor_years", debt_terms.tenor_years),
@@ -441,7 +494,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
 
     balance_close = None if lean else sched.balance_open + sched.interest - ds
     return Flows(
-        years=np.arange(0, L + 1), energy_mwh=energy_line, availability=with_t0(avail),
+        years=np.arange(0, L + 1), energy_mwh=energy_line, availability=with_t0(tm.availability),
         price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=opex_line,
         capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t, keep=True), depreciation=with_t0(dep),
         interest=with_t0(sched.interest), principal=with_t0(sched.principal),
@@ -449,9 +502,9 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         cfads=cfads_line, debt_service=with_t0(ds, keep=True), dscr=dscr_line,
         project_cash_flow=project_line, equity_cash_flow=equity_line,
         capex_total=np.asarray(capex).reshape(-1, 1), debt=np.asarray(sched.debt).reshape(-1, 1),
-        fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(gross, (inp.n, 1)),
-        net_aep_p50_mwh=np.broadcast_to(p50, (inp.n, 1)),
-        case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in factors.items()},
+        fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(tm.gross, (inp.n, 1)),
+        net_aep_p50_mwh=np.broadcast_to(tm.p50, (inp.n, 1)),
+        case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in tm.factors.items()},
         schedule=sched, warnings=warnings)
 
 

@@ -18,101 +18,153 @@ OK, NO_SIGN_CHANGE, NO_ROOT = 0, 1, 2
 
 
 @njit(cache=True, nogil=True)
-def _npv_x(c, i, x):
-    """f(x) = sum c_t x^t and f'(x) for row i, by Horner's rule."""
+def _npv_x(c, x):
+    """f(x) = sum c_t x^t and f'(x) for one row of cash flows, by Horner's rule."""
     f = 0.0
     d = 0.0
-    for k in range(c.shape[1] - 1, -1, -1):
+    for k in range(c.shape[0] - 1, -1, -1):
         d = d * x + f
-        f = f * x + c[i, k]
+        f = f * x + c[k]
     return f, d
 
 
 @njit(cache=True, nogil=True)
+def _bisect_x(c, lo, hi, flo):
+    """A root of sum c_t x^t between lo and hi (f(lo) = flo, f(hi) of the other sign)."""
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        fm, _ = _npv_x(c, mid)
+        if np.sign(fm) == np.sign(flo):
+            lo, flo = mid, fm
+        else:
+            hi = mid
+        if abs(hi - lo) <= 1e-16 * abs(hi):
+            break
+    return 0.5 * (lo + hi)
+
+
+@njit(cache=True, nogil=True)
+def _closest_root(c, found, x_low, x_high):
+    """The rate closest to zero among the roots between x_low and x_high, given one root
+    ``found`` (NaN if none was found). Cash flows that change sign more than once can
+    have several IRRs; the one closest to zero is reported, as numpy-financial does.
+    Each side of zero is scanned outward on a grid of rates up to ``|found|`` (the whole
+    range when none was found) and the first sign change refined by bisection; roots
+    closer together than the grid's step can be missed."""
+    r_low = 1.0 / x_high - 1.0
+    r_high = 1.0 / x_low - 1.0
+    known = np.isfinite(found)
+    steps = 64 if known else 512
+    best = found
+    f0, _ = _npv_x(c, 1.0)
+    if f0 == 0.0:
+        return 0.0
+    for side in (1.0, -1.0):
+        limit = r_high if side > 0 else r_low
+        span = abs(found) if known else abs(limit)
+        prev_x, prev_f = 1.0, f0
+        for k in range(1, steps + 1):
+            r = side * span * k / steps
+            if (side > 0 and r >= r_high) or (side < 0 and r <= r_low):
+                break
+            x = 1.0 / (1.0 + r)
+            fx, _ = _npv_x(c, x)
+            if fx == 0.0 or np.sign(fx) != np.sign(prev_f):
+                cand = 1.0 / x - 1.0 if fx == 0.0 else 1.0 / _bisect_x(c, prev_x, x, prev_f) - 1.0
+                if not np.isfinite(best) or abs(cand) < abs(best):
+                    best = cand
+                break
+            prev_x, prev_f = x, fx
+    return best
+
+
+@njit(cache=True, nogil=True)
+def _irr_one(c, x0, tol, max_iter, x_low, x_high):
+    """IRR of one row of cash flows ``c``: Halley's method (Newton's with the second
+    derivative) on x = 1 / (1 + r) from x0, bisection on [x_low, x_high] where it fails;
+    where the flows change sign more than once, the root closest to zero
+    (:func:`_closest_root`). Returns (rate, status)."""
+    changes = 0
+    last = 0.0
+    finite = True
+    for k in range(c.shape[0]):
+        v = c[k]
+        if not np.isfinite(v):
+            finite = False
+        elif v != 0.0:
+            sv = 1.0 if v > 0 else -1.0
+            if last != 0.0 and sv != last:
+                changes += 1
+            last = sv
+    if changes == 0 or not finite:
+        return np.nan, (NO_SIGN_CHANGE if finite else NO_ROOT)
+    rate = np.nan
+    x = x0
+    for _ in range(max_iter):
+        # Halley's step (f, f', f'' by Horner's rule): cubic convergence near the root
+        f = 0.0
+        d = 0.0
+        dd = 0.0
+        for k in range(c.shape[0] - 1, -1, -1):
+            dd = dd * x + 2.0 * d
+            d = d * x + f
+            f = f * x + c[k]
+        den = 2.0 * d * d - f * dd
+        step = 2.0 * f * d / den if den != 0.0 else f / d
+        xn = x - step
+        if not np.isfinite(xn) or xn <= 0:
+            break
+        x = xn
+        if abs(step) <= tol * max(1.0, abs(xn)):
+            rate = 1.0 / x - 1.0
+            break
+    if not np.isfinite(rate):
+        flo, _ = _npv_x(c, x_low)
+        fhi, _ = _npv_x(c, x_high)
+        if np.sign(flo) * np.sign(fhi) <= 0:
+            rate = 1.0 / _bisect_x(c, x_low, x_high, flo) - 1.0
+    if changes > 1:
+        rate = _closest_root(c, rate, x_low, x_high)
+    if not np.isfinite(rate):
+        return np.nan, NO_ROOT
+    return rate, OK
+
+
+@njit(cache=True, nogil=True)
 def irr_rows(c, guess, tol, max_iter, x_low, x_high):
-    """IRR of each row of ``c`` (rows, periods): Halley's method (Newton's with the second
-    derivative) on x = 1 / (1 + r), bisection on [x_low, x_high] where it fails.
-    Returns (rates, status)."""
+    """IRR of each row of ``c`` (rows, periods) by :func:`_irr_one`. Returns (rates, status)."""
     n = c.shape[0]
     rates = np.full(n, np.nan)
     status = np.zeros(n, np.int8)
     x0 = 1.0 / (1.0 + guess)
     for i in range(n):
-        pos = False
-        neg = False
-        finite = True
-        for k in range(c.shape[1]):
-            v = c[i, k]
-            if v > 0:
-                pos = True
-            elif v < 0:
-                neg = True
-            if not np.isfinite(v):
-                finite = False
-        if not (pos and neg) or not finite:
-            status[i] = NO_SIGN_CHANGE if finite else NO_ROOT
-            continue
-        x = x0
-        found = False
-        for _ in range(max_iter):
-            # Halley's step (f, f', f'' by Horner's rule): cubic convergence near the root
-            f = 0.0
-            d = 0.0
-            dd = 0.0
-            for k in range(c.shape[1] - 1, -1, -1):
-                dd = dd * x + 2.0 * d
-                d = d * x + f
-                f = f * x + c[i, k]
-            den = 2.0 * d * d - f * dd
-            step = 2.0 * f * d / den if den != 0.0 else f / d
-            xn = x - step
-            if not np.isfinite(xn) or xn <= 0:
-                break
-            x = xn
-            if abs(step) <= tol * max(1.0, abs(xn)):
-                found = True
-                break
-        if found:
-            rates[i] = 1.0 / x - 1.0
-            continue
-        lo, hi = x_low, x_high
-        flo, _ = _npv_x(c, i, lo)
-        fhi, _ = _npv_x(c, i, hi)
-        if np.sign(flo) * np.sign(fhi) > 0:
-            status[i] = NO_ROOT
-            continue
-        for _ in range(200):
-            mid = 0.5 * (lo + hi)
-            fm, _ = _npv_x(c, i, mid)
-            if np.sign(fm) == np.sign(flo):
-                lo, flo = mid, fm
-            else:
-                hi = mid
-            if hi - lo <= 1e-16 * hi:
-                break
-        rates[i] = 1.0 / (0.5 * (lo + hi)) - 1.0
+        rates[i], status[i] = _irr_one(c[i], x0, tol, max_iter, x_low, x_high)
     return rates, status
+
+
+@njit(cache=True, nogil=True)
+def _carry_one(taxable, r, out):
+    """Tax of one row with losses carried forward without limit, never negative."""
+    pool = 0.0
+    for t in range(taxable.shape[0]):
+        x = taxable[t]
+        if x <= 0.0:
+            pool -= x
+            out[t] = 0.0
+        elif pool >= x:
+            pool -= x
+            out[t] = 0.0
+        else:
+            out[t] = r * (x - pool)
+            pool = 0.0
 
 
 @njit(cache=True, nogil=True)
 def carry_rows(taxable, rate, out):
     """Tax of each row with losses carried forward without limit, never negative:
     ``out = rate * taxed``, ``rate`` one value per row."""
-    n, years = taxable.shape
-    for i in range(n):
-        pool = 0.0
-        r = rate[i]
-        for t in range(years):
-            x = taxable[i, t]
-            if x <= 0.0:
-                pool -= x
-                out[i, t] = 0.0
-            elif pool >= x:
-                pool -= x
-                out[i, t] = 0.0
-            else:
-                out[i, t] = r * (x - pool)
-                pool = 0.0
+    for i in range(taxable.shape[0]):
+        _carry_one(taxable[i], rate[i], out[i])
     return out
 
 
@@ -137,46 +189,56 @@ def interp_uniform(x, x0, h, fp, out):
 
 
 @njit(cache=True, nogil=True)
+def _coverage_one(dscr, cfads, debt_service, debt, r, equity):
+    """(min DSCR, average DSCR, LLCR, payback year) of one row; see :func:`coverage_rows`."""
+    lo = np.inf
+    total = 0.0
+    count = 0
+    pv = 0.0
+    disc = 1.0
+    for t in range(dscr.shape[0]):
+        if t > 0:
+            disc /= 1.0 + r
+        if debt_service[t] > 0:
+            d = dscr[t]
+            if np.isfinite(d):
+                lo = min(lo, d)
+                total += d
+                count += 1
+            pv += cfads[t] * disc
+    mn = np.nan
+    avg = np.nan
+    llcr = np.nan
+    payback = np.nan
+    if count:
+        mn = lo
+        avg = total / count
+    if debt > 0:
+        llcr = pv / debt
+    cum = 0.0
+    for t in range(equity.shape[0]):
+        cum += equity[t]
+        if cum >= 0:
+            payback = t
+            break
+    return mn, avg, llcr, payback
+
+
+@njit(cache=True, nogil=True)
 def coverage_rows(dscr, cfads, debt_service, debt, rate, equity):
     """Per row: minimum and average DSCR over the years with debt service, the LLCR (PV
     at the interest rate of CFADS over those years, over the debt) and the first year in
     which the cumulative equity cash flow is non-negative. Arrays are (rows, L + 1) with
     column 0 = t = 0; ``debt_service`` may have one row for all."""
-    n, cols = dscr.shape
+    n = dscr.shape[0]
     one_ds = debt_service.shape[0] == 1
     mn = np.full(n, np.nan)
     avg = np.full(n, np.nan)
     llcr = np.full(n, np.nan)
     payback = np.full(n, np.nan)
     for i in range(n):
-        lo = np.inf
-        total = 0.0
-        count = 0
-        pv = 0.0
-        disc = 1.0
-        r = rate[i]
-        ds_row = 0 if one_ds else i
-        for t in range(cols):
-            if t > 0:
-                disc /= 1.0 + r
-            if debt_service[ds_row, t] > 0:
-                d = dscr[i, t]
-                if np.isfinite(d):
-                    lo = min(lo, d)
-                    total += d
-                    count += 1
-                pv += cfads[i, t] * disc
-        if count:
-            mn[i] = lo
-            avg[i] = total / count
-        if debt[i] > 0:
-            llcr[i] = pv / debt[i]
-        cum = 0.0
-        for t in range(cols):
-            cum += equity[i, t]
-            if cum >= 0:
-                payback[i] = t
-                break
+        mn[i], avg[i], llcr[i], payback[i] = _coverage_one(dscr[i], cfads[i], debt_service[0 if one_ds else i],
+                                                           debt[i], rate[i], equity[i])
     return mn, avg, llcr, payback
 
 
@@ -213,3 +275,106 @@ def add_failures_many(u, cdf, cost_per_event, days_per_event, turbines, cost, do
         for t in range(years):
             cost[i, t] += add_cost[t]
             downtime[i, t] += add_down[t]
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _row(a, i):
+    """Row index into an argument that holds one row for every trial or one for all."""
+    return i if a.shape[0] > 1 else 0
+
+
+@njit(cache=True, nogil=True)
+def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, energy_factor, price_credit,
+               fixed_real, variable, esc_index, lease, decom, shares, tax_rate, capex, interest, debt_service,
+               equity0, dc_nominal, dc_real, dc_equity, debt_rate, debt, guess_project, guess_equity, tol,
+               max_iter, x_low, x_high, out, status):
+    """The lean yearly lines and every Monte Carlo metric of each trial, one row at a time.
+
+    The same formulas, in the same order of operations, as ``lcoe.cashflow.evaluate``
+    and ``lcoe.model.batch_metrics`` (tests/test_kernels.py holds the two to each
+    other), without (trials, years) arrays in between. Yearly arguments are (1 or n, L)
+    over t = 1..L, discount factors (1 or n, L + 1) from t = 0, per-trial values (1 or n,).
+    ``out`` (13, n) receives, in this order: LCOE nominal and real, project NPV, equity
+    NPV, project IRR, equity IRR, minimum and average DSCR, LLCR, payback year, year-1
+    and mean net energy, mean O&M; ``status`` (2, n) the IRR status of each trial.
+    """
+    n = out.shape[1]
+    L = ratio.shape[1]
+    pre = np.empty(L)
+    taxable_u = np.empty(L)
+    taxable_l = np.empty(L)
+    tax_u = np.empty(L)
+    tax_l = np.empty(L)
+    project = np.empty(L + 1)
+    equity = np.empty(L + 1)
+    cfads = np.empty(L + 1)
+    dscr = np.empty(L + 1)
+    ds_row = np.empty(L + 1)
+    x_project = 1.0 / (1.0 + guess_project)
+    x_equity = 1.0 / (1.0 + guess_equity)
+    for i in range(n):
+        ri, gi, li = _row(ratio, i), _row(gross, i), _row(loss_factor, i)
+        ai, di, gdi, ei = _row(availability, i), _row(downtime, i), _row(degradation, i), _row(energy_factor, i)
+        pi, fi, vi, xi, lsi = _row(price_credit, i), _row(fixed_real, i), _row(variable, i), _row(esc_index, i), \
+            _row(lease, i)
+        dci, shi, tri, ci = _row(decom, i), _row(shares, i), _row(tax_rate, i), _row(capex, i)
+        ii, dsi, e0i = _row(interest, i), _row(debt_service, i), _row(equity0, i)
+        ni, rli, eqi, dri, dbi = _row(dc_nominal, i), _row(dc_real, i), _row(dc_equity, i), _row(debt_rate, i), \
+            _row(debt, i)
+        cap = capex[ci]
+        cost = 0.0
+        en_nominal = 0.0
+        en_real = 0.0
+        energy_sum = 0.0
+        opex_sum = 0.0
+        year1 = 0.0
+        for t in range(L):
+            e = gross[gi] * ratio[ri, t]
+            e = e * loss_factor[li] * availability[ai, t] * (1.0 - downtime[di, t]) * degradation[gdi, t]
+            e = e * energy_factor[ei]
+            rev = e * price_credit[pi, t]
+            om = (fixed_real[fi, t] + variable[vi] * e) * esc_index[xi, t] + lease[lsi] * rev
+            p = rev - om - decom[dci, t]
+            dep = cap * shares[shi, t]
+            pre[t] = p
+            taxable_u[t] = p - dep
+            taxable_l[t] = p - dep - interest[ii, t]
+            cost += (om + decom[dci, t]) * dc_nominal[ni, t + 1]
+            en_nominal += e * dc_nominal[ni, t + 1]
+            en_real += e * dc_real[rli, t + 1]
+            energy_sum += e
+            opex_sum += om
+            if t == 0:
+                year1 = e
+        _carry_one(taxable_u, tax_rate[tri], tax_u)
+        _carry_one(taxable_l, tax_rate[tri], tax_l)
+        project[0] = -cap
+        equity[0] = equity0[e0i]
+        cfads[0] = 0.0
+        dscr[0] = np.nan
+        ds_row[0] = 0.0
+        npv_project = -cap * dc_nominal[ni, 0]
+        npv_equity = equity0[e0i] * dc_equity[eqi, 0]
+        for t in range(L):
+            project[t + 1] = pre[t] - tax_u[t]
+            c = pre[t] - tax_l[t]
+            d = debt_service[dsi, t]
+            cfads[t + 1] = c
+            ds_row[t + 1] = d
+            dscr[t + 1] = c / d if d > 0 else np.nan
+            equity[t + 1] = c - d
+            npv_project += project[t + 1] * dc_nominal[ni, t + 1]
+            npv_equity += equity[t + 1] * dc_equity[eqi, t + 1]
+        cost += cap
+        out[0, i] = cost / en_nominal if en_nominal > 0 else np.nan
+        out[1, i] = cost / en_real if en_real > 0 else np.nan
+        out[2, i] = npv_project
+        out[3, i] = npv_equity
+        out[4, i], status[0, i] = _irr_one(project, x_project, tol, max_iter, x_low, x_high)
+        out[5, i], status[1, i] = _irr_one(equity, x_equity, tol, max_iter, x_low, x_high)
+        out[6, i], out[7, i], out[8, i], out[9, i] = _coverage_one(dscr, cfads, ds_row, debt[dbi], debt_rate[dri],
+                                                                   equity)
+        out[10, i] = year1
+        out[11, i] = energy_sum / L
+        out[12, i] = opex_sum / L
+    return out, status

@@ -49,7 +49,9 @@ def irr(values, *, guess=0.1, tol=1e-9, max_iter=50):
     step just taken leaves an error of the order of tol^2. A converged root counts
     wherever it lies (r > -100 %). Rows where Newton does not converge fall back to
     bisection on r in [-99 %, 1000 %]; rows with no sign change, or with no root found
-    either way, give NaN.
+    either way, give NaN. Flows that change sign more than once can have several IRRs
+    (Descartes' rule of signs); for those the one closest to zero is reported, as
+    numpy-financial's ``irr`` does.
 
     Returns
     -------
@@ -93,11 +95,41 @@ def irr(values, *, guess=0.1, tol=1e-9, max_iter=50):
         retry = np.nonzero(ok & ~good)[0]
         if retry.size:
             out[retry] = _bisect(c[retry])
+        for i in np.nonzero(ok & (_sign_changes(c) > 1))[0]:
+            out[i] = _closest_root(c[i], out[i])
     for i in np.nonzero(~(has_pos & has_neg))[0]:
         reasons.append((int(i), "no sign change in the cash flows"))
     for i in np.nonzero((has_pos & has_neg) & np.isnan(out))[0]:
         reasons.append((int(i), f"no IRR between {IRR_LOW:.0%} and {IRR_HIGH:.0%}"))
     return out, reasons
+
+
+def _sign_changes(c):
+    """How often each row of ``c`` changes sign (zeros skipped)."""
+    changes = np.zeros(c.shape[0], int)
+    for i, row in enumerate(c):
+        s = np.sign(row[row != 0])
+        changes[i] = np.count_nonzero(s[1:] != s[:-1])
+    return changes
+
+
+def _closest_root(c, found):
+    """The IRR closest to zero of flows that change sign more than once (they can have
+    several): the real roots x > 0 of sum c_t x^t (numpy.roots, as numpy-financial finds
+    them), rates kept within [IRR_LOW, IRR_HIGH] or equal to ``found``, each polished by
+    two Newton steps."""
+    x = np.roots(c[::-1])
+    x = x[(np.abs(x.imag) <= 1e-9 * np.abs(x)) & (x.real > 0)].real
+    ct = c.reshape(-1, 1)
+    for _ in range(2):
+        f, d = _horner(ct, x)
+        with np.errstate(all="ignore"):
+            x = np.where(d != 0, x - f / d, x)
+    r = 1.0 / x - 1.0
+    r = r[((r >= IRR_LOW) & (r <= IRR_HIGH)) | np.isclose(r, found, rtol=1e-9, atol=1e-12)]
+    if np.isfinite(found):
+        r = np.append(r, found)
+    return float(r[np.argmin(np.abs(r))]) if r.size else np.nan
 
 
 def _bisect(c, iters=200):

@@ -15,6 +15,11 @@ from scipy.optimize import brentq
 from lcoe import cashflow, energy as en, metrics as mt
 from lcoe.cashflow import Flows, Inputs, Sample, Schedule
 
+try:  # the fused trial kernel; evaluate() and batch_metrics() give the same figures without it
+    from lcoe import kernels as _kernels
+except ImportError:  # pragma: no cover - numba is a declared dependency
+    _kernels = None
+
 METRIC_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
                "equity_irr", "debt_amount", "min_dscr", "avg_dscr", "llcr", "payback_year",
                "breakeven_ppa_price_per_mwh")
@@ -32,9 +37,7 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
     as the base case for Monte Carlo trials; it changes the work, not the result."""
     inp = Inputs(scn, overrides)
     f = scn.finance
-    r = inp("finance.discount_rate", f.discount_rate)
-    infl = inp("finance.inflation", f.inflation)
-    eq = inp("finance.equity_target_return", scn.equity_target_return)
+    r, infl, eq, rate_i = _metric_rates(scn, inp)
     out = {
         "lcoe_nominal_per_mwh": mt.lcoe(flows.capex_total, flows.opex, flows.decommissioning, flows.energy_mwh, r),
         "lcoe_real_per_mwh": mt.lcoe(flows.capex_total, flows.opex, flows.decommissioning, flows.energy_mwh, r,
@@ -45,15 +48,13 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
     }
     warnings: list[str] = []
     for key, cf in (("project_irr", flows.project_cash_flow), ("equity_irr", flows.equity_cash_flow)):
-        guess = (irr_guess or {}).get(key)
-        rates, reasons = mt.irr(cf, guess=guess if guess is not None and np.isfinite(guess) else 0.1)
+        rates, reasons = mt.irr(cf, guess=_irr_start(irr_guess, key))
         out[key] = rates
         if reasons:
             what = key.replace("_", " ")
             first = reasons[0][1]
             warnings.append(f"{what}: none in {len(reasons)} of {len(rates)} row(s) ({first})"
                             if len(rates) > 1 else f"{what} is null: {first}")
-    rate_i = inp("finance.debt.interest_rate", f.debt.interest_rate) if f.debt is not None else 0.0
     out["min_dscr"], out["avg_dscr"], out["llcr"], out["payback_year"] = mt.coverage(
         flows.dscr, flows.cfads, flows.debt_service, flows.debt, rate_i, flows.equity_cash_flow)
     if np.any(~np.isfinite(out["lcoe_nominal_per_mwh"])):
@@ -63,6 +64,67 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
     elif np.all(flows.debt <= 0):
         warnings.append("DSCR and LLCR are null: there is no debt")
     return out, warnings
+
+
+def _metric_rates(scn, inp: Inputs):
+    """(discount rate, inflation, equity target return, debt interest rate) of a batch."""
+    f = scn.finance
+    return (inp("finance.discount_rate", f.discount_rate), inp("finance.inflation", f.inflation),
+            inp("finance.equity_target_return", scn.equity_target_return),
+            inp("finance.debt.interest_rate", f.debt.interest_rate) if f.debt is not None else 0.0)
+
+
+def _irr_start(irr_guess: dict | None, key: str) -> float:
+    guess = (irr_guess or {}).get(key)
+    return guess if guess is not None and np.isfinite(guess) else 0.1
+
+
+TRIAL_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "equity_npv", "project_irr", "equity_irr",
+              "min_dscr", "avg_dscr", "llcr", "payback_year", "net_aep_year1_mwh", "net_aep_mean_mwh", "opex_mean")
+
+
+def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sample | None = None,
+                  schedule: Schedule, irr_guess: dict | None = None) -> dict:
+    """Monte Carlo metrics of a batch of trials whose debt is fixed at close, in one compiled pass.
+
+    The same figures as :func:`evaluate` with ``lean=True`` followed by the mean net
+    energy and O&M, but the yearly lines are never stored: ``lcoe.kernels.trial_rows``
+    runs them row by row from :func:`lcoe.cashflow.terms`. Returns TRIAL_KEYS plus
+    ``capex_total`` and ``debt_amount``, one value per trial.
+    """
+    tm = cashflow.terms(scn, energy, overrides, sample)
+    n, L = tm.inp.n, scn.lifetime
+    r, infl, eq, rate_i = _metric_rates(scn, tm.inp)
+
+    def yearly(a, cols=L):
+        a = np.asarray(a, float)
+        rows = a.shape[0] if a.ndim == 2 else 1
+        return np.ascontiguousarray(np.broadcast_to(a, (rows, cols)))
+
+    def per_row(a):
+        return np.ascontiguousarray(np.asarray(a, float).reshape(-1))
+
+    ratio = yearly(1.0) if tm.speed_ratio is None else yearly(tm.speed_ratio)
+    gross = per_row(tm.gross if tm.speed_gross is None else tm.speed_gross)
+    ef = per_row(1.0 if tm.energy_factor is None else tm.energy_factor)
+    cap = tm.capex[:1] if tm.capex.strides[0] == 0 else tm.capex   # one row where every trial shares it
+    capex = per_row(cap)
+    out = np.empty((len(TRIAL_KEYS), n))
+    status = np.empty((2, n), np.int8)
+    _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.availability), yearly(tm.downtime),
+                        yearly(tm.degradation), ef, yearly(tm.price + tm.credit), yearly(tm.fixed_real),
+                        per_row(tm.variable), yearly(tm.esc_index), per_row(tm.lease), yearly(tm.decom_t),
+                        yearly(tm.shares), per_row(tm.tax_rate), capex, yearly(schedule.interest),
+                        yearly(schedule.debt_service), per_row(-(cap + schedule.fee - schedule.debt)),
+                        yearly(mt.discount_factors(r, L + 1), L + 1),
+                        yearly(mt.discount_factors(mt.real_rate(r, infl), L + 1), L + 1),
+                        yearly(mt.discount_factors(eq, L + 1), L + 1), per_row(rate_i), per_row(schedule.debt),
+                        _irr_start(irr_guess, "project_irr"), _irr_start(irr_guess, "equity_irr"), 1e-9, 50,
+                        1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), out, status)
+    res = dict(zip(TRIAL_KEYS, out))
+    res["capex_total"] = np.broadcast_to(tm.capex, (n, 1))[:, 0].copy()
+    res["debt_amount"] = np.broadcast_to(np.asarray(schedule.debt, float).reshape(-1, 1), (n, 1))[:, 0].copy()
+    return res
 
 
 @dataclass

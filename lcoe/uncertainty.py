@@ -346,11 +346,19 @@ def _clip_inputs(scn, inputs: dict, warnings: list) -> dict:
     return out
 
 
-def run_trials(scn, case, inputs: dict, sample: Sample) -> dict:
-    """One chunk of trials through the engine (debt as sized at close). Returns key -> values."""
+def run_trials(scn, case, inputs: dict, sample: Sample, *, fused: bool = True) -> dict:
+    """One chunk of trials through the engine (debt as sized at close). Returns key -> values.
+
+    ``fused`` runs the compiled trial kernel (:func:`lcoe.model.trial_metrics`); without
+    it, or without numba, the chunk goes through :func:`lcoe.model.evaluate` with the
+    same results."""
+    guess = {k: case.metrics.get(k) for k in ("project_irr", "equity_irr")}
+    if fused and model._kernels is not None:
+        res = model.trial_metrics(scn, case.energy, overrides=inputs or None, sample=sample,
+                                  schedule=case.schedule, irr_guess=guess)
+        return {k: res[k] for k in SAMPLED_KEYS if k in res}
     flows, m, w = model.evaluate(scn, overrides=inputs or None, sample=sample, schedule=case.schedule,
-                                 energy=case.energy, lean=True,
-                                 irr_guess={k: case.metrics.get(k) for k in ("project_irr", "equity_irr")})
+                                 energy=case.energy, lean=True, irr_guess=guess)
     out = {k: m[k] for k in SAMPLED_KEYS if k in m}
     out["net_aep_year1_mwh"] = flows.energy_mwh[:, 1].copy()
     out["net_aep_mean_mwh"] = flows.energy_mwh[:, 1:].mean(axis=1)

@@ -95,3 +95,93 @@ def test_failure_kernel_counts_like_the_plain_inversion():
     # the counts follow the Poisson law they invert (scipy.stats.poisson mean)
     one = sum((u[2] > c).astype(float) for c in cdfs[2] if c < 1.0)
     assert one.mean() == pytest.approx(1.5, rel=0.03)
+
+
+# --------------------------------------------------------------------------- the fused trial kernel
+
+def _wide_vary(scn) -> dict:
+    """A uniform spread of +-15 % on every input a trial may vary without re-integrating the
+    curve (the hub speed through the mean speed; other wind and turbine keys integrate
+    each row afresh and are covered by the array path alone)."""
+    from lcoe.scenario import numeric_keys, numeric_value
+    vary = {}
+    for key in numeric_keys(scn):
+        if key.startswith(("project.", "turbine.")) or (key.startswith("wind.") and key != "wind.mean_speed_mps"):
+            continue
+        base = numeric_value(scn, key)
+        lo, hi = (0.85 * base, 1.15 * base) if base else (0.0, 0.02)
+        vary[key] = {"distribution": "uniform", "low": min(lo, hi), "high": max(lo, hi)}
+    return vary
+
+
+def _trials_both_ways(scn, n=3000, seed=4):
+    from lcoe import model, uncertainty as un
+    case = model.run(scn, breakeven=False)
+    inputs, sample = un.draw_block(scn, n, un._block_rng(seed, 0), scn.lifetime)
+    inputs = un._clip_inputs(scn, inputs, [])
+    fused = un.run_trials(scn, case, inputs, sample, fused=True)
+    plain = un.run_trials(scn, case, inputs, sample, fused=False)
+    return case, fused, plain
+
+
+def _assert_same_trials(case, fused, plain):
+    assert fused.keys() == plain.keys()
+    money = abs(case.metrics["project_npv"] or 0.0) + float(case.flows.capex_total[0, 0])
+    for key in fused:
+        a, b = fused[key], plain[key]
+        assert a.shape == b.shape, key
+        assert np.array_equal(np.isnan(a), np.isnan(b)), key
+        # the kernel sums the years in order, numpy pairwise: equal to rounding
+        atol = 1e-12 * money if "npv" in key else 1e-12
+        np.testing.assert_allclose(a, b, rtol=1e-11, atol=atol, equal_nan=True, err_msg=key)
+
+
+@pytest.mark.parametrize("which", ["demo", "hourly", "equity"])
+def test_trial_kernel_equals_the_array_engine_on_the_demo_scenarios(which):
+    from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY
+
+    from lcoe import scenario
+    scn = scenario.load({"demo": DEMO, "hourly": DEMO_HOURLY, "equity": DEMO_EQUITY}[which])
+    _assert_same_trials(*_trials_both_ways(scn))
+
+
+def test_trial_kernel_equals_the_array_engine_when_every_input_varies():
+    """Every price, cost, loss, rate and schedule key drawn per trial, the PPA price low
+    enough that some trials make losses (tax carried forward) and some have no IRR."""
+    from conftest import DEMO
+
+    from lcoe import scenario
+    raw = scenario.parse_toml(DEMO)
+    scn = scenario.load(DEMO)
+    vary = _wide_vary(scn)
+    vary["revenue.ppa_price_per_mwh"] = {"distribution": "uniform", "low": 0.0, "high": 90.0}
+    vary["revenue.merchant_price_per_mwh"] = {"distribution": "uniform", "low": 0.0, "high": 60.0}
+    raw["montecarlo"]["vary"] = vary
+    raw["montecarlo"]["correlation"] = []
+    wide = scenario.from_dict(raw, source=str(DEMO), base_dir=DEMO.parent)
+    case, fused, plain = _trials_both_ways(wide)
+    assert np.isnan(plain["project_irr"]).any() and np.isfinite(plain["project_irr"]).any()
+    assert (plain["payback_year"] > 0).any()
+    _assert_same_trials(case, fused, plain)
+    # and the outside reference for the two IRRs: numpy-financial on the engine's own rows,
+    # many of which change sign more than once (years where CFADS falls short of debt service)
+    from lcoe import model
+    flows, m, _ = model.evaluate(wide, overrides=_draw(wide, 600), schedule=case.schedule, energy=case.energy,
+                                 lean=True)
+    multi = 0
+    for key, cf in (("project_irr", flows.project_cash_flow), ("equity_irr", flows.equity_cash_flow)):
+        for row, rate in zip(cf, m[key]):
+            signs = np.sign(row[row != 0])
+            multi += np.count_nonzero(signs[1:] != signs[:-1]) > 1
+            ref = npf.irr(row)
+            if np.isfinite(ref) and -0.99 <= ref <= 10.0:
+                assert rate == pytest.approx(ref, abs=1e-9), (key, row)
+            else:
+                assert np.isnan(rate), (key, row)
+    assert multi > 20
+
+
+def _draw(scn, n):
+    from lcoe import uncertainty as un
+    inputs, _ = un.draw_block(scn, n, un._block_rng(9, 0), scn.lifetime)
+    return un._clip_inputs(scn, inputs, [])

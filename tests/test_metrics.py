@@ -157,3 +157,44 @@ def test_metrics_of_the_demo_against_numpy_financial(demo_scenario):
     assert m["min_dscr"][0] == pytest.approx((f.cfads[0, on] / f.debt_service[0, on]).min(), rel=1e-12)
     pv = npf.npv(0.055, np.where(on, f.cfads[0], 0.0))
     assert m["llcr"][0] == pytest.approx(pv / f.debt[0, 0], rel=1e-12)
+
+
+def test_flows_with_two_irrs_give_the_one_closest_to_zero():
+    """-100, +230, -132 has two IRRs, 10 % and 20 % (check: -100 + 230/1.1 - 132/1.1^2 = 0 and
+    -100 + 230/1.2 - 132/1.2^2 = 0, by hand); numpy-financial reports the one closest to zero,
+    and so does the engine, compiled and not. The other rows are numpy-financial's own
+    docstring examples (0.0886 and -0.0833 to 4 decimals)."""
+    rows = [[-100.0, 230.0, -132.0, 0.0, 0.0], [-5.0, 10.5, 1.0, -8.0, 1.0], [-100.0, 100.0, 0.0, -7.0, 0.0]]
+    want = [0.10, 0.0886, -0.0833]
+    compiled, _ = mt.irr(rows, guess=0.18)
+    assert compiled[0] == pytest.approx(0.10, abs=1e-12)
+    assert_allclose(compiled, [npf.irr(r) for r in rows], atol=1e-12)
+    assert_allclose(compiled, want, atol=5e-5)
+    saved, mt._kernels = mt._kernels, None
+    try:
+        plain, _ = mt.irr(rows, guess=0.18)
+    finally:
+        mt._kernels = saved
+    assert_allclose(plain, compiled, atol=1e-12)
+
+
+def end_of_life_flows(max_len=30):
+    """An outflow, inflows, then a closing outflow (decommissioning) and perhaps a bad year in
+    between: two or four sign changes. Tiny closing values are left out: numpy-financial's
+    polynomial roots lose their accuracy, or fail, when the last coefficient is near zero."""
+    return st.tuples(
+        st.floats(1.0, 1e6),
+        st.lists(st.floats(0.02, 0.4), min_size=3, max_size=max_len - 2),
+        st.floats(1e-3, 1.5), st.one_of(st.just(0.0), st.floats(1e-3, 0.5)), st.integers(1, 100),
+    ).map(lambda t: [-t[0]] + [t[0] * x if i != t[4] % len(t[1]) else -t[0] * t[3] for i, x in enumerate(t[1])]
+          + [-t[0] * t[2]])
+
+
+@settings(max_examples=300, deadline=None)
+@given(end_of_life_flows())
+def test_irr_of_flows_with_several_sign_changes_matches_numpy_financial(flows):
+    """Where numpy-financial finds an IRR in -99 % .. 1000 %, the engine gives the same one."""
+    ref = npf.irr(flows)
+    rate = float(mt.irr([flows])[0][0])
+    if np.isfinite(ref) and -0.99 <= ref <= 10.0:
+        assert rate == pytest.approx(ref, abs=1e-9)
