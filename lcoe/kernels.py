@@ -48,28 +48,41 @@ def _closest_root(c, found, x_low, x_high):
     """The rate closest to zero among the roots between x_low and x_high, given one root
     ``found`` (NaN if none was found). Cash flows that change sign more than once can
     have several IRRs; the one closest to zero is reported, as numpy-financial does.
-    Each side of zero is scanned outward on a grid of rates up to ``|found|`` (the whole
-    range when none was found) and the first sign change refined by bisection; roots
-    closer together than the grid's step can be missed."""
+    Each side of zero is scanned outward on a grid of 16 rates up to ``|found|`` (512
+    over the whole range when none was found) and the first sign change refined by
+    bisection; two roots closer together than the grid's step can be missed."""
     r_low = 1.0 / x_high - 1.0
     r_high = 1.0 / x_low - 1.0
     known = np.isfinite(found)
-    steps = 64 if known else 512
+    steps = 16 if known else 512
     best = found
     f0, _ = _npv_x(c, 1.0)
     if f0 == 0.0:
         return 0.0
+    xs = np.empty(steps)
+    fs = np.empty(steps)
     for side in (1.0, -1.0):
         limit = r_high if side > 0 else r_low
         span = abs(found) if known else abs(limit)
-        prev_x, prev_f = 1.0, f0
+        m = 0
         for k in range(1, steps + 1):
             r = side * span * k / steps
             if (side > 0 and r >= r_high) or (side < 0 and r <= r_low):
                 break
-            x = 1.0 / (1.0 + r)
-            fx, _ = _npv_x(c, x)
+            xs[m] = 1.0 / (1.0 + r)
+            m += 1
+        # the polynomial at every grid point in one pass (Horner's rule, independent lanes)
+        fs[:m] = 0.0
+        for j in range(c.shape[0] - 1, -1, -1):
+            cj = c[j]
+            for k in range(m):
+                fs[k] = fs[k] * xs[k] + cj
+        prev_x, prev_f = 1.0, f0
+        for k in range(m):
+            x, fx = xs[k], fs[k]
             if fx == 0.0 or np.sign(fx) != np.sign(prev_f):
+                if known and k == steps - 1 and side * found > 0:
+                    break           # the last step ends at the root already found
                 cand = 1.0 / x - 1.0 if fx == 0.0 else 1.0 / _bisect_x(c, prev_x, x, prev_f) - 1.0
                 if not np.isfinite(best) or abs(cand) < abs(best):
                     best = cand
