@@ -92,11 +92,8 @@ def _closest_root(c, found, x_low, x_high):
 
 
 @njit(cache=True, nogil=True)
-def _irr_one(c, x0, tol, max_iter, x_low, x_high):
-    """IRR of one row of cash flows ``c``: Halley's method (Newton's with the second
-    derivative) on x = 1 / (1 + r) from x0, bisection on [x_low, x_high] where it fails;
-    where the flows change sign more than once, the root closest to zero
-    (:func:`_closest_root`). Returns (rate, status)."""
+def _sign_changes(c):
+    """(how often the row ``c`` changes sign, zeros skipped; whether every value is finite)."""
     changes = 0
     last = 0.0
     finite = True
@@ -109,28 +106,65 @@ def _irr_one(c, x0, tol, max_iter, x_low, x_high):
             if last != 0.0 and sv != last:
                 changes += 1
             last = sv
+    return changes, finite
+
+
+CONTINUE, CONVERGED, FAILED = 0, 1, 2
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _halley_step(f, d, dd, x, tol):
+    """Halley's step (Newton's with the second derivative: cubic convergence near the
+    root) from x, given f, f' and f'' there. Returns (new x, CONTINUE / CONVERGED / FAILED)."""
+    den = 2.0 * d * d - f * dd
+    if den != 0.0:
+        step = 2.0 * f * d / den
+    elif d != 0.0:
+        step = f / d
+    else:
+        return x, FAILED
+    xn = x - step
+    if not np.isfinite(xn) or xn <= 0:
+        return x, FAILED
+    if abs(step) <= tol * max(1.0, abs(xn)):
+        return xn, CONVERGED
+    return xn, CONTINUE
+
+
+@njit(cache=True, nogil=True)
+def _halley_pair(a, b, xa, xb, tol, max_iter):
+    """Halley's method on two rows of cash flows of one length at once, from xa and xb
+    (x = 1 / (1 + r)); f, f' and f'' by Horner's rule. The two rows' sums are
+    independent, so the processor works on both together. Returns the two rates (NaN
+    where the iteration did not converge)."""
+    sa = CONTINUE
+    sb = CONTINUE
+    for _ in range(max_iter):
+        fa = da = dda = 0.0
+        fb = db = ddb = 0.0
+        for k in range(a.shape[0] - 1, -1, -1):
+            dda = dda * xa + 2.0 * da
+            da = da * xa + fa
+            fa = fa * xa + a[k]
+            ddb = ddb * xb + 2.0 * db
+            db = db * xb + fb
+            fb = fb * xb + b[k]
+        if sa == CONTINUE:
+            xa, sa = _halley_step(fa, da, dda, xa, tol)
+        if sb == CONTINUE:
+            xb, sb = _halley_step(fb, db, ddb, xb, tol)
+        if sa != CONTINUE and sb != CONTINUE:
+            break
+    return (1.0 / xa - 1.0 if sa == CONVERGED else np.nan), (1.0 / xb - 1.0 if sb == CONVERGED else np.nan)
+
+
+@njit(cache=True, nogil=True)
+def _irr_finish(c, rate, changes, finite, x_low, x_high):
+    """The IRR of a row from Halley's result ``rate`` (NaN if it failed): bisection on
+    [x_low, x_high] where it failed; where the flows change sign more than once, the
+    root closest to zero (:func:`_closest_root`). Returns (rate, status)."""
     if changes == 0 or not finite:
         return np.nan, (NO_SIGN_CHANGE if finite else NO_ROOT)
-    rate = np.nan
-    x = x0
-    for _ in range(max_iter):
-        # Halley's step (f, f', f'' by Horner's rule): cubic convergence near the root
-        f = 0.0
-        d = 0.0
-        dd = 0.0
-        for k in range(c.shape[0] - 1, -1, -1):
-            dd = dd * x + 2.0 * d
-            d = d * x + f
-            f = f * x + c[k]
-        den = 2.0 * d * d - f * dd
-        step = 2.0 * f * d / den if den != 0.0 else f / d
-        xn = x - step
-        if not np.isfinite(xn) or xn <= 0:
-            break
-        x = xn
-        if abs(step) <= tol * max(1.0, abs(xn)):
-            rate = 1.0 / x - 1.0
-            break
     if not np.isfinite(rate):
         flo, _ = _npv_x(c, x_low)
         fhi, _ = _npv_x(c, x_high)
@@ -144,14 +178,28 @@ def _irr_one(c, x0, tol, max_iter, x_low, x_high):
 
 
 @njit(cache=True, nogil=True)
+def _irr_pair(a, b, xa, xb, tol, max_iter, x_low, x_high):
+    """IRRs of two rows of one length: Halley's method from xa and xb (both rows at once),
+    then :func:`_irr_finish`. Returns (rate a, status a, rate b, status b)."""
+    ca, fin_a = _sign_changes(a)
+    cb, fin_b = _sign_changes(b)
+    ra, rb = _halley_pair(a, b, xa, xb, tol, max_iter)
+    ra, st_a = _irr_finish(a, ra, ca, fin_a, x_low, x_high)
+    rb, st_b = _irr_finish(b, rb, cb, fin_b, x_low, x_high)
+    return ra, st_a, rb, st_b
+
+
+@njit(cache=True, nogil=True)
 def irr_rows(c, guess, tol, max_iter, x_low, x_high):
-    """IRR of each row of ``c`` (rows, periods) by :func:`_irr_one`. Returns (rates, status)."""
+    """IRR of each row of ``c`` (rows, periods), two rows at a time (:func:`_irr_pair`),
+    every row from x = 1 / (1 + guess). Returns (rates, status)."""
     n = c.shape[0]
     rates = np.full(n, np.nan)
     status = np.zeros(n, np.int8)
     x0 = 1.0 / (1.0 + guess)
-    for i in range(n):
-        rates[i], status[i] = _irr_one(c[i], x0, tol, max_iter, x_low, x_high)
+    for i in range(0, n, 2):
+        j = min(i + 1, n - 1)
+        rates[i], status[i], rates[j], status[j] = _irr_pair(c[i], c[j], x0, x0, tol, max_iter, x_low, x_high)
     return rates, status
 
 
@@ -383,8 +431,8 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
         out[1, i] = cost / en_real if en_real > 0 else np.nan
         out[2, i] = npv_project
         out[3, i] = npv_equity
-        out[4, i], status[0, i] = _irr_one(project, x_project, tol, max_iter, x_low, x_high)
-        out[5, i], status[1, i] = _irr_one(equity, x_equity, tol, max_iter, x_low, x_high)
+        out[4, i], status[0, i], out[5, i], status[1, i] = _irr_pair(project, equity, x_project, x_equity, tol,
+                                                                    max_iter, x_low, x_high)
         out[6, i], out[7, i], out[8, i], out[9, i] = _coverage_one(dscr, cfads, ds_row, debt[dbi], debt_rate[dri],
                                                                    equity)
         out[10, i] = year1

@@ -185,3 +185,12 @@ def _draw(scn, n):
     from lcoe import uncertainty as un
     inputs, _ = un.draw_block(scn, n, un._block_rng(9, 0), scn.lifetime)
     return un._clip_inputs(scn, inputs, [])
+
+
+def test_irr_two_rows_at_a_time_equals_one_row_at_a_time(flows):
+    """The IRR kernel iterates rows in pairs; an odd batch, and each row alone, give the same rates."""
+    odd = flows[:257]
+    batch, why = mt.irr(odd)
+    alone = [mt.irr(row[None, :]) for row in odd]
+    np.testing.assert_array_equal(batch, np.concatenate([a for a, _ in alone]))
+    assert why == [(i, w[0][1]) for i, (_, w) in enumerate(alone) if w]
