@@ -250,23 +250,21 @@ def interp_uniform(x, x0, h, fp, out):
 
 
 @njit(cache=True, nogil=True)
-def _coverage_one(dscr, cfads, debt_service, debt, r, equity):
-    """(min DSCR, average DSCR, LLCR, payback year) of one row; see :func:`coverage_rows`."""
+def _coverage_one(dscr, cfads, debt_service, debt, disc, equity):
+    """(min DSCR, average DSCR, LLCR, payback year) of one row; ``disc`` holds the
+    discount factors at the debt's interest rate; see :func:`coverage_rows`."""
     lo = np.inf
     total = 0.0
     count = 0
     pv = 0.0
-    disc = 1.0
     for t in range(dscr.shape[0]):
-        if t > 0:
-            disc /= 1.0 + r
         if debt_service[t] > 0:
             d = dscr[t]
             if np.isfinite(d):
                 lo = min(lo, d)
                 total += d
                 count += 1
-            pv += cfads[t] * disc
+            pv += cfads[t] * disc[t]
     mn = np.nan
     avg = np.nan
     llcr = np.nan
@@ -286,11 +284,12 @@ def _coverage_one(dscr, cfads, debt_service, debt, r, equity):
 
 
 @njit(cache=True, nogil=True)
-def coverage_rows(dscr, cfads, debt_service, debt, rate, equity):
+def coverage_rows(dscr, cfads, debt_service, debt, disc, equity):
     """Per row: minimum and average DSCR over the years with debt service, the LLCR (PV
-    at the interest rate of CFADS over those years, over the debt) and the first year in
-    which the cumulative equity cash flow is non-negative. Arrays are (rows, L + 1) with
-    column 0 = t = 0; ``debt_service`` may have one row for all."""
+    at the interest rate of CFADS over those years, over the debt; ``disc`` the discount
+    factors at that rate) and the first year in which the cumulative equity cash flow is
+    non-negative. Arrays are (rows, L + 1) with column 0 = t = 0; ``debt_service`` and
+    ``disc`` may have one row for all."""
     n = dscr.shape[0]
     one_ds = debt_service.shape[0] == 1
     mn = np.full(n, np.nan)
@@ -299,7 +298,7 @@ def coverage_rows(dscr, cfads, debt_service, debt, rate, equity):
     payback = np.full(n, np.nan)
     for i in range(n):
         mn[i], avg[i], llcr[i], payback[i] = _coverage_one(dscr[i], cfads[i], debt_service[0 if one_ds else i],
-                                                           debt[i], rate[i], equity[i])
+                                                           debt[i], disc[_row(disc, i)], equity[i])
     return mn, avg, llcr, payback
 
 
@@ -307,8 +306,9 @@ def coverage_rows(dscr, cfads, debt_service, debt, rate, equity):
 def add_failures_many(u, cdf, cost_per_event, days_per_event, turbines, cost, downtime):
     """Failure counts of several components, by inverting each one's Poisson CDF (one
     uniform per turbine-fleet year), with their cost and downtime share added to
-    ``cost`` and ``downtime``: ``u`` (components, rows, years) uniforms; ``cdf`` (components, steps) padded with 1.0; ``cost_per_event`` and
-    ``days_per_event`` (components, rows). The count is the number of CDF steps below u,
+    ``cost`` and ``downtime``: ``u`` (components, rows, years) uniforms; ``cdf``
+    (components, steps) padded with 1.0; ``cost_per_event`` and ``days_per_event``
+    (components, rows). The count is the number of CDF steps below u,
     summed step by step without branches; each row's years are summed over the
     components before they are added, so memory is read and written once."""
     comps, n, years = u.shape
@@ -347,14 +347,15 @@ def _row(a, i):
 @njit(cache=True, nogil=True)
 def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, energy_factor, price_credit,
                fixed_real, variable, esc_index, lease, decom, shares, tax_rate, capex, interest, debt_service,
-               equity0, dc_nominal, dc_real, dc_equity, debt_rate, debt, guess_project, guess_equity, tol,
+               equity0, dc_nominal, dc_real, dc_equity, dc_debt, debt, guess_project, guess_equity, tol,
                max_iter, x_low, x_high, out, status):
     """The lean yearly lines and every Monte Carlo metric of each trial, one row at a time.
 
     The same formulas, in the same order of operations, as ``lcoe.cashflow.evaluate``
     and ``lcoe.model.batch_metrics`` (tests/test_kernels.py holds the two to each
     other), without (trials, years) arrays in between. Yearly arguments are (1 or n, L)
-    over t = 1..L, discount factors (1 or n, L + 1) from t = 0, per-trial values (1 or n,).
+    over t = 1..L, discount factors (1 or n, L + 1) from t = 0 (nominal, real, equity
+    target and debt interest rate), per-trial values (1 or n,).
     ``out`` (13, n) receives, in this order: LCOE nominal and real, project NPV, equity
     NPV, project IRR, equity IRR, minimum and average DSCR, LLCR, payback year, year-1
     and mean net energy, mean O&M; ``status`` (2, n) the IRR status of each trial.
@@ -380,7 +381,7 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
             _row(lease, i)
         dci, shi, tri, ci = _row(decom, i), _row(shares, i), _row(tax_rate, i), _row(capex, i)
         ii, dsi, e0i = _row(interest, i), _row(debt_service, i), _row(equity0, i)
-        ni, rli, eqi, dri, dbi = _row(dc_nominal, i), _row(dc_real, i), _row(dc_equity, i), _row(debt_rate, i), \
+        ni, rli, eqi, dri, dbi = _row(dc_nominal, i), _row(dc_real, i), _row(dc_equity, i), _row(dc_debt, i), \
             _row(debt, i)
         cap = capex[ci]
         cost = 0.0
@@ -433,7 +434,7 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
         out[3, i] = npv_equity
         out[4, i], status[0, i], out[5, i], status[1, i] = _irr_pair(project, equity, x_project, x_equity, tol,
                                                                     max_iter, x_low, x_high)
-        out[6, i], out[7, i], out[8, i], out[9, i] = _coverage_one(dscr, cfads, ds_row, debt[dbi], debt_rate[dri],
+        out[6, i], out[7, i], out[8, i], out[9, i] = _coverage_one(dscr, cfads, ds_row, debt[dbi], dc_debt[dri],
                                                                    equity)
         out[10, i] = year1
         out[11, i] = energy_sum / L

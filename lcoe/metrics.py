@@ -218,10 +218,10 @@ def coverage(dscr, cfads, debt_service, debt, rate, equity_cash_flow):
     :func:`llcr` and :func:`payback_year` define them (one compiled pass where available)."""
     n = np.shape(cfads)[0]
     if _kernels is not None:
-        rows = np.ascontiguousarray(np.broadcast_to(np.asarray(rate, float).reshape(-1, 1), (n, 1))[:, 0])
+        disc = np.atleast_2d(discount_factors(rate, np.shape(cfads)[-1]))
         debt_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(debt, float).reshape(-1, 1), (n, 1))[:, 0])
         return _kernels.coverage_rows(np.ascontiguousarray(dscr, dtype=float), np.ascontiguousarray(cfads, dtype=float),
-                                      np.ascontiguousarray(debt_service, dtype=float), debt_rows, rows,
-                                      np.ascontiguousarray(equity_cash_flow, dtype=float))
+                                      np.ascontiguousarray(debt_service, dtype=float), debt_rows,
+                                      np.ascontiguousarray(disc), np.ascontiguousarray(equity_cash_flow, dtype=float))
     mn, avg = dscr_stats(dscr)
     return mn, avg, llcr(cfads, debt_service, debt, rate), payback_year(equity_cash_flow)

@@ -104,6 +104,9 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     def per_row(a):
         return np.ascontiguousarray(np.asarray(a, float).reshape(-1))
 
+    def disc(rate):
+        return yearly(mt.discount_factors(rate, L + 1), L + 1)
+
     ratio = yearly(1.0) if tm.speed_ratio is None else yearly(tm.speed_ratio)
     gross = per_row(tm.gross if tm.speed_gross is None else tm.speed_gross)
     ef = per_row(1.0 if tm.energy_factor is None else tm.energy_factor)
@@ -116,9 +119,7 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
                         per_row(tm.variable), yearly(tm.esc_index), per_row(tm.lease), yearly(tm.decom_t),
                         yearly(tm.shares), per_row(tm.tax_rate), capex, yearly(schedule.interest),
                         yearly(schedule.debt_service), per_row(-(cap + schedule.fee - schedule.debt)),
-                        yearly(mt.discount_factors(r, L + 1), L + 1),
-                        yearly(mt.discount_factors(mt.real_rate(r, infl), L + 1), L + 1),
-                        yearly(mt.discount_factors(eq, L + 1), L + 1), per_row(rate_i), per_row(schedule.debt),
+                        disc(r), disc(mt.real_rate(r, infl)), disc(eq), disc(rate_i), per_row(schedule.debt),
                         _irr_start(irr_guess, "project_irr"), _irr_start(irr_guess, "equity_irr"), 1e-9, 50,
                         1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), out, status)
     res = dict(zip(TRIAL_KEYS, out))
