@@ -14,6 +14,9 @@ Each trial draws
 The debt stays as sized at close: every trial meets the base case's schedule.
 Trials run in chunks, so memory grows with the chunk, not with the trial count; the
 random numbers are drawn in fixed blocks, so the chunk size does not change results.
+A chunk's terms come from the same engine as a deterministic run
+(:func:`lcoe.cashflow.terms`); its yearly lines and metrics are then worked out in one
+compiled pass (:func:`lcoe.model.trial_metrics`), held by the tests to the array route.
 """
 
 from __future__ import annotations
