@@ -126,7 +126,7 @@ def _halley_step(f, d, dd, x, tol):
     xn = x - step
     if not np.isfinite(xn) or xn <= 0:
         return x, FAILED
-    if abs(step) <= tol * max(1.0, abs(xn)):
+    if abs(step) <= tol * abs(xn):
         return xn, CONVERGED
     return xn, CONTINUE
 

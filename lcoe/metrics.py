@@ -85,7 +85,7 @@ def irr(values, *, guess=0.1, tol=1e-9, max_iter=50):
             step = f / d
             xn = xi - step
             bad = ~np.isfinite(xn) | (xn <= 0)
-            conv = ~bad & (np.abs(step) <= tol * np.maximum(1.0, np.abs(xn)))
+            conv = ~bad & (np.abs(step) <= tol * np.abs(xn))
             x[idx] = np.where(bad, xi, xn)
             done[idx[conv]] = True
             active[idx[conv | bad]] = False
