@@ -189,7 +189,6 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
     repeat = max(1, repeat)
     slices = [range(m * k // repeat, m * (k + 1) // repeat) for k in range(repeat)]
     runs, loop_s, parts = [], 0.0, []
-    mc = None
     for rows in slices:
         mc = None                               # one result held at a time, as in a user's run
         t0 = time.perf_counter()

@@ -1,12 +1,14 @@
 """Compiled inner loops of the batch engine (numba), one row at a time.
 
-Two calculations are sequential by nature and cost the most in a large batch: the
-IRR of each row (an iteration per row) and the tax of each row with losses carried
-forward (a recurrence over the years). Here they run as compiled loops over the rows,
-releasing the GIL so that Monte Carlo chunks on several threads run at once. The
-arithmetic is the same as the array formulas documented in :mod:`lcoe.metrics` and
-:mod:`lcoe.cashflow`; the results agree with numpy-financial and with those formulas
-(tests/test_kernels.py).
+Some calculations are sequential by nature and cost the most in a large batch: the
+IRR of each row (an iteration per row), the tax of each row with losses carried
+forward (a recurrence over the years), the coverage ratios and the failure counts.
+Here they run as compiled loops over the rows, releasing the GIL so that Monte Carlo
+chunks on several threads run at once. :func:`trial_rows` goes further for Monte Carlo
+trials: each trial's yearly lines and every metric in one pass, without storing the
+lines. The arithmetic is the same as the array formulas documented in
+:mod:`lcoe.metrics`, :mod:`lcoe.cashflow` and :mod:`lcoe.model`; the results agree
+with numpy-financial and with those formulas (tests/test_kernels.py).
 """
 
 from __future__ import annotations
