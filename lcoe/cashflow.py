@@ -277,9 +277,8 @@ class Terms:
     inp: Inputs
     years: np.ndarray
     gross: object             # (n, 1) or float: gross AEP at the rows' mean speed [MWh/yr]
-    gross_t: object           # gross AEP of each year with the trial's speed factors [MWh/yr]
     speed_ratio: object       # None, or (n, L) AEP(f)/AEP(1) of the trials' speed factors ...
-    speed_gross: object       # ... multiplied by this gross AEP: gross_t = speed_gross * speed_ratio
+    speed_gross: object       # ... multiplied by this gross AEP (see gross_t)
     loss_factor: object       # product of (1 - loss)
     availability: object
     downtime: object
@@ -298,6 +297,10 @@ class Terms:
     shares: object            # depreciation share of each year (the depreciation is capex * shares)
     tax_rate: object
     warnings: list
+
+    def gross_t(self):
+        """Gross AEP of each year with the trials' speed factors (without them, the rows'). [MWh/yr]"""
+        return self.gross if self.speed_ratio is None else self.speed_gross * self.speed_ratio
 
 
 def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: Sample | None = None) -> Terms:
@@ -319,9 +322,6 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
             speed_gross, speed_ratio = site.gross_aep_mwh, site.ratio_at_factor(key_factor * sample.speed_factor)
         else:
             speed_gross, speed_ratio = gross, site.ratio_at_factor(sample.speed_factor)
-        gross_t = speed_gross * speed_ratio
-    else:
-        gross_t = gross
 
     # ---- energy (t = 1..L)
     lf = 1.0
@@ -401,7 +401,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
         shares = depreciation_shares(f.depreciation, int(dep_years), L)
     else:
         shares = np.vstack([depreciation_shares(f.depreciation, int(round(y)), L) for y in dep_years.ravel()])
-    return Terms(inp=inp, years=years, gross=gross, gross_t=gross_t, speed_ratio=speed_ratio,
+    return Terms(inp=inp, years=years, gross=gross, speed_ratio=speed_ratio,
                  speed_gross=speed_gross, loss_factor=lf, availability=avail, downtime=downtime, degradation=degr,
                  energy_factor=None if sample is None else sample.energy_factor, p50=p50, factors=factors,
                  price=price, credit=credit, capex=capex, fixed_real=(fixed + insurance) * plant_kw + fail + overhaul,
@@ -428,10 +428,10 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     energy_line = _line(inp.n, L, 0.0)
     energy_t = energy_line[:, 1:]
     if tm.energy_factor is not None:
-        np.multiply(tm.gross_t * tm.loss_factor * tm.availability * (1.0 - tm.downtime) * tm.degradation,
+        np.multiply(tm.gross_t() * tm.loss_factor * tm.availability * (1.0 - tm.downtime) * tm.degradation,
                     tm.energy_factor, out=energy_t)
     else:
-        np.multiply(tm.gross_t * tm.loss_factor * tm.availability * (1.0 - tm.downtime), tm.degradation,
+        np.multiply(tm.gross_t() * tm.loss_factor * tm.availability * (1.0 - tm.downtime), tm.degradation,
                     out=energy_t)
     price, credit, decom_t, capex, tax_rate = tm.price, tm.credit, tm.decom_t, tm.capex, tm.tax_rate
     dep = capex * tm.shares
