@@ -350,7 +350,7 @@ def _row(a, i):
 def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, energy_factor, price_credit,
                fixed_real, variable, esc_index, lease, decom, shares, tax_rate, capex, interest, debt_service,
                equity0, dc_nominal, dc_real, dc_equity, dc_debt, debt, guess_project, guess_equity, tol,
-               max_iter, x_low, x_high, out, status):
+               max_iter, x_low, x_high, out):
     """The lean yearly lines and every Monte Carlo metric of each trial, one row at a time.
 
     The same formulas, in the same order of operations, as ``lcoe.cashflow.evaluate``
@@ -360,7 +360,7 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
     target and debt interest rate), per-trial values (1 or n,).
     ``out`` (13, n) receives, in this order: LCOE nominal and real, project NPV, equity
     NPV, project IRR, equity IRR, minimum and average DSCR, LLCR, payback year, year-1
-    and mean net energy, mean O&M; ``status`` (2, n) the IRR status of each trial.
+    and mean net energy, mean O&M (NaN where a metric does not exist).
     """
     n = out.shape[1]
     L = ratio.shape[1]
@@ -434,11 +434,10 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
         out[1, i] = cost / en_real if en_real > 0 else np.nan
         out[2, i] = npv_project
         out[3, i] = npv_equity
-        out[4, i], status[0, i], out[5, i], status[1, i] = _irr_pair(project, equity, x_project, x_equity, tol,
-                                                                    max_iter, x_low, x_high)
+        out[4, i], _, out[5, i], _ = _irr_pair(project, equity, x_project, x_equity, tol, max_iter, x_low, x_high)
         out[6, i], out[7, i], out[8, i], out[9, i] = _coverage_one(dscr, cfads, ds_row, debt[dbi], dc_debt[dri],
                                                                    equity)
         out[10, i] = year1
         out[11, i] = energy_sum / L
         out[12, i] = opex_sum / L
-    return out, status
+    return out

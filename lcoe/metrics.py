@@ -116,8 +116,8 @@ def _sign_changes(c):
 def _closest_root(c, found):
     """The IRR closest to zero of flows that change sign more than once (they can have
     several): the real roots x > 0 of sum c_t x^t (numpy.roots, as numpy-financial finds
-    them), rates kept within [IRR_LOW, IRR_HIGH] or equal to ``found``, each polished by
-    two Newton steps."""
+    them), rates kept within [IRR_LOW, IRR_HIGH], each polished by two Newton steps, and
+    ``found``."""
     x = np.roots(c[::-1])
     x = x[(np.abs(x.imag) <= 1e-9 * np.abs(x)) & (x.real > 0)].real
     ct = c.reshape(-1, 1)
@@ -126,7 +126,7 @@ def _closest_root(c, found):
         with np.errstate(all="ignore"):
             x = np.where(d != 0, x - f / d, x)
     r = 1.0 / x - 1.0
-    r = r[((r >= IRR_LOW) & (r <= IRR_HIGH)) | np.isclose(r, found, rtol=1e-9, atol=1e-12)]
+    r = r[(r >= IRR_LOW) & (r <= IRR_HIGH)]
     if np.isfinite(found):
         r = np.append(r, found)
     return float(r[np.argmin(np.abs(r))]) if r.size else np.nan

@@ -113,7 +113,6 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     cap = tm.capex[:1] if tm.capex.strides[0] == 0 else tm.capex   # one row where every trial shares it
     capex = per_row(cap)
     out = np.empty((len(TRIAL_KEYS), n))
-    status = np.empty((2, n), np.int8)
     _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.availability), yearly(tm.downtime),
                         yearly(tm.degradation), ef, yearly(tm.price + tm.credit), yearly(tm.fixed_real),
                         per_row(tm.variable), yearly(tm.esc_index), per_row(tm.lease), yearly(tm.decom_t),
@@ -121,7 +120,7 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
                         yearly(schedule.debt_service), per_row(-(cap + schedule.fee - schedule.debt)),
                         disc(r), disc(mt.real_rate(r, infl)), disc(eq), disc(rate_i), per_row(schedule.debt),
                         _irr_start(irr_guess, "project_irr"), _irr_start(irr_guess, "equity_irr"), 1e-9, 50,
-                        1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), out, status)
+                        1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), out)
     res = dict(zip(TRIAL_KEYS, out))
     res["capex_total"] = np.broadcast_to(tm.capex, (n, 1))[:, 0].copy()
     res["debt_amount"] = np.broadcast_to(np.asarray(schedule.debt, float).reshape(-1, 1), (n, 1))[:, 0].copy()
