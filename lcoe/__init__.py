@@ -4,7 +4,7 @@ The flow runs one way: scenario -> resource/turbine -> energy -> costs -> cashfl
 -> metrics -> uncertainty/sensitivity -> report/workbook/UI.
 """
 
-from lcoe.errors import ScenarioError
+from lcoe.inputs.errors import ScenarioError
 
 __version__ = "0.1.0"
 

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from lcoe import scenario as sc
+from lcoe.inputs import scenario as sc
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "assumptions" / "tallowmere_ridge.toml"

@@ -1,7 +1,7 @@
 """The Streamlit app (ui/app.py) through Streamlit's AppTest, and the `lcoe app` command.
 
 The app is thin: the reference for every figure it shows is the engine itself
-(lcoe.model.run on the same scenario, formatted by lcoe.report.fmt). Downloads are
+(lcoe.engine.run on the same scenario, formatted by lcoe.outputs.report.fmt). Downloads are
 read back from Streamlit's media store, the bytes a browser would receive.
 """
 
@@ -15,10 +15,16 @@ import zipfile
 from urllib.parse import urlparse
 
 import pytest
-
 from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, ROOT, make_raw, require_tool
-from lcoe import CAUTION, appcmd, cli, model, report as rp, scenario as sc
-from lcoe.errors import ScenarioError
+
+from lcoe import cli
+from lcoe import engine as model
+from lcoe.analysis import study
+from lcoe.cli import app as appcmd
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.about import CAUTION
+from lcoe.inputs.errors import ScenarioError
+from lcoe.outputs import report as rp
 
 AppTest = pytest.importorskip("streamlit.testing.v1").AppTest
 import streamlit.testing.v1.app_test as app_test_module  # noqa: E402
@@ -253,7 +259,7 @@ def test_yearly_csv_download_is_the_cli_table(media, tmp_path):
     at = start()
     data = download(at, media, "dl_csv")
     path = tmp_path / "cli.csv"
-    cli.write_annual_csv(rp.Report(model.run(sc.load(DEMO))), path)
+    rp.write_annual_csv(study.Report(model.run(sc.load(DEMO))), path)
     assert data == path.read_bytes()
     rows = list(csv.DictReader(io.StringIO(data.decode())))
     assert [int(r["year"]) for r in rows] == list(range(0, 26))
@@ -265,7 +271,7 @@ WORKBOOK_CHANGES = {"project.lifetime_years": 28, "maintenance.fixed_per_kw_year
 @pytest.fixture(scope="module")
 def workbook_download():
     """(bytes of the workbook download after changing inputs, the engine's case of those inputs)."""
-    pytest.importorskip("lcoe.workbook")
+    pytest.importorskip("lcoe.outputs.workbook")
     with pytest.MonkeyPatch.context() as mp:
         _Recording.made = []
         mp.setattr(app_test_module, "MediaFileManager", _Recording)
@@ -280,7 +286,7 @@ def workbook_download():
 
 def _named_cells(wb) -> dict:
     """Defined name -> (sheet, row, column) of the metric names on the workbook."""
-    from openpyxl.utils.cell import coordinate_from_string, column_index_from_string
+    from openpyxl.utils.cell import column_index_from_string, coordinate_from_string
     out = {}
     for key in model.METRIC_KEYS:
         assert key in wb.defined_names, f"defined name {key} missing"
@@ -394,7 +400,7 @@ def test_valid_upload_gives_the_engines_figures():
 # --------------------------------------------------------------------------- Monte Carlo on demand
 
 def test_monte_carlo_on_demand_matches_the_engine():
-    unc = pytest.importorskip("lcoe.uncertainty")
+    unc = pytest.importorskip("lcoe.analysis.montecarlo")
     at = start(view="Monte Carlo")
     assert not at.dataframe  # nothing until asked
     at.number_input(key="mc_trials").set_value(2000)
@@ -424,12 +430,14 @@ def test_app_command_finds_the_app_and_serves_it_headless():
 
 
 def test_app_command_without_the_app_says_so(monkeypatch, capsys, tmp_path):
-    assert appcmd.find_app(tmp_path) is None
-    monkeypatch.setattr(appcmd, "find_app", lambda root=None: None)
+    monkeypatch.setattr(appcmd.importlib.util, "find_spec", lambda name: None)
+    assert appcmd.find_app() is None
+    monkeypatch.undo()
+    monkeypatch.setattr(appcmd, "find_app", lambda: None)
     assert cli.main(["app"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1
-    assert "error: the app is not installed:" in err and "ui/app.py not found" in err.replace("\\", "/")
+    assert "error: the app is not installed:" in err and "lcoe.ui has no app.py" in err
 
 
 def test_app_command_refuses_a_bad_port(capsys):

@@ -1,7 +1,7 @@
 """The app in a real browser: served by `lcoe app`, opened in headless Chromium.
 
-The reference for every figure on the page is the engine itself (lcoe.model.run on the
-same scenario file, formatted by lcoe.report.fmt): the app must show exactly those.
+The reference for every figure on the page is the engine itself (lcoe.engine.run on the
+same scenario file, formatted by lcoe.outputs.report.fmt): the app must show exactly those.
 """
 
 from __future__ import annotations
@@ -14,9 +14,12 @@ import time
 import urllib.request
 
 import pytest
-
 from conftest import DEMO, ROOT, require_tool
-from lcoe import CAUTION, model, report as rp, scenario as sc
+
+from lcoe import engine as model
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.about import CAUTION
+from lcoe.outputs import report as rp
 
 pytestmark = pytest.mark.slow
 

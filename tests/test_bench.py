@@ -7,7 +7,11 @@ import numpy as np
 import pytest
 from conftest import DEMO, make_raw, make_scenario
 
-from lcoe import bench, energy as en, model, scenario, uncertainty
+from lcoe import engine as model
+from lcoe.analysis import montecarlo as uncertainty
+from lcoe.cli import bench
+from lcoe.inputs import scenario
+from lcoe.physics import energy as en
 
 
 @pytest.mark.parametrize("which", ["demo", "tax_losses_macrs"])

@@ -6,15 +6,15 @@ from __future__ import annotations
 import numpy as np
 import numpy_financial as npf
 import pytest
+from conftest import make_raw, make_scenario
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from lcoe import cashflow, model
-from lcoe import scenario as sc
-from lcoe.cashflow import Sample
-
-from conftest import make_raw, make_scenario
+from lcoe import engine as model
+from lcoe.finance import cashflow
+from lcoe.finance.cashflow import Sample
+from lcoe.inputs import scenario as sc
 
 # --------------------------------------------------------------------------- depreciation
 

@@ -9,11 +9,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import make_scenario
 from numpy.testing import assert_allclose
 
-from lcoe import costs, model
-
-from conftest import make_scenario
+from lcoe import engine as model
+from lcoe.finance import costs
 
 
 def test_capex_total_with_contingency():

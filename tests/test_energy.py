@@ -6,14 +6,13 @@ import math
 
 import numpy as np
 import pytest
+from conftest import ROOT, make_raw, make_scenario
 from numpy.testing import assert_allclose
 from scipy.special import gamma
 from scipy.stats import norm, weibull_min
 
-from lcoe import energy as en
-from lcoe import turbine as tb
-
-from conftest import ROOT, make_raw, make_scenario
+from lcoe.physics import energy as en
+from lcoe.physics import turbine as tb
 
 DEMO_CURVE = ROOT / "demo" / "tallowmere_curve.csv"
 

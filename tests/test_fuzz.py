@@ -16,12 +16,18 @@ import json
 import math
 import os
 
+from conftest import make_raw
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
-from conftest import make_raw
-from lcoe import cli, model, report, resource, scenario as sc, turbine
-from lcoe.errors import ScenarioError
+from lcoe import cli
+from lcoe import engine as model
+from lcoe.analysis import study
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
+from lcoe.outputs import report
+from lcoe.physics import turbine
+from lcoe.physics import wind as resource
 
 # LCOE_FUZZ_EXAMPLES=2000 runs a deeper search (by hand); the suite's default stays quick
 N = int(os.environ.get("LCOE_FUZZ_EXAMPLES", "60"))
@@ -161,7 +167,7 @@ def test_fuzz_scenario_dicts_through_loader_and_engine(raw):
         event("refused by the loader")
         return
     try:
-        rep = report.build(scn, trials=0)
+        rep = study.build(scn, trials=0)
     except ScenarioError as exc:
         _assert_one_line(exc)
         event("refused by the engine")

@@ -1,4 +1,4 @@
-"""The compiled row loops (lcoe.kernels) against the array formulas they replace and
+"""The compiled row loops (lcoe.finance._kernels) against the array formulas they replace and
 against numpy-financial; both paths must give the same answers."""
 
 from __future__ import annotations
@@ -7,7 +7,10 @@ import numpy as np
 import numpy_financial as npf
 import pytest
 
-from lcoe import cashflow, energy, kernels, metrics as mt
+from lcoe.finance import _kernels as kernels
+from lcoe.finance import cashflow
+from lcoe.finance import metrics as mt
+from lcoe.physics import energy
 
 
 @pytest.fixture
@@ -75,7 +78,7 @@ def test_failure_kernel_counts_like_the_plain_inversion():
     """Several components in one pass equal the plain count of CDF steps below each uniform
     (the inversion method for a discrete distribution), component by component."""
     rng = np.random.default_rng(6)
-    from lcoe.uncertainty import _poisson_cdf32
+    from lcoe.analysis.montecarlo import _poisson_cdf32
     u = rng.random((3, 500, 20), dtype=np.float32)
     cdfs = [_poisson_cdf32(lam, int(lam + 12 * np.sqrt(lam) + 20)) for lam in (0.2, 0.5, 1.5)]
     costs = rng.uniform(1e5, 5e5, (3, 500))
@@ -103,7 +106,7 @@ def _wide_vary(scn) -> dict:
     """A uniform spread of +-15 % on every input a trial may vary without re-integrating the
     curve (the hub speed through the mean speed; other wind and turbine keys integrate
     each row afresh and are covered by the array path alone)."""
-    from lcoe.scenario import numeric_keys, numeric_value
+    from lcoe.inputs.scenario import numeric_keys, numeric_value
     vary = {}
     for key in numeric_keys(scn):
         if key.startswith(("project.", "turbine.")) or (key.startswith("wind.") and key != "wind.mean_speed_mps"):
@@ -115,7 +118,8 @@ def _wide_vary(scn) -> dict:
 
 
 def _trials_both_ways(scn, n=3000, seed=4):
-    from lcoe import model, uncertainty as un
+    from lcoe import engine as model
+    from lcoe.analysis import montecarlo as un
     case = model.run(scn, breakeven=False)
     inputs, sample = un.draw_block(scn, n, un._block_rng(seed, 0), scn.lifetime)
     inputs = un._clip_inputs(scn, inputs, [])
@@ -140,7 +144,7 @@ def _assert_same_trials(case, fused, plain):
 def test_trial_kernel_equals_the_array_engine_on_the_demo_scenarios(which):
     from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY
 
-    from lcoe import scenario
+    from lcoe.inputs import scenario
     scn = scenario.load({"demo": DEMO, "hourly": DEMO_HOURLY, "equity": DEMO_EQUITY}[which])
     _assert_same_trials(*_trials_both_ways(scn))
 
@@ -150,7 +154,7 @@ def test_trial_kernel_equals_the_array_engine_when_every_input_varies():
     enough that some trials make losses (tax carried forward) and some have no IRR."""
     from conftest import DEMO
 
-    from lcoe import scenario
+    from lcoe.inputs import scenario
     raw = scenario.parse_toml(DEMO)
     scn = scenario.load(DEMO)
     vary = _wide_vary(scn)
@@ -165,7 +169,7 @@ def test_trial_kernel_equals_the_array_engine_when_every_input_varies():
     _assert_same_trials(case, fused, plain)
     # and the outside reference for the two IRRs: numpy-financial on the engine's own rows,
     # many of which change sign more than once (years where CFADS falls short of debt service)
-    from lcoe import model
+    from lcoe import engine as model
     flows, m, _ = model.evaluate(wide, overrides=_draw(wide, 600), schedule=case.schedule, energy=case.energy,
                                  lean=True)
     multi = 0
@@ -182,7 +186,7 @@ def test_trial_kernel_equals_the_array_engine_when_every_input_varies():
 
 
 def _draw(scn, n):
-    from lcoe import uncertainty as un
+    from lcoe.analysis import montecarlo as un
     inputs, _ = un.draw_block(scn, n, un._block_rng(9, 0), scn.lifetime)
     return un._clip_inputs(scn, inputs, [])
 

@@ -6,14 +6,13 @@ from __future__ import annotations
 import numpy as np
 import numpy_financial as npf
 import pytest
+from conftest import make_raw, make_scenario
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from lcoe import metrics as mt
-from lcoe import model
-
-from conftest import make_raw, make_scenario
+from lcoe import engine as model
+from lcoe.finance import metrics as mt
 
 
 def conventional_flows(max_len=41):

@@ -10,11 +10,11 @@ import re
 import numpy as np
 import numpy_financial as npf
 import pytest
-
-from lcoe import cli, model
-from lcoe import scenario as sc
-
 from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, make_raw
+
+from lcoe import cli
+from lcoe import engine as model
+from lcoe.inputs import scenario as sc
 
 # The report keys of shared/design/SCENARIO.md (a contract).
 ENERGY_KEYS = {"air_density_kgm3", "hub_mean_speed_mps", "gross_aep_mwh", "net_aep_p50_mwh", "net_aep_p90_1yr_mwh",

@@ -11,19 +11,21 @@ from __future__ import annotations
 
 import copy
 import csv
-import importlib.util
 import re
 import tomllib
 
 import numpy as np
 import numpy_financial as npf
 import pytest
-from hypothesis import HealthCheck, assume, given, settings
+from conftest import make_raw
+from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from conftest import make_raw
-from lcoe import files, metrics as mt, model, scenario as sc
-from lcoe.errors import ScenarioError
+from lcoe import engine as model
+from lcoe.finance import metrics as mt
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
+from lcoe.outputs import files
 
 SETTINGS = settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
@@ -249,7 +251,6 @@ def test_a_scenario_name_survives_toml_and_is_text_in_csv(name, tmp_path_factory
     assert cell[0] not in "=+-@\t\r"
 
 
-@pytest.mark.skipif(importlib.util.find_spec("lcoe.workbook") is None, reason="lcoe.workbook not built yet")
 @settings(max_examples=8, deadline=None)
 @given(name=ONE_LINE_NAMES)
 def test_a_scenario_name_is_text_in_the_workbook(name, tmp_path_factory):
@@ -257,11 +258,12 @@ def test_a_scenario_name_is_text_in_the_workbook(name, tmp_path_factory):
     as a formula (OpenXML SpreadsheetML: a cell is a formula only when it has an <f> element)."""
     import openpyxl
 
-    from lcoe import report, workbook
+    from lcoe.analysis import study
+    from lcoe.outputs import workbook
 
     scn = sc.from_dict(make_raw(**{"project.name": name}), source="named.toml")
     path = tmp_path_factory.mktemp("book") / "named.xlsx"
-    workbook.write(report.build(scn, trials=0, variants=False), path)
+    workbook.write(study.build(scn, trials=0, variants=False), path)
     book = openpyxl.load_workbook(path)
     cells = [c for ws in book.worksheets for row in ws.iter_rows() for c in row if c.value == name]
     assert cells, "the scenario name is not in the workbook"

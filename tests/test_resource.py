@@ -9,14 +9,13 @@ import math
 
 import numpy as np
 import pytest
+from conftest import make_scenario
 from numpy.testing import assert_allclose
 from scipy.stats import norm, weibull_min
 
-from lcoe import energy as en
-from lcoe import resource
-from lcoe.errors import ScenarioError
-
-from conftest import make_scenario
+from lcoe.inputs.errors import ScenarioError
+from lcoe.physics import energy as en
+from lcoe.physics import wind as resource
 
 SHAPES = [1.2, 1.8, 2.0, 2.1, 2.7, 3.5]
 SCALES = [4.0, 6.5, 8.35, 11.0]

@@ -9,11 +9,10 @@ from __future__ import annotations
 import tomllib
 
 import pytest
-
-from lcoe import scenario as sc
-from lcoe.errors import ScenarioError
-
 from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, make_raw, make_scenario
+
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
 
 
 @pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY])

@@ -1,4 +1,4 @@
-"""Sweeps, the tornado and goal seek (lcoe.sensitivity) and their CLI commands.
+"""Sweeps, the tornado and goal seek (lcoe.analysis.sensitivity) and their CLI commands.
 
 Each check names its outside source beside it (see shared/reference/CHECK-VALUES.md).
 """
@@ -13,19 +13,19 @@ import sys
 import numpy as np
 import numpy_financial as npf
 import pytest
+from conftest import DEMO, ROOT, make_raw, make_scenario
 from numpy.testing import assert_allclose
 from scipy import integrate, stats
 from scipy.special import gamma
 
-from lcoe import cli, model
-from lcoe import energy as en
-from lcoe import scenario as sc
-from lcoe import sensitivity as se
-from lcoe.cashflow import Sample
-from lcoe.errors import ScenarioError
-from lcoe.turbine import physics_curve, swept_area_m2
-
-from conftest import DEMO, ROOT, make_raw, make_scenario
+from lcoe import cli
+from lcoe import engine as model
+from lcoe.analysis import sensitivity as se
+from lcoe.finance.cashflow import Sample
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
+from lcoe.physics import energy as en
+from lcoe.physics.turbine import physics_curve, swept_area_m2
 
 Z90 = 1.2815516  # standard normal 90 % quantile (scipy.stats.norm; CHECK-VALUES "normal quantiles")
 
@@ -135,7 +135,7 @@ def test_demo_elasticity_flattens_from_5_to_9_mps():
 # --------------------------------------------------------------------------- sweep
 
 def test_sweep_rows_match_direct_runs_for_every_numeric_key():
-    """Batch rows equal lcoe.model.run on the scenario edited to each value, key by key.
+    """Batch rows equal lcoe.engine.run on the scenario edited to each value, key by key.
 
     Source: the deterministic run of the edited scenario (the same engine, one scenario per value).
     """
@@ -174,7 +174,7 @@ def test_sweep_rows_match_direct_runs_for_every_numeric_key():
 def test_sweep_row_shape_breakeven_and_derived_defaults():
     """Break-even only when asked, equal to the direct run; an omitted merchant price follows the PPA price.
 
-    Source: SCENARIO.md (an omitted merchant price equals the PPA price) and lcoe.model.run.
+    Source: SCENARIO.md (an omitted merchant price equals the PPA price) and lcoe.engine.run.
     """
     scn = _scn()
     rows = se.sweep(scn, "revenue.ppa_price_per_mwh", [60.0, 70.0])
@@ -193,7 +193,7 @@ def test_sweep_row_shape_breakeven_and_derived_defaults():
 
 
 def test_sweep_of_lifetime_runs_one_scenario_per_value():
-    """project.lifetime_years changes the shape of the model: each row equals its own run (lcoe.model.run)."""
+    """project.lifetime_years changes the shape of the model: each row equals its own run (lcoe.engine.run)."""
     scn = _scn()
     rows = se.sweep(scn, "project.lifetime_years", [15, 20, 25])
     for v, row in zip((15, 20, 25), rows):
@@ -269,9 +269,9 @@ def test_lognormal_needs_a_positive_mean():
 def test_tornado_rows_sorted_and_equal_to_direct_runs():
     """Each row's metric at its low and high value equals a direct run of the edited scenario.
 
-    Source: lcoe.model.run on the scenario with the one input changed; the energy row against
+    Source: lcoe.engine.run on the scenario with the one input changed; the energy row against
     P50 (1 -+ z_90 sigma_10yr) (standard normal quantile, CHECK-VALUES) and against the
-    engine's own per-trial energy factor (lcoe.cashflow.Sample).
+    engine's own per-trial energy factor (lcoe.finance.cashflow.Sample).
     """
     scn = _vary_scenario()
     rows = se.tornado(scn)
@@ -316,7 +316,7 @@ def test_tornado_rows_sorted_and_equal_to_direct_runs():
 
 
 def test_tornado_on_equity_irr_and_chosen_inputs():
-    """Chosen inputs only, ranked by equity IRR; values equal direct runs (lcoe.model.run)."""
+    """Chosen inputs only, ranked by equity IRR; values equal direct runs (lcoe.engine.run)."""
     scn = _scn()
     rows = se.tornado(scn, metric="equity_irr", inputs=["revenue.ppa_price_per_mwh", "finance.debt.interest_rate"])
     assert [r["key"] for r in rows] == ["revenue.ppa_price_per_mwh", "finance.debt.interest_rate"]
@@ -388,7 +388,7 @@ def test_solve_ppa_price_for_equity_irr_round_trips():
 
 def test_solve_fraction_and_speed_keys_round_trip():
     """A fraction searched over its valid range, and the wind speed (one scenario per value): both round-trip
-    (lcoe.model.run on the scenario with the found value)."""
+    (lcoe.engine.run on the scenario with the found value)."""
     scn = _scn()
     base = model.run(scn, breakeven=False).metrics["lcoe_nominal_per_mwh"]
     res = se.solve(scn, target_metric="lcoe_nominal_per_mwh", target_value=base * 1.05, vary_key="losses.wake")

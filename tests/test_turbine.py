@@ -6,12 +6,11 @@ import math
 
 import numpy as np
 import pytest
+from conftest import make_scenario
 from numpy.testing import assert_allclose
 
-from lcoe import turbine as tb
-from lcoe.errors import ScenarioError
-
-from conftest import make_scenario
+from lcoe.inputs.errors import ScenarioError
+from lcoe.physics import turbine as tb
 
 
 def _physics(rated=3000.0, diameter=110.0, cp=0.45, eta=0.95, cut_in=3.0, cut_out=25.0):

@@ -7,8 +7,9 @@ import pytest
 from conftest import make_raw, make_scenario
 from scipy import stats
 
-from lcoe import model, uncertainty
-from lcoe.errors import ScenarioError
+from lcoe import engine as model
+from lcoe.analysis import montecarlo as uncertainty
+from lcoe.inputs.errors import ScenarioError
 
 Z90 = 1.2815515655446004  # standard normal 90 % quantile (scipy.stats.norm.ppf(0.9))
 
@@ -162,7 +163,7 @@ def test_wind_speed_uncertainty_goes_through_the_aep_curve():
     scn = make_scenario(raw)
     case = model.run(scn, breakeven=False)
     mc = uncertainty.monte_carlo(scn, case, trials=20_000, seed=5)
-    from lcoe import energy as en
+    from lcoe.physics import energy as en
     site = en.site_for(scn)
     # the median trial has a speed factor near 1; the 10th percentile one near 1 - 1.2816 * 0.05
     e1 = mc.samples["net_aep_year1_mwh"]

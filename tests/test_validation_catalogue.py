@@ -239,7 +239,7 @@ def test_check_command_gives_the_same_line(name, shown, key, value, message):
 
 @pytest.mark.parametrize("name, shown, key, value, message", CASES[::3], ids=IDS[::3])
 def test_no_workbook_is_left_for_broken_input(tmp_path, name, shown, key, value, message):
-    pytest.importorskip("lcoe.workbook")
+    pytest.importorskip("lcoe.outputs.workbook")
     book, table = tmp_path / "lenders.xlsx", tmp_path / "yearly.csv"
     code, stdout, stderr = _run(["run", str(BROKEN / f"{name}.toml"), "--workbook", str(book), "--csv", str(table)])
     assert code == 2 and stderr.count("\n") == 1
@@ -295,7 +295,7 @@ def test_a_failed_rename_leaves_neither_the_file_nor_a_temporary(tmp_path, monke
 
 def test_series_gaps_and_duplicates_are_reported_with_counts(tmp_path):
     """Gaps, duplicate timestamps and bad rows are counted, not fatal, below the missing-share limit."""
-    from lcoe import resource
+    from lcoe.physics import wind as resource
 
     series = resource.load_series(BROKEN / "series_gaps_and_duplicates.csv")
     text = " | ".join(series.warnings)
@@ -308,7 +308,7 @@ def test_series_gaps_and_duplicates_are_reported_with_counts(tmp_path):
 
 def test_a_byte_order_mark_is_not_part_of_the_header(tmp_path):
     """Spreadsheets often save UTF-8 with a byte-order mark (U+FEFF); the curve still reads."""
-    from lcoe import turbine
+    from lcoe.physics import turbine
 
     path = tmp_path / "bom.csv"
     path.write_bytes(b"\xef\xbb\xbf" + (BROKEN / "curve_good.csv").read_bytes())
@@ -382,7 +382,7 @@ def test_cash_flows_with_no_real_irr_give_null_with_a_reason():
     """-1 + 3x - 3x^2 = 0 (x = 1 / (1 + r)) has discriminant 9 - 12 < 0: signs change, yet no IRR exists."""
     import numpy as np
 
-    from lcoe import metrics
+    from lcoe.finance import metrics
 
     rates, reasons = metrics.irr(np.array([[-1.0, 3.0, -3.0], [-100.0, 60.0, 60.0]]))
     assert np.isnan(rates[0]) and reasons == [(0, "no IRR between -99% and 1000%")]
@@ -407,7 +407,7 @@ def test_ppa_term_longer_than_life_is_only_a_warning(tmp_path):
             "the years past the life are ignored") in rep["warnings"]
 
 
-@pytest.mark.skipif(importlib.util.find_spec("lcoe.workbook") is None, reason="lcoe.workbook not built yet")
+@pytest.mark.skipif(importlib.util.find_spec("lcoe.outputs.workbook") is None, reason="lcoe.outputs.workbook not built yet")
 def test_when_the_second_output_fails_the_first_is_removed(tmp_path, monkeypatch):
     """--workbook is written first; a --csv that cannot be written takes it away again."""
     monkeypatch.chdir(tmp_path)

@@ -26,13 +26,18 @@ from types import SimpleNamespace
 import numpy as np
 import openpyxl
 import pytest
+from conftest import DEMO, DEMO_EQUITY, make_scenario, require_tool
 from openpyxl.formula import Tokenizer
 from openpyxl.utils import range_boundaries
 
-from conftest import DEMO, DEMO_EQUITY, make_scenario, require_tool
-from lcoe import CAUTION, cli, model, scenario as sc, workbook
-from lcoe import report as rp
-from lcoe.errors import ScenarioError
+from lcoe import cli
+from lcoe import engine as model
+from lcoe.analysis import study
+from lcoe.finance.cashflow import debt_service_scale
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.about import CAUTION
+from lcoe.inputs.errors import ScenarioError
+from lcoe.outputs import workbook
 
 REL = 1e-9
 ENGINE_DIGITS = 1e-15  # openpyxl stores numbers with 16 significant digits ("%.16g")
@@ -133,9 +138,9 @@ def books(tmp_path_factory):
     }
     cases = {}
     for name, (scn, build_args, with_sens) in specs.items():
-        rep = rp.build(scn, **build_args)
+        rep = study.build(scn, **build_args, sensitivity=with_sens)
         path = src / f"{name}.xlsx"
-        workbook.write(rep, path, sensitivity=with_sens)
+        workbook.write(rep, path)
         cases[name] = SimpleNamespace(scn=scn, report=rep, case=rep.case, src=path)
 
     # liveness: change the PPA price and the degradation on Inputs; the debt at close is the engine's
@@ -149,7 +154,7 @@ def books(tmp_path_factory):
         if update_debt:
             set_named(wb, "debt_at_close", live_case.metrics["debt_amount"])
             set_named(wb, "debt_service_scale",
-                      workbook.debt_service_scale(live_case.schedule, changed.finance.debt.target_dscr))
+                      debt_service_scale(live_case.schedule, changed.finance.debt.target_dscr))
         path = src / f"{name}.xlsx"
         wb.save(path)
         cases[name] = SimpleNamespace(scn=changed, report=None, case=live_case, src=path)
@@ -212,7 +217,7 @@ def test_energy_and_cost_totals_equal_the_engine(books, name):
     for key in ("gross_aep_mwh", "net_aep_p50_mwh", "net_aep_p90_1yr_mwh", "net_aep_p90_10yr_mwh",
                 "net_aep_p99_1yr_mwh", "net_capacity_factor", "loss_factor", "downtime_fraction"):
         assert math.isclose(named(c.values, key), getattr(e, key), rel_tol=REL, abs_tol=1e-15), key
-    for key, value in rp.costs_block(c.case).items():
+    for key, value in study.costs_block(c.case).items():
         assert math.isclose(named(c.values, key), value, rel_tol=REL), key
 
 
@@ -432,7 +437,7 @@ def test_montecarlo_sheet_holds_the_engine_results(books):
 
 
 def test_sensitivity_sheet_holds_the_tornado_and_the_sweep(books):
-    sens = pytest.importorskip("lcoe.sensitivity")
+    from lcoe.analysis import sensitivity as sens
     c = books["demo"]
     ws = c.formulas["Sensitivity"]
     rows = sens.tornado(c.scn, metric="lcoe_nominal_per_mwh")
@@ -473,7 +478,7 @@ def test_presentation(books):
 # --------------------------------------------------------------------------- writing safely
 
 def _small_report():
-    return rp.build(make_scenario(), trials=0, variants=False)
+    return study.build(make_scenario(), trials=0, variants=False)
 
 
 def test_unwritable_folder_leaves_nothing(tmp_path, monkeypatch):
@@ -485,7 +490,7 @@ def test_unwritable_folder_leaves_nothing(tmp_path, monkeypatch):
         folder.chmod(0o500)
         try:
             with pytest.raises(ScenarioError, match=r"^--workbook = .*: cannot write in .* \(Permission denied\)$"):
-                workbook.write(rep, target, sensitivity=False)
+                workbook.write(rep, target)
         finally:
             folder.chmod(0o700)
         assert list(folder.iterdir()) == []
@@ -495,7 +500,7 @@ def test_unwritable_folder_leaves_nothing(tmp_path, monkeypatch):
 
     monkeypatch.setattr(tempfile, "mkstemp", refuse)
     with pytest.raises(ScenarioError, match=r"^--workbook = .*: cannot write in .* \(Permission denied\)$") as exc:
-        workbook.write(rep, target, sensitivity=False)
+        workbook.write(rep, target)
     assert "\n" not in str(exc.value)
     assert list(folder.iterdir()) == []
 
@@ -509,7 +514,7 @@ def test_a_failed_save_leaves_no_partial_file(tmp_path, monkeypatch):
 
     monkeypatch.setattr(openpyxl.Workbook, "save", half_save)
     with pytest.raises(ScenarioError, match=r"cannot write the file \(No space left on device\)"):
-        workbook.write(rep, tmp_path / "book.xlsx", sensitivity=False)
+        workbook.write(rep, tmp_path / "book.xlsx")
     assert list(tmp_path.iterdir()) == []
 
 

@@ -9,31 +9,31 @@ inputs into scenario overrides and results into tables and charts, nothing more.
 from __future__ import annotations
 
 import hashlib
-import importlib
-import sys
 import tempfile
 import time
 import tomllib
 from pathlib import Path
 
-HERE = Path(__file__).resolve().parent
-ROOT = HERE.parent
-sys.path.insert(0, str(HERE))
-try:
-    import lcoe  # noqa: F401
-except ModuleNotFoundError:  # a source checkout without ``pip install``
-    sys.path.insert(0, str(ROOT))
+import numpy as np
+import pandas as pd
+import streamlit as st
+from lcoe.ui import charts, inputs
 
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
-import streamlit as st  # noqa: E402
+from lcoe import engine as model
+from lcoe.analysis import lifetime, study
+from lcoe.analysis import montecarlo as unc_mod
+from lcoe.analysis import sensitivity as sens_mod
+from lcoe.demo_files import assumptions_dir
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.about import CAUTION
+from lcoe.inputs.errors import ScenarioError
+from lcoe.outputs import report as rp
+from lcoe.outputs import workbook
+from lcoe.physics import energy as en
+from lcoe.physics import wind as resource
 
-import app_charts as charts  # noqa: E402
-import app_inputs as inputs  # noqa: E402
-from lcoe import CAUTION, energy as en, model, report as rp, resource, scenario as sc  # noqa: E402
-from lcoe.errors import ScenarioError  # noqa: E402
+ASSUMPTIONS = assumptions_dir()
 
-ASSUMPTIONS = ROOT / "assumptions"
 UPLOAD = "Upload a scenario file..."
 TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Monte Carlo", "Tornado", "Compare",
         "Yearly table"]
@@ -50,16 +50,6 @@ TORNADO_METRICS = ("lcoe_nominal_per_mwh", "project_npv", "equity_irr", "min_dsc
 SHOW_SCALE = {"m": 1e-6, "pct": 100.0}   # report formats that show a value scaled: EUR M, percent
 
 st.set_page_config(page_title="lcoe: wind site economics", layout="wide")
-
-
-def _optional(name: str):
-    """An engine module that may be missing from an installation (sensitivity, uncertainty, workbook)."""
-    try:
-        return importlib.import_module(name)
-    except ModuleNotFoundError as exc:
-        if exc.name != name:
-            raise
-        return None
 
 
 # --------------------------------------------------------------------------- the engine, cached
@@ -102,39 +92,19 @@ def case_of(text: str, base_dir: str, source: str, breakeven: bool = False) -> m
 
 @st.cache_data(max_entries=16, show_spinner=False)
 def lifetime_study(text: str, base_dir: str, source: str, ext_year: int, ext_cost: float) -> pd.DataFrame:
-    """Metrics for lives of 15..35 years, with and without a life-extension overhaul in ``ext_year``.
-
-    Each life keeps the scenario's other inputs; overhauls after the life are left out
-    and a debt tenor longer than the life is cut to the life.
-    """
-    scn = scenario_of(text, base_dir, source)
-    raw_overhauls = scn.raw.get("maintenance", {}).get("overhaul", [])
-    rows = []
-    for life in LIFETIMES:
-        kept = [dict(o) for o in raw_overhauls if o["year"] <= life]
-        over = {"project.lifetime_years": life}
-        if scn.finance.debt is not None and scn.finance.debt.tenor_years > life:
-            over["finance.debt.tenor_years"] = life
-        for with_ext in (False, True):
-            work = list(kept)
-            if with_ext and life > ext_year:
-                work.append({"name": "life extension (study)", "year": int(ext_year),
-                             "cost_per_turbine": float(ext_cost)})
-            over["maintenance.overhaul"] = work
-            m = model.run(scn.with_overrides(over, label="lifetime study"), breakeven=False).metrics
-            rows.append({"life": life, "plan": "with life-extension overhaul" if with_ext else "without",
-                         "lcoe": m["lcoe_nominal_per_mwh"], "npv": m["project_npv"]})
+    """Metrics for lives of 15..35 years, with and without a life-extension overhaul (lcoe.analysis.lifetime)."""
+    rows = lifetime.study(scenario_of(text, base_dir, source), LIFETIMES, ext_year, ext_cost)
     return pd.DataFrame(rows)
 
 
 @st.cache_data(max_entries=16, show_spinner=False)
 def speed_study(text: str, base_dir: str, source: str, key: str, values: tuple) -> list:
-    return _optional("lcoe.sensitivity").sweep(scenario_of(text, base_dir, source), key, list(values))
+    return sens_mod.sweep(scenario_of(text, base_dir, source), key, list(values))
 
 
 @st.cache_data(max_entries=16, show_spinner=False)
 def tornado_of(text: str, base_dir: str, source: str, metric: str) -> list:
-    return _optional("lcoe.sensitivity").tornado(scenario_of(text, base_dir, source), metric=metric)
+    return sens_mod.tornado(scenario_of(text, base_dir, source), metric=metric)
 
 
 # --------------------------------------------------------------------------- formatting (the report's own)
@@ -181,23 +151,23 @@ def years_table(case: model.Case) -> pd.DataFrame:
 def workbook_bytes(text: str, base_dir: str, source: str, mc) -> bytes:
     """The lender workbook of the current inputs (with the Monte Carlo when it was run on them)."""
     try:
-        rep = rp.build(sc.from_dict(tomllib.loads(text), source=source, base_dir=base_dir), trials=0)
+        rep = study.build(sc.from_dict(tomllib.loads(text), source=source, base_dir=base_dir), trials=0,
+                          sensitivity=True)
     except ScenarioError:  # a variant of the file no longer fits the current inputs: leave the variants out
-        rep = rp.build(scenario_of(text, base_dir, source), trials=0, variants=False)
+        rep = study.build(scenario_of(text, base_dir, source), trials=0, variants=False, sensitivity=True)
     rep.montecarlo = mc
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "workbook.xlsx"
-        _optional("lcoe.workbook").write(rep, path)
+        workbook.write(rep, path)
         return path.read_bytes()
 
 
 @st.cache_data(max_entries=32, show_spinner=False)
 def csv_bytes(text: str, base_dir: str, source: str) -> bytes:
     """The yearly table exactly as ``lcoe run --csv`` writes it."""
-    from lcoe.cli import write_annual_csv
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "yearly.csv"
-        write_annual_csv(rp.Report(case_of(text, base_dir, source)), path)
+        rp.write_annual_csv(study.Report(case_of(text, base_dir, source)), path)
         return path.read_bytes()
 
 
@@ -300,15 +270,12 @@ def actions(base, scn, text, base_dir, source, overrides, changed, pin) -> None:
         st.session_state.pop("pinned", None)
         st.rerun()
     name = _slug(base.project.name)
-    if _optional("lcoe.workbook") is not None:
-        mc = current_mc(text)
-        c3.download_button("Workbook (.xlsx)", data=lambda: workbook_bytes(text, base_dir, source, mc),
-                           file_name=f"{name}.xlsx", key="dl_workbook", on_click="ignore",
-                           mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-                           help="The lender workbook of these inputs, with live formulas"
-                                + (" and the Monte Carlo run" if mc is not None else ""))
-    else:
-        c3.caption("Workbook: not in this installation")
+    mc = current_mc(text)
+    c3.download_button("Workbook (.xlsx)", data=lambda: workbook_bytes(text, base_dir, source, mc),
+                       file_name=f"{name}.xlsx", key="dl_workbook", on_click="ignore",
+                       mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+                       help="The lender workbook of these inputs, with live formulas"
+                            + (" and the Monte Carlo run" if mc is not None else ""))
     c4.download_button("Scenario (.toml)", data=text.encode("utf-8"), file_name=f"{name}_inputs.toml",
                        mime="application/toml", key="dl_scenario", on_click="ignore",
                        help="These inputs as a scenario file; its data paths are relative to assumptions/")
@@ -358,7 +325,7 @@ def tab_cash(scn, case, cur) -> None:
         long["line"] = long["line"].map(CASH_LINES)
         long["value"] = long["value"] * SHOW_SCALE["m"]
         charts.draw(charts.cash_by_year, lines=long, ytitle=f"Nominal money [{cur} M]", order=list(CASH_LINES.values()))
-        costs = rp.costs_block(case)
+        costs = study.costs_block(case)
         st.caption(f"Year 0: capex {rp.fmt(costs['capex_total'], 'm')} {cur} M, debt "
                    f"{rp.fmt(case.metrics['debt_amount'], 'm')} {cur} M. Decommissioning net of salvage in year "
                    f"{scn.lifetime}: {rp.fmt(costs['decommissioning_net'], 'm')} {cur} M.")
@@ -416,9 +383,6 @@ def tab_lifetime(scn, text, base_dir, source, cur) -> None:
 def tab_speed(scn, text, base_dir, source, cur) -> None:
     st.markdown("**Energy and LCOE against the mean wind speed**")
     w = scn.wind
-    if _optional("lcoe.sensitivity") is None:
-        st.write("The sensitivity module is not in this installation.")
-        return
     if w.timeseries is not None:
         st.write("This scenario uses an hourly wind series; the sweep needs a Weibull climate (a mean speed or scale).")
         return
@@ -452,10 +416,7 @@ def current_mc(text: str):
 
 
 def tab_montecarlo(scn, case, text, cur) -> None:
-    unc = _optional("lcoe.uncertainty")
-    if unc is None:
-        st.write("The Monte Carlo module is not in this installation.")
-        return
+    unc = unc_mod
     a, b, _ = st.columns([1, 1, 2])
     trials = a.number_input("Trials [-]", value=int(scn.montecarlo.trials or 10000), min_value=100, step=1000,
                             format="%d", key="mc_trials")
@@ -506,10 +467,7 @@ def tab_montecarlo(scn, case, text, cur) -> None:
 
 
 def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
-    sens = _optional("lcoe.sensitivity")
-    if sens is None:
-        st.write("The sensitivity module is not in this installation.")
-        return
+    sens = sens_mod
     names = {k: label_of("metrics", k, cur) for k in TORNADO_METRICS}
     pick = st.selectbox("Figure", TORNADO_METRICS, format_func=lambda k: f"{names[k][0]} [{names[k][1]}]",
                         key="tornado_pick")

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
-from lcoe.errors import ScenarioError
+from lcoe.inputs.errors import ScenarioError
 
 BETZ_LIMIT = 16.0 / 27.0
 

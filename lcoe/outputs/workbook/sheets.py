@@ -1,7 +1,7 @@
 """The live yearly sheets of the lender workbook: energy, cash flow and debt.
 
-The formulas follow the engine's arithmetic line by line (:mod:`lcoe.energy`,
-:mod:`lcoe.costs`, :mod:`lcoe.cashflow`), in the same order of operations where it
+The formulas follow the engine's arithmetic line by line (:mod:`lcoe.physics.energy`,
+:mod:`lcoe.finance.costs`, :mod:`lcoe.finance.cashflow`), in the same order of operations where it
 matters for rounding, so a spreadsheet engine reproduces the engine's yearly lines.
 The debt schedule is rolled forward from the engine's converged debt at close (held
 on Inputs), which keeps the sheet free of circular references: in each year the
@@ -11,8 +11,7 @@ the sculpted debt service from the sizing-case CFADS.
 
 from __future__ import annotations
 
-from lcoe.workbook_cells import CASHFLOW, CHECK_TOL, DEBT, ENERGY, HOURS_PER_YEAR, LOSSES, Book, Timeline
-
+from lcoe.outputs.workbook.cells import CASHFLOW, CHECK_TOL, DEBT, ENERGY, HOURS_PER_YEAR, LOSSES, Book, Timeline
 
 # --------------------------------------------------------------------------- Energy
 

@@ -7,19 +7,33 @@ debt at close, the break-even price) follows as marked engine values (grey).
 References
 ----------
 MACRS tables: US IRS Publication 946, Table A-1 (half-year convention), as held in
-:data:`lcoe.cashflow.MACRS`.
+:data:`lcoe.finance.cashflow.MACRS`.
 """
 
 from __future__ import annotations
 
-import numpy as np
 from openpyxl.styles import Alignment
 from openpyxl.worksheet.datavalidation import DataValidation
 
-from lcoe.cashflow import MACRS
-from lcoe.workbook_cells import (BLUE, BOLD, CASES, DEPRECIATION, ENGINE_FILL, ENGINE_MARK, FORMATS, HEAD_FILL,
-                                 INPUT_FILL, INPUTS, ITALIC, LOSSES, SPARE_ROWS, TITLE, Book, absolute)
-
+from lcoe.finance.cashflow import MACRS, debt_service_scale
+from lcoe.outputs.workbook.cells import (
+    BLUE,
+    BOLD,
+    CASES,
+    DEPRECIATION,
+    ENGINE_FILL,
+    ENGINE_MARK,
+    FORMATS,
+    HEAD_FILL,
+    INPUT_FILL,
+    INPUTS,
+    ITALIC,
+    LOSSES,
+    SPARE_ROWS,
+    TITLE,
+    Book,
+    absolute,
+)
 
 # --------------------------------------------------------------------------- the Inputs sheet
 
@@ -109,16 +123,6 @@ class InputSheet:
         for col, nm in names.items():
             self.b.name(nm, self.ws, f"{absolute(col, first)}:{absolute(col, last)}")
         return first, last
-
-
-def debt_service_scale(schedule, target_dscr: float) -> float:
-    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise)."""
-    if schedule is None or not bool(np.asarray(schedule.gearing_bound).ravel()[0]):
-        return 1.0
-    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / target_dscr
-    on = schedule.debt_service[0] > 0
-    total = float(raw[on].sum())
-    return float(schedule.debt_service[0][on].sum() / total) if total > 0 else 1.0
 
 
 def write_inputs(book: Book, report) -> InputSheet:
@@ -248,32 +252,32 @@ def write_inputs(book: Book, report) -> InputSheet:
     inp.head("Engine values: computed by lcoe, held here as marked values",
              ("Item", "Value", "Unit", "Source", "", "Why it is not a formula"))
     v("gross_aep_per_turbine_mwh", "Gross AEP per turbine", float(fl.gross_aep_mwh[0, 0]) / p.turbines, "MWh/yr",
-      "lcoe.energy", "mwh", "the Weibull integral (or series mean) over the site power curve", engine=True)
-    v("debt_at_close", "Debt at close", float(fl.debt[0, 0]), "{cur}", "lcoe.cashflow.size_debt", "money",
+      "lcoe.physics.energy", "mwh", "the Weibull integral (or series mean) over the site power curve", engine=True)
+    v("debt_at_close", "Debt at close", float(fl.debt[0, 0]), "{cur}", "lcoe.finance.cashflow.size_debt", "money",
       "converged through the interest-tax circularity; the Checks sheet tests it against the live schedule",
       engine=True)
     v("debt_service_scale", "Debt-service scale (gearing cap)", debt_service_scale(sched, target), "-",
-      "lcoe.cashflow.sculpt", "factor", "1 unless the gearing cap binds; then the share of CFADS / target kept",
+      "lcoe.finance.cashflow.sculpt", "factor", "1 unless the gearing cap binds; then the share of CFADS / target kept",
       engine=True)
     v("breakeven_engine", "Break-even PPA price", case.metrics.get("breakeven_ppa_price_per_mwh"), "{cur}/MWh",
-      "lcoe.model.breakeven_price", "price", "a goal seek that re-sizes the debt at every trial price",
+      "lcoe.engine.breakeven_price", "price", "a goal seek that re-sizes the debt at every trial price",
       engine=True)
-    inp.value("", "Air density at hub", e.air_density_kgm3, "kg/m3", "lcoe.energy", "density", "information",
+    inp.value("", "Air density at hub", e.air_density_kgm3, "kg/m3", "lcoe.physics.energy", "density", "information",
               engine=True)
-    inp.value("", "Mean wind speed at hub", e.hub_mean_speed_mps, "m/s", "lcoe.energy", "price", "information",
+    inp.value("", "Mean wind speed at hub", e.hub_mean_speed_mps, "m/s", "lcoe.physics.energy", "price", "information",
               engine=True)
-    inp.value("", "Weibull scale A at hub", e.weibull_scale_mps, "m/s", "lcoe.energy", "price", "information",
+    inp.value("", "Weibull scale A at hub", e.weibull_scale_mps, "m/s", "lcoe.physics.energy", "price", "information",
               engine=True)
-    inp.value("", "Weibull shape k", e.weibull_shape, "-", "lcoe.energy", "ratio", "information", engine=True)
-    inp.value("", "AEP sensitivity to mean speed", e.speed_sensitivity, "dlnE/dlnv", "lcoe.energy", "ratio",
+    inp.value("", "Weibull shape k", e.weibull_shape, "-", "lcoe.physics.energy", "ratio", "information", engine=True)
+    inp.value("", "AEP sensitivity to mean speed", e.speed_sensitivity, "dlnE/dlnv", "lcoe.physics.energy", "ratio",
               "information", engine=True)
-    inp.value("", "Energy uncertainty, 1 year", e.sigma_1yr, "fraction", "lcoe.energy", "pct", "information",
+    inp.value("", "Energy uncertainty, 1 year", e.sigma_1yr, "fraction", "lcoe.physics.energy", "pct", "information",
               engine=True)
-    inp.value("", "Energy uncertainty, 10 years", e.sigma_10yr, "fraction", "lcoe.energy", "pct", "information",
+    inp.value("", "Energy uncertainty, 10 years", e.sigma_10yr, "fraction", "lcoe.physics.energy", "pct", "information",
               engine=True)
     factors = [(k, float(fl.case_factors[k][0, 0])) for k in CASES]
     inp.table("P-case energy factors (P_case / P50)", ("Case", "Factor", "", "Source"),
-              [(k, x, None, "lcoe.cashflow") for k, x in factors], ("text", "factor", None, "text"),
+              [(k, x, None, "lcoe.finance.cashflow") for k, x in factors], ("text", "factor", None, "text"),
               {1: "case_names", 2: "case_factors"}, engine=True,
               note="P_x = P50 (1 - z_x sigma); sigma from the speed sensitivity and the uncertainty terms")
     for i, (k, _) in enumerate(factors):
@@ -282,7 +286,7 @@ def write_inputs(book: Book, report) -> InputSheet:
     macrs_rows = [(t + 1, *[MACRS[k][t] if t < len(MACRS[k]) else None for k in MACRS]) for t in range(n_years)]
     first, last = inp.table("MACRS depreciation tables, percent of base by year (US IRS Publication 946, "
                             "Table A-1, half-year convention)", ("Year", *MACRS.keys()), macrs_rows,
-                            ("int",) + ("rate",) * len(MACRS), {}, engine=True, note="lcoe.cashflow.MACRS")
+                            ("int",) + ("rate",) * len(MACRS), {}, engine=True, note="lcoe.finance.cashflow.MACRS")
     book.name("macrs_table", ws, f"{absolute(2, first)}:{absolute(1 + len(MACRS), last)}")
     book.name("macrs_methods", ws, f"{absolute(2, first - 1)}:{absolute(1 + len(MACRS), first - 1)}")
     return inp

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
-from lcoe.errors import ScenarioError
+from lcoe.inputs.errors import ScenarioError
 
 R_DRY_AIR = 287.05  # J/(kg K), IEC 61400-12-1
 P0_PA = 101325.0

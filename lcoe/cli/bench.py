@@ -14,14 +14,19 @@ import json
 import resource as _rusage
 import sys
 import time
-from pathlib import Path
 
 import numpy as np
+import numpy_financial as npf
 
-_REL = Path("assumptions") / "tallowmere_ridge.toml"
-DEMO = Path(__file__).resolve().parents[1] / _REL
-if not DEMO.exists():  # an installed package: use the demo of the current folder
-    DEMO = Path.cwd() / _REL
+from lcoe import engine as model
+from lcoe.analysis import montecarlo as uncertainty
+from lcoe.demo_files import demo_scenario
+from lcoe.finance.cashflow import depreciation_shares
+from lcoe.inputs import scenario
+from lcoe.inputs.scenario import LOSS_CATEGORIES
+from lcoe.physics import energy as en
+
+DEMO = demo_scenario()
 
 
 def _median_time(fn, repeat: int) -> float:
@@ -51,10 +56,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     numpy-financial's ``npv`` and ``irr`` and every other metric the engine gives. ``over`` holds this trial's drawn inputs;
     ``speed``, ``downtime`` and ``fail_cost`` are its yearly draws (or None), ``efac`` its
     energy factor (or None). The debt schedule is the one fixed at close."""
-    import numpy_financial as npf
 
-    from lcoe.cashflow import depreciation_shares
-    from lcoe.scenario import LOSS_CATEGORIES
 
     def get(key, default):
         return float(over[key]) if key in over else float(default)
@@ -156,7 +158,6 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
 
 def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
     """The straightforward way: each trial on its own (:func:`reference_trial`)."""
-    from lcoe import energy as en
 
     site = en.site_for(scn)
     out: dict[str, list] = {}
@@ -172,7 +173,6 @@ def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
 
 def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: int = 5) -> dict:
     """Time the engine; ``engine_s`` is the median of ``repeat`` Monte Carlo runs."""
-    from lcoe import energy as en, model, scenario, uncertainty
 
     scn = scenario.load(path)
     case = model.run(scn)                      # warms the site cache (gross AEP table)
@@ -250,14 +250,3 @@ def cmd_bench(args) -> int:
     print(f"  Weibull AEP integral:                           {res['aep_ms']:.3f} ms")
     print(f"  Peak memory:                                    {res['peak_rss_mb']:.0f} MB")
     return 0
-
-
-def register(sub) -> None:
-    from lcoe.cli import _nonneg_int
-    b = sub.add_parser("bench", help="time the engine on the demo scenario (Monte Carlo, loop, deterministic)")
-    b.add_argument("file", nargs="?", default=None, help="scenario (default: the demo)")
-    b.add_argument("--trials", type=_nonneg_int, default=100_000)
-    b.add_argument("--loop-sample", type=_nonneg_int, default=500, help="trials timed in the per-trial loop")
-    b.add_argument("--repeat", type=_nonneg_int, default=5, help="Monte Carlo runs timed (the median is reported)")
-    b.add_argument("--json", action="store_true")
-    b.set_defaults(func=cmd_bench)

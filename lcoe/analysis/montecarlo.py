@@ -15,8 +15,8 @@ The debt stays as sized at close: every trial meets the base case's schedule.
 Trials run in chunks, so memory grows with the chunk, not with the trial count; the
 random numbers are drawn in fixed blocks, so the chunk size does not change results.
 A chunk's terms come from the same engine as a deterministic run
-(:func:`lcoe.cashflow.terms`); its yearly lines and metrics are then worked out in one
-compiled pass (:func:`lcoe.model.trial_metrics`), held by the tests to the array route.
+(:func:`lcoe.finance.cashflow.terms`); its yearly lines and metrics are then worked out in one
+compiled pass (:func:`lcoe.engine.trial_metrics`), held by the tests to the array route.
 """
 
 from __future__ import annotations
@@ -31,15 +31,14 @@ import numpy as np
 from scipy import stats
 from scipy.special import ndtr, ndtri
 
-from lcoe import model
-from lcoe.cashflow import Sample
-from lcoe.errors import ScenarioError
-from lcoe.scenario import numeric_value
-
-try:  # compiled failure counting (lcoe.kernels); poisson() below draws the same numbers without it
-    from lcoe import kernels as _kernels
-except ImportError:  # pragma: no cover - numba is a declared dependency
-    _kernels = None
+from lcoe import engine as model
+from lcoe.finance import (
+    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
+)
+from lcoe.finance.cashflow import Sample
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.scenario import numeric_value
 
 BLOCK = 8192  # trials per random-number block
 HIST_BINS = 40
@@ -78,7 +77,6 @@ def correlation_matrix(scn) -> np.ndarray:
 
 def _bounds(scn, key):
     """(low, high, open_low, open_high) of a key's valid range, from the scenario model's metadata."""
-    from lcoe import scenario as sc
     parts = key.split(".")
     model_cls = sc.Scenario
     node_cls = None
@@ -352,8 +350,8 @@ def _clip_inputs(scn, inputs: dict, warnings: list) -> dict:
 def run_trials(scn, case, inputs: dict, sample: Sample, *, fused: bool = True) -> dict:
     """One chunk of trials through the engine (debt as sized at close). Returns key -> values.
 
-    ``fused`` runs the compiled trial kernel (:func:`lcoe.model.trial_metrics`); without
-    it, or without numba, the chunk goes through :func:`lcoe.model.evaluate` with the
+    ``fused`` runs the compiled trial kernel (:func:`lcoe.engine.trial_metrics`); without
+    it, or without numba, the chunk goes through :func:`lcoe.engine.evaluate` with the
     same results."""
     guess = {k: case.metrics.get(k) for k in ("project_irr", "equity_irr")}
     if fused and model._kernels is not None:

@@ -10,10 +10,9 @@ import numpy as np
 
 IRR_LOW, IRR_HIGH = -0.99, 10.0
 
-try:  # the same Newton/bisection as below, compiled one row at a time (lcoe.kernels)
-    from lcoe import kernels as _kernels
-except ImportError:  # pragma: no cover - numba is a declared dependency
-    _kernels = None
+from lcoe.finance import (
+    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
+)
 
 
 def discount_factors(rate, periods: int):

@@ -1,4 +1,4 @@
-"""Cell writers, styles and the yearly-line helper of the lender workbook (:mod:`lcoe.workbook`).
+"""Cell writers, styles and the yearly-line helper of the lender workbook (:mod:`lcoe.outputs.workbook`).
 
 Every string goes through :meth:`Book.text`, which stores it as text even when it
 starts with = + - or @, so no scenario text can become a formula.
@@ -14,7 +14,7 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter, quote_sheetname
 from openpyxl.workbook.defined_name import DefinedName
 
-from lcoe.scenario import DEPRECIATION_METHODS, LOSS_CATEGORIES, SIZING_CASES
+from lcoe.inputs.scenario import DEPRECIATION_METHODS, LOSS_CATEGORIES, SIZING_CASES
 
 # sheet names (plain trade words)
 SUMMARY, INPUTS, ENERGY, CASHFLOW, DEBT = "Summary", "Inputs", "Energy", "Cash flow", "Debt"

@@ -11,9 +11,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lcoe import costs, energy as en, resource
-from lcoe.resource import Z_90, Z_99
-from lcoe.scenario import LOSS_CATEGORIES
+from lcoe.finance import costs
+from lcoe.inputs.scenario import LOSS_CATEGORIES
+from lcoe.physics import energy as en
+from lcoe.physics import wind as resource
+from lcoe.physics.wind import Z_90, Z_99
 
 DEBT_TOLERANCE = 1e-12   # change of the debt and of each year's debt service (to capex) that ends the sizing iteration
 DEBT_MAX_ITER = 200
@@ -29,10 +31,9 @@ MACRS = {
 
 SPEED_KEYS = ("wind.mean_speed_mps", "wind.weibull_scale_mps")
 
-try:  # compiled row loops for large batches; the array formulas below do the same without them
-    from lcoe import kernels as _kernels
-except ImportError:  # pragma: no cover - numba is a declared dependency
-    _kernels = None
+from lcoe.finance import (
+    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
+)
 
 
 def depreciation_shares(method: str, years: int, lifetime: int) -> np.ndarray:
@@ -122,6 +123,16 @@ def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
     bound = pv > cap
     scale = np.where(bound, cap / np.where(pv > 0, pv, 1.0), 1.0)
     return ds * scale, np.minimum(pv, cap), bound
+
+
+def debt_service_scale(schedule, target_dscr: float) -> float:
+    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise)."""
+    if schedule is None or not bool(np.asarray(schedule.gearing_bound).ravel()[0]):
+        return 1.0
+    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / target_dscr
+    on = schedule.debt_service[0] > 0
+    total = float(raw[on].sum())
+    return float(schedule.debt_service[0][on].sum() / total) if total > 0 else 1.0
 
 
 def amortise(debt_service, rate):
@@ -271,7 +282,7 @@ class Terms:
     Per-row values are floats or (n, 1) arrays; yearly values are (1 or n, L) arrays
     over t = 1..L (or floats where they do not change over the years). The lines
     themselves, shaped (n, L), are left to :func:`evaluate` (numpy) and to the fused
-    trial kernel of :func:`lcoe.model.trial_metrics`; both follow the formulas here.
+    trial kernel of :func:`lcoe.engine.trial_metrics`; both follow the formulas here.
     """
 
     inp: Inputs

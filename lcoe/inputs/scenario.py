@@ -1,7 +1,7 @@
 """The scenario: a typed, validated model of one site, loaded from TOML.
 
 Every value a user can get wrong is checked here, at the edge, and reported as a
-:class:`~lcoe.errors.ScenarioError` that names the file, the dotted key and the
+:class:`~lcoe.inputs.errors.ScenarioError` that names the file, the dotted key and the
 value. Units live in the key names (``speed_mps``, ``cost_per_kw_year``);
 fractions are 0..1.
 """
@@ -18,7 +18,7 @@ from typing import Annotated, Any, Literal, get_args
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, model_validator
 
-from lcoe.errors import ScenarioError, _show
+from lcoe.inputs.errors import ScenarioError, _show
 
 SCHEMA_VERSION = 1
 

@@ -7,7 +7,7 @@ Here they run as compiled loops over the rows, releasing the GIL so that Monte C
 chunks on several threads run at once. :func:`trial_rows` goes further for Monte Carlo
 trials: each trial's yearly lines and every metric in one pass, without storing the
 lines. The arithmetic is the same as the array formulas documented in
-:mod:`lcoe.metrics`, :mod:`lcoe.cashflow` and :mod:`lcoe.model`; the results agree
+:mod:`lcoe.finance.metrics`, :mod:`lcoe.finance.cashflow` and :mod:`lcoe.engine`; the results agree
 with numpy-financial and with those formulas (tests/test_kernels.py).
 """
 
@@ -232,26 +232,6 @@ def carry_rows(taxable, rate, out):
 
 
 @njit(cache=True, nogil=True)
-def interp_uniform(x, x0, h, fp, out):
-    """Linear interpolation in a table on the evenly spaced grid x0 + h k (clipped to it)."""
-    last = fp.shape[0] - 1
-    flat_x = x.reshape(-1)
-    flat_out = out.reshape(-1)
-    for j in range(flat_x.shape[0]):
-        pos = (flat_x[j] - x0) / h
-        if pos <= 0.0:
-            flat_out[j] = fp[0]
-            continue
-        if pos >= last:
-            flat_out[j] = fp[last]
-            continue
-        i = int(pos)
-        w = pos - i
-        flat_out[j] = fp[i] + w * (fp[i + 1] - fp[i])
-    return out
-
-
-@njit(cache=True, nogil=True)
 def _coverage_one(dscr, cfads, debt_service, debt, disc, equity):
     """(min DSCR, average DSCR, LLCR, payback year) of one row; ``disc`` holds the
     discount factors at the debt's interest rate; see :func:`coverage_rows`."""
@@ -353,8 +333,8 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
                max_iter, x_low, x_high, out):
     """The lean yearly lines and every Monte Carlo metric of each trial, one row at a time.
 
-    The same formulas, in the same order of operations, as ``lcoe.cashflow.evaluate``
-    and ``lcoe.model.batch_metrics`` (tests/test_kernels.py holds the two to each
+    The same formulas, in the same order of operations, as ``lcoe.finance.cashflow.evaluate``
+    and ``lcoe.engine.batch_metrics`` (tests/test_kernels.py holds the two to each
     other), without (trials, years) arrays in between. Yearly arguments are (1 or n, L)
     over t = 1..L, discount factors (1 or n, L + 1) from t = 0 (nominal, real, equity
     target and debt interest rate), per-trial values (1 or n,).

@@ -1,23 +1,4 @@
-"""The lender workbook: the cash-flow model as an .xlsx of live spreadsheet formulas.
-
-Inputs are values in one place (the Inputs sheet), each with its unit and its
-scenario key; every yearly line of the energy, cash-flow and debt sheets and every
-metric on the summary is a formula over them, laid out so that a spreadsheet
-engine reproduces the engine's arithmetic (:mod:`lcoe.cashflow`, :mod:`lcoe.metrics`)
-to rounding. What needs the engine stays an engine value, marked as such:
-
-* the gross AEP (the Weibull integral over the site power curve) and the P-case
-  energy factors (from the speed sensitivity and the uncertainty terms);
-* the debt at close and the debt-service scale, which the engine converges through
-  the interest-tax circularity. The sheet holds them as inputs, so it has no
-  circular reference, and shows live checks of the sculpted schedule against them;
-* the break-even PPA price (a goal seek that re-sizes the debt at each price);
-* Monte Carlo and sensitivity results.
-
-Every key of the report's ``metrics`` is a workbook-level defined name of the same
-spelling pointing at its formula on the summary. Text from the scenario is always
-written as text, never as a formula. The file is written atomically.
-"""
+"""The lender workbook's summary, checks and notes sheets, and the assembly of all sheets."""
 
 from __future__ import annotations
 
@@ -28,17 +9,28 @@ from openpyxl.formatting.rule import CellIsRule
 from openpyxl.styles import Alignment
 from openpyxl.utils import get_column_letter
 
-from lcoe import CAUTION, __version__
-from lcoe.files import write_atomic
-from lcoe.model import METRIC_KEYS
-from lcoe.workbook_cells import (BOLD, CHECK_TOL, CHECKS, ENGINE_FILL, FAIL_FILL, FIRST_ROW, HEAD_FILL, ITALIC,
-                                 METRICS, NOTES, SUMMARY, T0_COL, TITLE, YEAR_ROW, Book, Timeline, absolute)
-from lcoe.workbook_inputs import debt_service_scale, write_inputs
-from lcoe.workbook_model import write_cashflow_and_debt, write_energy
-from lcoe.workbook_results import chart_cashflow, chart_dscr, write_montecarlo, write_sensitivity
-
-__all__ = ["build", "write", "debt_service_scale", "FIRST_ROW", "T0_COL", "YEAR_ROW"]
-
+from lcoe.engine import METRIC_KEYS
+from lcoe.inputs.about import CAUTION, __version__
+from lcoe.outputs.files import write_atomic
+from lcoe.outputs.workbook.cells import (
+    BOLD,
+    CHECK_TOL,
+    CHECKS,
+    ENGINE_FILL,
+    FAIL_FILL,
+    HEAD_FILL,
+    ITALIC,
+    METRICS,
+    NOTES,
+    SUMMARY,
+    TITLE,
+    Book,
+    Timeline,
+    absolute,
+)
+from lcoe.outputs.workbook.inputs import write_inputs
+from lcoe.outputs.workbook.results import chart_cashflow, chart_dscr, write_montecarlo, write_sensitivity
+from lcoe.outputs.workbook.sheets import write_cashflow_and_debt, write_energy
 
 # --------------------------------------------------------------------------- Summary
 
@@ -301,21 +293,11 @@ def _write_notes(book: Book, report, sens_note: str | None):
 
 # --------------------------------------------------------------------------- the workbook
 
-def _sensitivity_module():
-    try:
-        from lcoe import sensitivity
-    except ModuleNotFoundError as exc:
-        if exc.name == "lcoe.sensitivity":
-            return None
-        raise
-    return sensitivity if hasattr(sensitivity, "tornado") and hasattr(sensitivity, "sweep") else None
-
-
-def build(report, *, sensitivity: bool = True) -> Workbook:
+def build(report) -> Workbook:
     """The lender workbook of a report (an :class:`openpyxl.Workbook`, not yet saved).
 
-    ``sensitivity``: add the Sensitivity sheet (tornado and wind-speed sweep, about a
-    second of engine runs) when :mod:`lcoe.sensitivity` is installed.
+    The Sensitivity sheet shows ``report.sensitivity`` when the study computed it
+    (:func:`lcoe.analysis.study.build` with ``sensitivity=True``).
     """
     case = report.case
     scn = case.scenario
@@ -329,14 +311,11 @@ def build(report, *, sensitivity: bool = True) -> Workbook:
     _write_summary(book, report, summary, cf)
     if report.montecarlo is not None:
         write_montecarlo(book, report.montecarlo)
-    sens = _sensitivity_module() if sensitivity else None
     sens_note = None
-    if not sensitivity:
+    if report.sensitivity is None:
         sens_note = "No Sensitivity sheet: left out when this workbook was written."
-    elif sens is not None:
-        write_sensitivity(book, report, sens)
     else:
-        sens_note = "No Sensitivity sheet: the sensitivity module is not part of this lcoe installation."
+        write_sensitivity(book, report.sensitivity)
     _write_checks(book, book.sheet(CHECKS), cf, dt)
     _write_notes(book, report, sens_note)
     for ws in book.wb.worksheets:
@@ -348,11 +327,11 @@ def build(report, *, sensitivity: bool = True) -> Workbook:
     return book.wb
 
 
-def write(report, path, *, sensitivity: bool = True) -> Path:
+def write(report, path) -> Path:
     """Write the lender workbook of ``report`` to ``path`` (.xlsx), atomically.
 
     A folder that does not exist or cannot be written raises a one-line
-    :class:`~lcoe.errors.ScenarioError` (key ``--workbook``) and leaves nothing behind.
+    :class:`~lcoe.inputs.errors.ScenarioError` (key ``--workbook``) and leaves nothing behind.
     """
-    wb = build(report, sensitivity=sensitivity)
+    wb = build(report)
     return write_atomic(path, lambda tmp: wb.save(tmp), option="--workbook")

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from lcoe import scenario as sc
+from lcoe.inputs import scenario as sc
 
 # Display units of the inputs: the scenario keeps SI units and fractions 0..1.
 #   pct: shown x 100; m: shown / 1e6; k: shown / 1e3

@@ -9,7 +9,7 @@ import tempfile
 from pathlib import Path
 from typing import Callable
 
-from lcoe.errors import ScenarioError
+from lcoe.inputs.errors import ScenarioError
 
 
 def _umask() -> int:

@@ -8,15 +8,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lcoe import resource
-from lcoe.errors import ScenarioError
-from lcoe.resource import Z_90, Z_99
-from lcoe.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
-
-try:  # compiled table interpolation for large batches (lcoe.kernels)
-    from lcoe import kernels as _kernels
-except ImportError:  # pragma: no cover - numba is a declared dependency
-    _kernels = None
+from lcoe.inputs.errors import ScenarioError
+from lcoe.physics import (
+    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
+)
+from lcoe.physics import wind as resource
+from lcoe.physics.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
+from lcoe.physics.wind import Z_90, Z_99
 
 HOURS_PER_YEAR = 8760.0
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(10)

@@ -1,7 +1,7 @@
 """One-at-a-time sensitivity: parameter sweeps, the tornado and goal seek.
 
-Every figure comes from :mod:`lcoe.model`. A sweep goes through one batch of
-:func:`lcoe.model.evaluate` (debt re-sized per row) wherever the key allows; keys
+Every figure comes from :mod:`lcoe.engine`. A sweep goes through one batch of
+:func:`lcoe.engine.evaluate` (debt re-sized per row) wherever the key allows; keys
 that change the shape of the model (``project.*``) and the mean wind speed or
 Weibull scale (whose batch shortcut keeps the base case's P-values, so the sizing
 case would not follow the speed) run one validated scenario per value. Every value
@@ -11,7 +11,7 @@ price follows the PPA price, an omitted equity return the discount rate, an
 omitted O&M escalation the inflation).
 
 The table and JSON output of the ``lcoe sweep / tornado / solve`` commands are at
-the end of the module; they import :mod:`lcoe.report` only when a command runs,
+the end of the module; they import :mod:`lcoe.outputs.report` only when a command runs,
 so the engine functions above them stay upstream of the report.
 """
 
@@ -19,18 +19,19 @@ from __future__ import annotations
 
 import difflib
 import math
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 from scipy.optimize import brentq
 
-from lcoe import energy as en
-from lcoe import model
-from lcoe import scenario as sc
-from lcoe.cashflow import SPEED_KEYS
-from lcoe.errors import ScenarioError
-from lcoe.resource import Z_90
-from lcoe.uncertainty import quantile
+from lcoe import engine as model
+from lcoe.analysis.montecarlo import quantile
+from lcoe.finance.cashflow import SPEED_KEYS
+from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
+from lcoe.physics import energy as en
+from lcoe.physics.wind import Z_90
 
 METRIC_KEYS = model.METRIC_KEYS
 BREAKEVEN = "breakeven_ppa_price_per_mwh"
@@ -194,7 +195,7 @@ def sweep(scn, key: str, values, *, breakeven: bool = False) -> list[dict]:
     """The model at each value of one input, the others as in the scenario.
 
     Returns one dict per value: ``value``, ``energy`` (gross AEP, net P50 AEP [MWh/yr],
-    net capacity factor [-]), ``metrics`` (every key of :data:`lcoe.model.METRIC_KEYS`;
+    net capacity factor [-]), ``metrics`` (every key of :data:`lcoe.engine.METRIC_KEYS`;
     the break-even PPA price only with ``breakeven=True``, else None; non-finite
     figures are None) and ``elasticity`` = d ln(net P50 AEP) / d ln(value) from the
     neighbouring rows (see :func:`elasticities`).
@@ -470,216 +471,35 @@ def solve(scn, *, target_metric: str, target_value: float, vary_key: str, low=No
             "metric_at_base": at_base}
 
 
-# --------------------------------------------------------------------------- the commands
+# --------------------------------------------------------------------------- the workbook's set
 
-_UNITS = (("_per_kw_year", "{cur}/kW/yr"), ("_per_turbine_year", "1/turbine/yr"), ("_per_turbine", "{cur}/turbine"),
-          ("_per_kw", "{cur}/kW"), ("_per_mwh", "{cur}/MWh"), ("_per_year", "1/yr"), ("_mps", "m/s"),
-          ("_kgm3", "kg/m3"), ("_kw", "kW"), ("_years", "years"), ("_year", "year"), ("_days", "days"),
-          ("_m", "m"), ("_temperature_c", "degC"), ("replacement_cost", "{cur}"), ("grid_connection", "{cur}"),
-          ("development", "{cur}"), ("turbines", "count"))
+WORKBOOK_SWEEP_FACTORS = tuple(round(0.7 + 0.05 * i, 10) for i in range(13))
 
 
-def key_label(key: str, cur: str) -> str:
-    """A dotted key with its unit from the name, e.g. ``capex.turbine_per_kw [EUR/kW]``."""
-    if key == ENERGY_INPUT:
-        return "Net AEP, P90 to P10 (10 yr) [MWh/yr]"
-    for suffix, unit in _UNITS:
-        if key.endswith(suffix):
-            return f"{key} [{unit.format(cur=cur)}]"
-    return f"{key} [-]"
+@dataclass(frozen=True)
+class SensitivitySet:
+    """The sensitivity results a lender workbook shows: a tornado and a wind-speed sweep."""
+    metric: str
+    tornado: list
+    sweep_key: str | None               # None for a time-series climate (no mean-speed key to sweep)
+    sweep_factors: tuple = ()
+    sweep: list = field(default_factory=list)
 
 
-def _fmt_value(v, integer=False) -> str:
-    if v is None or (isinstance(v, float) and not math.isfinite(v)):
-        return "n/a"
-    if integer:
-        return f"{v:.0f}"
-    a = abs(v)
-    if a >= 1000:
-        return f"{v:,.0f}"
-    if a >= 10:
-        return f"{v:.2f}"
-    if a >= 1:
-        return f"{v:.3f}"
-    return f"{v:.4g}"
+def speed_key(scn) -> str | None:
+    """The scenario's mean-speed key (mean or Weibull scale), or None for a time series."""
+    for key in SPEED_KEYS:
+        if getattr(scn.wind, key.split(".")[1]) is not None:
+            return key
+    return None
 
 
-def _head(scn) -> list[str]:
-    from lcoe import CAUTION
-    return [f"{scn.project.name}  ({scn.source})", CAUTION, ""]
-
-
-def _print_json(obj) -> None:
-    import json
-
-    from lcoe.report import clean
-    print(json.dumps(clean(obj), indent=2, allow_nan=False))
-
-
-SWEEP_COLUMNS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_irr",
-                 "debt_amount", "min_dscr")
-
-
-def _metric_list(text: str | None, default) -> list[str]:
-    if not text:
-        return list(default)
-    return [check_metric(m.strip(), label="--metrics") for m in text.split(",") if m.strip()]
-
-
-def cmd_sweep(args) -> int:
-    from lcoe.report import ENERGY_LABELS, METRIC_LABELS, fmt
-    scn = sc.load(args.file)
-    cols = _metric_list(args.metrics, SWEEP_COLUMNS + ((BREAKEVEN,) if args.breakeven else ()))
-    be = args.breakeven or BREAKEVEN in cols
-    values = np.linspace(args.start, args.stop, args.steps)
-    rows = sweep(scn, args.key, values, breakeven=be)
-    if args.json:
-        _print_json({"scenario": scn.project.name, "key": args.key, "rows": rows})
-        return 0
-    cur = scn.project.currency
-    integer = is_integer_key(scn, args.key)
-    heads = [("Value", key_label(args.key, cur).split(" [")[-1].rstrip("]"))]
-    heads += [(ENERGY_LABELS[k][0], ENERGY_LABELS[k][1]) for k in ENERGY_KEYS]
-    heads += [("Elasticity", "dlnE/dlnx")]
-    heads += [(METRIC_LABELS[k][0], METRIC_LABELS[k][1].format(cur=cur)) for k in cols]
-    widths = [max(len(a), len(b) + 2, 9) for a, b in heads]
-    lines = _head(scn)
-    lines.append(f"Sweep of {key_label(args.key, cur)}: {len(rows)} value(s); elasticity = "
-                 "d ln(net AEP P50) / d ln(value) from the neighbouring rows; debt re-sized at each value")
-    lines.append("  " + "  ".join(f"{a:>{w}}" for (a, _), w in zip(heads, widths)))
-    lines.append("  " + "  ".join(f"{'[' + b + ']':>{w}}" for (_, b), w in zip(heads, widths)))
-    for r in rows:
-        cells = [_fmt_value(r["value"], integer)]
-        cells += [fmt(r["energy"][k], ENERGY_LABELS[k][2]) for k in ENERGY_KEYS]
-        cells += ["n/a" if r["elasticity"] is None else f"{r['elasticity']:.3f}"]
-        cells += [fmt(r["metrics"][k], METRIC_LABELS[k][2]) for k in cols]
-        lines.append("  " + "  ".join(f"{c:>{w}}" for c, w in zip(cells, widths)))
-    print("\n".join(lines))
-    return 0
-
-
-def cmd_tornado(args) -> int:
-    from lcoe.report import METRIC_LABELS, fmt
-    scn = sc.load(args.file)
-    metric = check_metric(args.metric, label="--metric")
-    inputs = [k.strip() for k in args.inputs.split(",") if k.strip()] if args.inputs else None
-    rows = tornado(scn, metric=metric, inputs=inputs)
-    if args.json:
-        _print_json({"scenario": scn.project.name, "metric": metric,
-                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows})
-        return 0
-    cur = scn.project.currency
-    name, unit, how = METRIC_LABELS[metric]
-    label = f"{name} [{unit.format(cur=cur)}]"
-    base = model.run(scn, breakeven=metric == BREAKEVEN).metrics[metric] if not rows else rows[0]["metric_base"]
-    lines = _head(scn)
-    lines.append(f"Tornado on {label}: base case {fmt(base, how)}; one input at a time from its low to its high "
-                 "value, debt re-sized")
-    w = max([len(key_label(r["key"], cur)) for r in rows] + [5])
-    wb = max([len(r["basis"]) for r in rows] + [5])
-    lines.append(f"  {'Input':<{w}}  {'basis':<{wb}} {'low':>10} {'base':>10} {'high':>10}  {'at low':>10} "
-                 f"{'at high':>10} {'swing':>10}")
-    biggest = max([abs(r["swing"]) for r in rows if r["swing"] is not None] + [0.0])
-    for r in rows:
-        integer = r["key"] != ENERGY_INPUT and is_integer_key(scn, r["key"])
-        bar = "" if r["swing"] is None or biggest == 0 else "#" * round(20 * abs(r["swing"]) / biggest)
-        swing = "n/a" if r["swing"] is None else (("+" if r["swing"] >= 0 else "") + fmt(r["swing"], how))
-        lines.append(f"  {key_label(r['key'], cur):<{w}}  {r['basis']:<{wb}} "
-                     f"{_fmt_value(r['low_value'], integer):>10} {_fmt_value(r['base_value'], integer):>10} "
-                     f"{_fmt_value(r['high_value'], integer):>10}  {fmt(r['metric_at_low'], how):>10} "
-                     f"{fmt(r['metric_at_high'], how):>10} {swing:>10}  {bar}")
-    lines.append(f"  (at low / at high / swing in {unit.format(cur=cur)}; swing = at high - at low)")
-    print("\n".join(lines))
-    return 0
-
-
-def parse_target(text: str) -> tuple[str, float]:
-    """``METRIC=VALUE``; a value ending in % is read as a percentage (``equity_irr=10%`` = 0.10)."""
-    if not isinstance(text, str) or text.count("=") != 1:
-        raise ScenarioError("must be METRIC=VALUE, e.g. lcoe_nominal_per_mwh=50 or equity_irr=0.10",
-                            key="--target", value=text)
-    metric, raw = (s.strip() for s in text.split("="))
-    check_metric(metric, label="--target")
-    scale = 1.0
-    if raw.endswith("%"):
-        raw, scale = raw[:-1].strip(), 0.01
-    try:
-        value = float(raw) * scale
-    except ValueError:
-        raise ScenarioError("the value after = must be a number", key="--target", value=text) from None
-    if not math.isfinite(value):
-        raise ScenarioError("the value after = must be a finite number", key="--target", value=text)
-    return metric, value
-
-
-def cmd_solve(args) -> int:
-    from lcoe.report import METRIC_LABELS, fmt
-    scn = sc.load(args.file)
-    metric, value = parse_target(args.target)
-    if (args.low is None) != (args.high is None):
-        raise ScenarioError("give both --low and --high, or neither", key="--low" if args.low is None else "--high",
-                            has_value=False)
-    res = solve(scn, target_metric=metric, target_value=value, vary_key=args.vary, low=args.low, high=args.high)
-    if args.json:
-        _print_json({"scenario": scn.project.name, **res})
-        return 0
-    cur = scn.project.currency
-    name, unit, how = METRIC_LABELS[metric]
-    lines = _head(scn)
-    lines.append(f"Goal seek: {key_label(res['key'], cur)} for {name} [{unit.format(cur=cur)}] = {fmt(value, how)}")
-    lines.append(f"  {'value found':<24} {res['value']:.6g}")
-    lines.append(f"  {'gives':<24} {fmt(res['achieved'], how)}")
-    lines.append(f"  {'scenario value':<24} {_fmt_value(res['base_value'])} (gives {fmt(res['metric_at_base'], how)})")
-    lines.append(f"  {'searched':<24} {res['low']:g} to {res['high']:g} (Brent's method, "
-                 f"{res['iterations']} iterations; debt re-sized at each value)")
-    print("\n".join(lines))
-    return 0
-
-
-def _finite(text: str) -> float:
-    import argparse
-    try:
-        v = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a number, got {text!r}") from None
-    if not math.isfinite(v):
-        raise argparse.ArgumentTypeError(f"must be a finite number, got {text!r}")
-    return v
-
-
-def register(sub) -> None:
-    """Add ``sweep``, ``tornado`` and ``solve`` to the ``lcoe`` command."""
-    from lcoe.cli import whole_number
-    p = sub.add_parser("sweep", help="the model over a range of one input (with the AEP elasticity)",
-                       description="Run the model at STEPS evenly spaced values of KEY from START to STOP (both "
-                                   "included), the other inputs as in the file.")
-    p.add_argument("file")
-    p.add_argument("key", help="dotted scenario key, e.g. wind.mean_speed_mps")
-    p.add_argument("start", type=_finite)
-    p.add_argument("stop", type=_finite)
-    p.add_argument("steps", type=whole_number(1, 10000), help="number of values, START and STOP included")
-    p.add_argument("--json", action="store_true", help="print JSON")
-    p.add_argument("--breakeven", action="store_true", help="also solve the break-even PPA price at each value")
-    p.add_argument("--metrics", metavar="LIST", help="comma-separated metrics for the table columns")
-    p.set_defaults(func=cmd_sweep)
-
-    t = sub.add_parser("tornado", help="one-at-a-time swings of the uncertain inputs, largest first",
-                       description="Move each input between its P10 and P90 ([montecarlo.vary]) or +-10 %, one at a "
-                                   "time, and sort by the effect on a metric.")
-    t.add_argument("file")
-    t.add_argument("--metric", default="lcoe_nominal_per_mwh", help="metric to rank by (default %(default)s)")
-    t.add_argument("--inputs", metavar="LIST", help=f"comma-separated keys (default: the vary keys, the main "
-                                                    f"drivers and {ENERGY_INPUT})")
-    t.add_argument("--json", action="store_true", help="print JSON")
-    t.set_defaults(func=cmd_tornado)
-
-    s = sub.add_parser("solve", help="the value of one input that meets a target metric",
-                       description="Goal seek: find the value of KEY that gives METRIC = VALUE (Brent's method).")
-    s.add_argument("file")
-    s.add_argument("--target", required=True, metavar="METRIC=VALUE",
-                   help="e.g. lcoe_nominal_per_mwh=50 or equity_irr=0.10 (or 10%%)")
-    s.add_argument("--vary", required=True, metavar="KEY", help="dotted scenario key to vary")
-    s.add_argument("--low", type=_finite, help="low end of the search range (default 0.1x the scenario value)")
-    s.add_argument("--high", type=_finite, help="high end of the search range (default 10x)")
-    s.add_argument("--json", action="store_true", help="print JSON")
-    s.set_defaults(func=cmd_solve)
+def workbook_set(scn, metric: str = "lcoe_nominal_per_mwh") -> SensitivitySet:
+    """The tornado on ``metric`` and a 0.7x..1.3x sweep of the mean wind speed (13 runs)."""
+    rows = tornado(scn, metric=metric)
+    key = speed_key(scn)
+    if key is None:
+        return SensitivitySet(metric, rows, None)
+    base = float(getattr(scn.wind, key.split(".")[1]))
+    return SensitivitySet(metric, rows, key, WORKBOOK_SWEEP_FACTORS,
+                          sweep(scn, key, [base * x for x in WORKBOOK_SWEEP_FACTORS]))

@@ -13,10 +13,24 @@ from openpyxl.chart import BarChart, LineChart, Reference, Series
 from openpyxl.styles import Alignment
 from openpyxl.utils import get_column_letter
 
-from lcoe.model import METRIC_KEYS
-from lcoe.workbook_cells import (BOLD, ENGINE_FILL, EXTRA_MC, FORMATS, HEAD_FILL, HISTOGRAM_KEYS, ITALIC, METRICS,
-                                 MONTECARLO, SENSITIVITY, T0_COL, TITLE, YEAR_ROW, Book, Timeline)
-
+from lcoe.engine import METRIC_KEYS
+from lcoe.outputs.workbook.cells import (
+    BOLD,
+    ENGINE_FILL,
+    EXTRA_MC,
+    FORMATS,
+    HEAD_FILL,
+    HISTOGRAM_KEYS,
+    ITALIC,
+    METRICS,
+    MONTECARLO,
+    SENSITIVITY,
+    T0_COL,
+    TITLE,
+    YEAR_ROW,
+    Book,
+    Timeline,
+)
 
 # --------------------------------------------------------------------------- charts
 
@@ -188,17 +202,8 @@ def _value_format(v) -> str:
     return "money" if abs(v) >= 1000 else "price" if abs(v) >= 1 else "rate"
 
 
-def _sweep_key(scn) -> str | None:
-    if scn.wind.mean_speed_mps is not None:
-        return "wind.mean_speed_mps"
-    if scn.wind.weibull_scale_mps is not None:
-        return "wind.weibull_scale_mps"
-    return None
-
-
-def write_sensitivity(book: Book, report, sens) -> None:
-    """The Sensitivity sheet: the LCOE tornado and a 0.7x..1.3x sweep of the mean wind speed (13 runs)."""
-    scn = report.case.scenario
+def write_sensitivity(book: Book, sens) -> None:
+    """The Sensitivity sheet: a tornado and a sweep of the mean wind speed (:func:`lcoe.analysis.sensitivity.workbook_set`)."""
     ws = book.sheet(SENSITIVITY)
     b = book
     b.text(ws, 1, 1, "Sensitivity", font=TITLE)
@@ -206,9 +211,8 @@ def write_sensitivity(book: Book, report, sens) -> None:
                      "Re-run lcoe to refresh them.", font=BOLD, fill=ENGINE_FILL)
     for col, width in zip("ABCDEFGHIJ", (40, 16, 16, 16, 20, 18, 18, 18, 18, 26)):
         ws.column_dimensions[col].width = width
-    metric = "lcoe_nominal_per_mwh"
-    label, unit, fmt = label_of(metric, book)
-    rows = sens.tornado(scn, metric=metric)   # largest swing first
+    label, unit, fmt = label_of(sens.metric, book)
+    rows = sens.tornado   # largest swing first
     row = 4
     b.text(ws, row, 1, f"Tornado: {label} [{unit}], one input at a time", font=BOLD, fill=HEAD_FILL)
     row += 1
@@ -246,14 +250,12 @@ def write_sensitivity(book: Book, report, sens) -> None:
         ch.width, ch.height = 22, max(8.0, 0.7 * len(rows) + 3)
         ws.add_chart(ch, f"L{first - 1}")
 
-    key = _sweep_key(scn)
+    key = sens.sweep_key
     row += 3
     if key is None:
         b.text(ws, row, 1, "Wind-speed sweep: not available for a time-series climate", font=ITALIC)
         return
-    base = float(getattr(scn.wind, key.split(".")[1]))
-    factors = [round(0.7 + 0.05 * i, 10) for i in range(13)]
-    sweep = sens.sweep(scn, key, [base * x for x in factors])
+    factors, sweep = sens.sweep_factors, sens.sweep
     b.text(ws, row, 1, f"Wind-speed sweep of {key} (0.7x to 1.3x)", font=BOLD, fill=HEAD_FILL)
     row += 1
     heads = ("Factor on the base", "Speed [m/s]", "Net AEP P50 [MWh/yr]", f"LCOE, nominal [{b.unit('{cur}')}/MWh]",

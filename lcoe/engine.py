@@ -12,13 +12,13 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq
 
-from lcoe import cashflow, energy as en, metrics as mt
-from lcoe.cashflow import Flows, Inputs, Sample, Schedule
-
-try:  # the fused trial kernel; evaluate() and batch_metrics() give the same figures without it
-    from lcoe import kernels as _kernels
-except ImportError:  # pragma: no cover - numba is a declared dependency
-    _kernels = None
+from lcoe.finance import (
+    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
+    cashflow,
+)
+from lcoe.finance import metrics as mt
+from lcoe.finance.cashflow import Flows, Inputs, Sample, Schedule
+from lcoe.physics import energy as en
 
 METRIC_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
                "equity_irr", "debt_amount", "min_dscr", "avg_dscr", "llcr", "payback_year",
@@ -88,8 +88,8 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     """Monte Carlo metrics of a batch of trials whose debt is fixed at close, in one compiled pass.
 
     The same figures as :func:`evaluate` with ``lean=True`` followed by the mean net
-    energy and O&M, but the yearly lines are never stored: ``lcoe.kernels.trial_rows``
-    runs them row by row from :func:`lcoe.cashflow.terms`. Returns TRIAL_KEYS plus
+    energy and O&M, but the yearly lines are never stored: ``lcoe.finance._kernels.trial_rows``
+    runs them row by row from :func:`lcoe.finance.cashflow.terms`. Returns TRIAL_KEYS plus
     ``capex_total`` and ``debt_amount``, one value per trial.
     """
     tm = cashflow.terms(scn, energy, overrides, sample)

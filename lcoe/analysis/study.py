@@ -1,0 +1,79 @@
+"""A full study of one scenario: the base case, its variants, the Monte Carlo and the sensitivity
+set that the lender workbook shows, gathered in one :class:`Report`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from lcoe.analysis import montecarlo
+from lcoe.analysis import sensitivity as sens
+from lcoe.engine import Case, run
+
+
+@dataclass
+class Report:
+    case: Case
+    variants: dict = field(default_factory=dict)    # name -> Case
+    montecarlo: object | None = None                # montecarlo.MonteCarloResult
+    sensitivity: object | None = None               # sensitivity.SensitivitySet (shown by the workbook only)
+
+    def to_dict(self) -> dict:
+        c = self.case
+        warnings = list(c.warnings)
+        out = {
+            "scenario": c.scenario.project.name,
+            "warnings": warnings,
+            "energy": c.energy.report(),
+            "costs": costs_block(c),
+            "metrics": dict(c.metrics),
+            "annual": c.annual(),
+        }
+        if self.montecarlo is not None:
+            out["montecarlo"] = self.montecarlo.report()
+            warnings.extend(w for w in self.montecarlo.warnings if w not in warnings)
+        out["variants"] = {}
+        for name, v in self.variants.items():
+            out["variants"][name] = {"metrics": dict(v.metrics), "energy": v.energy.report()}
+            warnings.extend(f"variant {name}: {w}" for w in v.warnings if w not in c.warnings)
+        for key, value in out["energy"].items():
+            if value is None or (isinstance(value, float) and not math.isfinite(value)):
+                warnings.append(f"energy.{key} is null: not defined for this scenario")
+        return clean(out)
+
+
+def costs_block(case: Case) -> dict:
+    f = case.flows
+    return {"capex_total": float(f.capex_total[0, 0]), "opex_year1": float(f.opex[0, 1]),
+            "decommissioning_net": float(f.decommissioning[0, -1])}
+
+
+def build(scn, *, trials: int | None = None, variants: bool = True, progress=None,
+          sensitivity: bool = False) -> Report:
+    """Run the base case, each variant, (when trials > 0) the Monte Carlo and (when
+    ``sensitivity``) the tornado and wind-speed sweep that the lender workbook shows."""
+    case = run(scn)
+    rep = Report(case)
+    if variants:
+        for name in scn.variants:
+            rep.variants[name] = run(scn.variant(name))
+    n = scn.montecarlo.trials if trials is None else trials
+    if n and n > 0:
+        rep.montecarlo = montecarlo.monte_carlo(scn, case, trials=n, progress=progress)
+    if sensitivity:
+        rep.sensitivity = sens.workbook_set(scn)
+    return rep
+
+
+def clean(obj):
+    """Plain floats for JSON; NaN and infinities become None."""
+    if isinstance(obj, dict):
+        return {k: clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [clean(v) for v in obj]
+    if hasattr(obj, "item") and not isinstance(obj, (str, bytes)):
+        obj = obj.item()
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    return obj

@@ -1,0 +1,115 @@
+"""The ``lcoe`` command.
+
+The parser is built here without importing the engine, so that ``lcoe --help`` is
+quick; each command's module (``lcoe.cli.run``, ``lcoe.cli.sensitivity``,
+``lcoe.cli.bench``, ``lcoe.cli.app``) is imported only when that command runs.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from lcoe.cli.options import finite_number, nonneg_int, whole_number
+from lcoe.inputs.about import CAUTION, __version__
+from lcoe.inputs.errors import ScenarioError
+
+
+def _command(p, target: str) -> None:
+    p.set_defaults(func=target)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(prog="lcoe", description="LCOE and project finance of one wind site. " + CAUTION)
+    p.add_argument("--version", action="version", version=f"lcoe {__version__}")
+    sub = p.add_subparsers(dest="command", required=True)
+
+    c = sub.add_parser("check", help="validate a scenario file and its data files")
+    c.add_argument("file")
+    _command(c, "lcoe.cli.run:cmd_check")
+
+    r = sub.add_parser("run", help="energy, costs, cash flow and metrics of a scenario")
+    r.add_argument("file")
+    r.add_argument("--json", action="store_true", help="print the JSON report")
+    r.add_argument("--trials", type=nonneg_int, default=None, help="Monte Carlo trials (overrides the file)")
+    r.add_argument("--workbook", metavar="PATH", help="write the lender workbook (.xlsx)")
+    r.add_argument("--csv", metavar="PATH", help="write the yearly table as CSV")
+    r.add_argument("--brief", action="store_true", help="table output without the yearly rows")
+    _command(r, "lcoe.cli.run:cmd_run")
+
+    s = sub.add_parser("sweep", help="the model over a range of one input (with the AEP elasticity)",
+                       description="Run the model at STEPS evenly spaced values of KEY from START to STOP (both "
+                                   "included), the other inputs as in the file.")
+    s.add_argument("file")
+    s.add_argument("key", help="dotted scenario key, e.g. wind.mean_speed_mps")
+    s.add_argument("start", type=finite_number)
+    s.add_argument("stop", type=finite_number)
+    s.add_argument("steps", type=whole_number(1, 10000), help="number of values, START and STOP included")
+    s.add_argument("--json", action="store_true", help="print JSON")
+    s.add_argument("--breakeven", action="store_true", help="also solve the break-even PPA price at each value")
+    s.add_argument("--metrics", metavar="LIST", help="comma-separated metrics for the table columns")
+    _command(s, "lcoe.cli.sensitivity:cmd_sweep")
+
+    t = sub.add_parser("tornado", help="one-at-a-time swings of the uncertain inputs, largest first",
+                       description="Move each input between its P10 and P90 ([montecarlo.vary]) or +-10 %, one at a "
+                                   "time, and sort by the effect on a metric.")
+    t.add_argument("file")
+    t.add_argument("--metric", default="lcoe_nominal_per_mwh", help="metric to rank by (default %(default)s)")
+    t.add_argument("--inputs", metavar="LIST", help="comma-separated keys (default: the vary keys, the main "
+                                                    "drivers and net_aep_p90_p10_10yr)")
+    t.add_argument("--json", action="store_true", help="print JSON")
+    _command(t, "lcoe.cli.sensitivity:cmd_tornado")
+
+    v = sub.add_parser("solve", help="the value of one input that meets a target metric",
+                       description="Goal seek: find the value of KEY that gives METRIC = VALUE (Brent's method).")
+    v.add_argument("file")
+    v.add_argument("--target", required=True, metavar="METRIC=VALUE",
+                   help="e.g. lcoe_nominal_per_mwh=50 or equity_irr=0.10 (or 10%%)")
+    v.add_argument("--vary", required=True, metavar="KEY", help="dotted scenario key to vary")
+    v.add_argument("--low", type=finite_number, help="low end of the search range (default 0.1x the scenario value)")
+    v.add_argument("--high", type=finite_number, help="high end of the search range (default 10x)")
+    v.add_argument("--json", action="store_true", help="print JSON")
+    _command(v, "lcoe.cli.sensitivity:cmd_solve")
+
+    b = sub.add_parser("bench", help="time the engine on the demo scenario (Monte Carlo, loop, deterministic)")
+    b.add_argument("file", nargs="?", default=None, help="scenario (default: the demo)")
+    b.add_argument("--trials", type=nonneg_int, default=100_000)
+    b.add_argument("--loop-sample", type=nonneg_int, default=500, help="trials timed in the per-trial loop")
+    b.add_argument("--repeat", type=nonneg_int, default=5, help="Monte Carlo runs timed (the median is reported)")
+    b.add_argument("--json", action="store_true")
+    _command(b, "lcoe.cli.bench:cmd_bench")
+
+    a = sub.add_parser("app", help="start the interactive app in the browser (Streamlit)")
+    a.add_argument("--port", type=whole_number(1, 65535), default=8501, help="port to serve on (default 8501)")
+    a.add_argument("--address", default="127.0.0.1",
+                   help="address to listen on (default 127.0.0.1, this machine only)")
+    _command(a, "lcoe.cli.app:cmd_app")
+    return p
+
+
+def _resolve(target: str):
+    module, name = target.split(":")
+    return getattr(importlib.import_module(module), name)
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse prints its own one-line usage error
+        return int(exc.code or 0) if exc.code in (0, None) else 2
+    try:
+        return int(_resolve(args.func)(args) or 0)
+    except ScenarioError as exc:
+        print(f"error: {exc.line()}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,4 @@
+"""Physics: wind climate, power curves, the AEP integral, gross-to-net yield and P-values.
+
+Imports only :mod:`lcoe.inputs`.
+"""
