@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
 from lcoe import engine as model
-from lcoe.finance import cashflow
+from lcoe.finance import tax
 from lcoe.finance.cashflow import Sample
 from lcoe.inputs import scenario as sc
 
@@ -26,7 +26,7 @@ PUB946_A1_7YR = [14.29, 24.49, 17.49, 12.49, 8.93, 8.92, 8.93, 4.46]
 @pytest.mark.parametrize("method, table", [("macrs_5", PUB946_A1_5YR), ("macrs_7", PUB946_A1_7YR)])
 def test_macrs_shares_equal_publication_946_table_a1(method, table):
     """Source: US IRS Publication 946, Table A-1 (tolerance 1e-4)."""
-    shares = cashflow.depreciation_shares(method, 20, 25)
+    shares = tax.depreciation_shares(method, 20, 25)
     assert_allclose(shares[:len(table)], np.array(table) / 100.0, atol=1e-4)
     assert_allclose(shares[len(table):], 0.0, atol=1e-15)
 
@@ -56,7 +56,7 @@ def test_macrs_tables_follow_the_publication_946_method(method, n, factor):
     """All four tables against the method of IRS Publication 946 (200 % DB for 5 and 7 years,
     150 % DB for 15 and 20 years, switch to straight line, half-year convention); the table is
     printed rounded, hence 1e-4."""
-    shares = cashflow.depreciation_shares(method, 20, 40)
+    shares = tax.depreciation_shares(method, 20, 40)
     assert_allclose(shares[:n + 1], _macrs_from_the_method(n, factor), atol=1e-4)
     assert shares.sum() == pytest.approx(1.0, abs=1e-12)
 
@@ -64,8 +64,8 @@ def test_macrs_tables_follow_the_publication_946_method(method, n, factor):
 def test_straight_line_and_double_declining_balance_by_hand():
     """Straight line 1/N; declining balance at 2/N switching to straight line: for N = 5 the
     textbook sequence 40 %, 24 %, 14.4 %, 10.8 %, 10.8 % (computed by hand from the method)."""
-    assert_allclose(cashflow.depreciation_shares("straight_line", 4, 6), [0.25] * 4 + [0, 0], atol=1e-15)
-    assert_allclose(cashflow.depreciation_shares("declining_balance", 5, 5), [0.40, 0.24, 0.144, 0.108, 0.108],
+    assert_allclose(tax.depreciation_shares("straight_line", 4, 6), [0.25] * 4 + [0, 0], atol=1e-15)
+    assert_allclose(tax.depreciation_shares("declining_balance", 5, 5), [0.40, 0.24, 0.144, 0.108, 0.108],
                     atol=1e-12)
 
 
@@ -75,7 +75,7 @@ def test_straight_line_and_double_declining_balance_by_hand():
 def test_every_method_depreciates_exactly_the_base(method, years, lifetime):
     """Whatever the method and the life, the shares sum to one: the whole base, no more.
     A life shorter than the schedule writes the rest off in year L (README convention)."""
-    shares = cashflow.depreciation_shares(method, years, lifetime)
+    shares = tax.depreciation_shares(method, years, lifetime)
     assert shares.shape == (lifetime,)
     assert shares.sum() == pytest.approx(1.0, abs=1e-12)
     assert np.all(shares >= -1e-15)
@@ -109,7 +109,7 @@ def _tax_loop(taxable, rate):
 @settings(max_examples=300, deadline=None)
 @given(st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=1, max_size=40), st.floats(0.0, 0.6))
 def test_tax_with_carryforward_matches_a_plain_loop(taxable, rate):
-    got = cashflow.tax_with_carryforward(np.array(taxable), rate)
+    got = tax.tax_with_carryforward(np.array(taxable), rate)
     assert_allclose(got, _tax_loop(taxable, rate), rtol=1e-9, atol=1e-6)
 
 
@@ -117,14 +117,14 @@ def test_tax_with_carryforward_matches_a_plain_loop(taxable, rate):
 @given(st.integers(1, 30).flatmap(lambda n: st.lists(
     st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=n, max_size=n), min_size=1, max_size=8)))
 def test_tax_with_carryforward_by_rows(rows):
-    got = cashflow.tax_with_carryforward(np.array(rows), 0.25)
+    got = tax.tax_with_carryforward(np.array(rows), 0.25)
     for g, r in zip(got, rows):
         assert_allclose(g, _tax_loop(r, 0.25), rtol=1e-9, atol=1e-6)
 
 
 def test_tax_carryforward_small_case_by_hand():
     # losses 100 then 50 build a pool of 150; 80 uses 80 of it; 120 uses the last 70 and 50 is taxed at 30 %
-    assert_allclose(cashflow.tax_with_carryforward(np.array([-100.0, -50.0, 80.0, 120.0]), 0.3), [0, 0, 0, 15.0])
+    assert_allclose(tax.tax_with_carryforward(np.array([-100.0, -50.0, 80.0, 120.0]), 0.3), [0, 0, 0, 15.0])
 
 
 # --------------------------------------------------------------------------- debt

@@ -8,8 +8,8 @@ import numpy_financial as npf
 import pytest
 
 from lcoe.finance import _kernels as kernels
-from lcoe.finance import cashflow
 from lcoe.finance import metrics as mt
+from lcoe.finance import tax
 from lcoe.physics import energy
 
 
@@ -40,9 +40,9 @@ def test_tax_kernel_equals_the_running_maximum_formula(monkeypatch):
     rng = np.random.default_rng(3)
     taxable = rng.normal(1.0, 2.0, (300, 25))
     rate = rng.uniform(0.1, 0.4, (300, 1))
-    fast = cashflow.tax_with_carryforward(taxable, rate)
-    monkeypatch.setattr(cashflow, "_kernels", None)
-    slow = cashflow.tax_with_carryforward(taxable, rate)
+    fast = tax.tax_with_carryforward(taxable, rate)
+    monkeypatch.setattr(tax, "_kernels", None)
+    slow = tax.tax_with_carryforward(taxable, rate)
     np.testing.assert_allclose(fast, slow, rtol=1e-12, atol=1e-12)
     assert (fast >= 0).all()
 
@@ -106,7 +106,7 @@ def _wide_vary(scn) -> dict:
     """A uniform spread of +-15 % on every input a trial may vary without re-integrating the
     curve (the hub speed through the mean speed; other wind and turbine keys integrate
     each row afresh and are covered by the array path alone)."""
-    from lcoe.inputs.scenario import numeric_keys, numeric_value
+    from lcoe.inputs.keys import numeric_keys, numeric_value
     vary = {}
     for key in numeric_keys(scn):
         if key.startswith(("project.", "turbine.")) or (key.startswith("wind.") and key != "wind.mean_speed_mps"):

@@ -33,7 +33,7 @@ from openpyxl.utils import range_boundaries
 from lcoe import cli
 from lcoe import engine as model
 from lcoe.analysis import study
-from lcoe.finance.cashflow import debt_service_scale
+from lcoe.finance.debt import debt_service_scale
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.about import CAUTION
 from lcoe.inputs.errors import ScenarioError

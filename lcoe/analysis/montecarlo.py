@@ -38,7 +38,7 @@ from lcoe.finance import (
 from lcoe.finance.cashflow import Sample
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
-from lcoe.inputs.scenario import numeric_value
+from lcoe.inputs.keys import numeric_value
 
 BLOCK = 8192  # trials per random-number block
 HIST_BINS = 40

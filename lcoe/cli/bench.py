@@ -21,9 +21,9 @@ import numpy_financial as npf
 from lcoe import engine as model
 from lcoe.analysis import montecarlo as uncertainty
 from lcoe.demo_files import demo_scenario
-from lcoe.finance.cashflow import depreciation_shares
+from lcoe.finance.tax import depreciation_shares
 from lcoe.inputs import scenario
-from lcoe.inputs.scenario import LOSS_CATEGORIES
+from lcoe.inputs.schema import LOSS_CATEGORIES
 from lcoe.physics import energy as en
 
 DEMO = demo_scenario()

@@ -12,139 +12,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lcoe.finance import costs
-from lcoe.inputs.scenario import LOSS_CATEGORIES
+from lcoe.finance.debt import Schedule, size_debt
+from lcoe.finance.tax import depreciation_shares, tax_with_carryforward
+from lcoe.inputs.schema import LOSS_CATEGORIES
 from lcoe.physics import energy as en
 from lcoe.physics import wind as resource
 from lcoe.physics.wind import Z_90, Z_99
 
-DEBT_TOLERANCE = 1e-12   # change of the debt and of each year's debt service (to capex) that ends the sizing iteration
-DEBT_MAX_ITER = 200
-
-# Modified ACRS, general depreciation system, half-year convention: US IRS Publication 946, Table A-1.
-MACRS = {
-    "macrs_5": [20.00, 32.00, 19.20, 11.52, 11.52, 5.76],
-    "macrs_7": [14.29, 24.49, 17.49, 12.49, 8.93, 8.92, 8.93, 4.46],
-    "macrs_15": [5.00, 9.50, 8.55, 7.70, 6.93, 6.23, 5.90, 5.90, 5.91, 5.90, 5.91, 5.90, 5.91, 5.90, 5.91, 2.95],
-    "macrs_20": [3.750, 7.219, 6.677, 6.177, 5.713, 5.285, 4.888, 4.522, 4.462, 4.461, 4.462, 4.461, 4.462,
-                 4.461, 4.462, 4.461, 4.462, 4.461, 4.462, 4.461, 2.231],
-}
-
 SPEED_KEYS = ("wind.mean_speed_mps", "wind.weibull_scale_mps")
-
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
-
-
-def depreciation_shares(method: str, years: int, lifetime: int) -> np.ndarray:
-    """Share of the depreciable base written off in each operating year t = 1..L.
-
-    ``straight_line``: 1/N a year. ``declining_balance``: twice the straight-line rate
-    on the remaining book value, switching to straight line over the remaining years
-    when that is larger. ``macrs_*``: US IRS Publication 946, Table A-1 (half-year
-    convention). Whatever is left at the end of the life is written off in year L,
-    so the shares always sum to one.
-    """
-    if method == "straight_line":
-        shares = np.full(years, 1.0 / years)
-    elif method == "declining_balance":
-        shares = np.empty(years)
-        book = 1.0
-        for t in range(years):
-            dep = max(book * 2.0 / years, book / (years - t))
-            dep = min(dep, book)
-            shares[t] = dep
-            book -= dep
-    else:
-        shares = np.asarray(MACRS[method], float) / 100.0
-    out = np.zeros(lifetime)
-    k = min(lifetime, shares.size)
-    out[:k] = shares[:k]
-    out[lifetime - 1] += 1.0 - out.sum()
-    return out
-
-
-def tax_with_carryforward(taxable, rate):
-    """Cash tax with losses carried forward without limit, never negative.
-
-    The income taxed in year t is the rise of the running maximum of cumulative
-    taxable income (starting from zero): a loss builds a pool that later profits
-    use up before any tax is due.
-    """
-    taxable = np.asarray(taxable, float)
-    if taxable.size == 0 or taxable.min() >= 0:   # no loss anywhere: tax is simply rate * income
-        return rate * taxable
-    if _kernels is not None and taxable.ndim == 2:
-        rows = np.ascontiguousarray(np.broadcast_to(np.asarray(rate, float).reshape(-1, 1),
-                                                    (taxable.shape[0], 1))[:, 0])
-        return _kernels.carry_rows(np.ascontiguousarray(taxable), rows, np.empty_like(taxable))
-    if taxable.ndim < 2:
-        return _carry(taxable, rate)
-    # rows without a loss keep the plain product, so a row's tax never depends on its batch
-    return np.where((taxable < 0).any(axis=-1, keepdims=True), _carry(taxable, rate), rate * taxable)
-
-
-def _carry(taxable, rate):
-    cum = np.cumsum(taxable, axis=-1)
-    np.maximum(cum, 0.0, out=cum)
-    peak = np.maximum.accumulate(cum, axis=-1)
-    taxed = np.empty_like(peak)
-    taxed[..., :1] = peak[..., :1]
-    np.subtract(peak[..., 1:], peak[..., :-1], out=taxed[..., 1:])
-    return rate * taxed
-
-
-@dataclass(frozen=True)
-class Schedule:
-    """A debt schedule fixed at financial close; arrays over t = 1..L."""
-
-    debt: np.ndarray          # (n, 1)
-    debt_service: np.ndarray  # (n, L)
-    interest: np.ndarray
-    principal: np.ndarray
-    balance_open: np.ndarray
-    fee: np.ndarray           # (n, 1)
-    sizing_cfads: np.ndarray  # (n, L), CFADS of the sizing case at close
-    iterations: int
-    gearing_bound: np.ndarray  # (n, 1) bool
-
-
-def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
-    """Debt service sculpted to CFADS / target over the tenor, and the debt it carries.
-
-    Returns (debt_service, debt, gearing_bound). The debt is the present value of
-    debt service at the interest rate, capped at ``cap``; where the cap binds the
-    debt service is scaled down in proportion.
-    """
-    years = np.arange(1, cfads.shape[-1] + 1)
-    disc = (1.0 + rate) ** -years
-    ds = np.maximum(cfads, 0.0) / target_dscr * tenor_mask
-    pv = (ds * disc).sum(axis=-1, keepdims=True)
-    bound = pv > cap
-    scale = np.where(bound, cap / np.where(pv > 0, pv, 1.0), 1.0)
-    return ds * scale, np.minimum(pv, cap), bound
-
-
-def debt_service_scale(schedule, target_dscr: float) -> float:
-    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise)."""
-    if schedule is None or not bool(np.asarray(schedule.gearing_bound).ravel()[0]):
-        return 1.0
-    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / target_dscr
-    on = schedule.debt_service[0] > 0
-    total = float(raw[on].sum())
-    return float(schedule.debt_service[0][on].sum() / total) if total > 0 else 1.0
-
-
-def amortise(debt_service, rate):
-    """Opening balance, interest and principal of a schedule whose PV at ``rate`` is the debt."""
-    L = debt_service.shape[-1]
-    years = np.arange(1, L + 1)
-    disc = (1.0 + rate) ** -years
-    pv_from = np.cumsum((debt_service * disc)[..., ::-1], axis=-1)[..., ::-1]
-    opening = pv_from * (1.0 + rate) ** (years - 1)
-    interest = opening * rate
-    return opening, interest, debt_service - interest
-
 
 @dataclass
 class Flows:
@@ -524,35 +399,3 @@ def _line(rows: int, years: int, t0) -> np.ndarray:
     out = np.empty((rows, years + 1))
     out[:, 0] = t0 if np.ndim(t0) == 0 else np.asarray(t0).ravel()
     return out
-
-
-def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, target_dscr, max_gearing,
-              tenor_years, interest_rate, upfront_fee, years) -> Schedule:
-    """Size sculpted debt on the sizing case (energy scaled by P_case / P50).
-
-    DS_t = CFADS_t / target_dscr over the tenor; debt = min(PV of DS at the interest
-    rate, max_gearing * capex). Interest lowers tax, which raises CFADS and the debt:
-    the loop repeats until the debt and every year's debt service change by less than
-    DEBT_TOLERANCE * capex (when the gearing cap binds the debt is fixed from the start,
-    but the shape of the debt service, and so the interest, still moves).
-    """
-    rev_s, om_s = operating(energy_t * case_factor)
-    pre_tax = rev_s - om_s - decom_t
-    mask = (years <= tenor_years).astype(float)
-    cap = max_gearing * capex
-    interest = np.zeros_like(pre_tax)
-    debt_prev = np.full(np.shape(capex), -1.0)
-    ds_prev = None
-    tol = DEBT_TOLERANCE * np.maximum(np.abs(capex), 1.0)
-    for it in range(1, DEBT_MAX_ITER + 1):
-        tax = tax_with_carryforward(pre_tax - dep - interest, tax_rate)
-        cfads = pre_tax - tax
-        ds, debt, bound = sculpt(cfads, target_dscr, mask, interest_rate, cap)
-        opening, interest, principal = amortise(ds, interest_rate)
-        if np.all(np.abs(debt - debt_prev) <= tol) and ds_prev is not None and np.all(np.abs(ds - ds_prev) <= tol):
-            break
-        debt_prev, ds_prev = debt, ds
-    debt = np.asarray(debt).reshape(-1, 1)
-    fee = upfront_fee * debt
-    return Schedule(debt, ds, interest, principal, opening, np.asarray(fee).reshape(-1, 1), cfads, it,
-                    np.asarray(bound).reshape(-1, 1))

@@ -14,7 +14,7 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter, quote_sheetname
 from openpyxl.workbook.defined_name import DefinedName
 
-from lcoe.inputs.scenario import DEPRECIATION_METHODS, LOSS_CATEGORIES, SIZING_CASES
+from lcoe.inputs.schema import DEPRECIATION_METHODS, LOSS_CATEGORIES, SIZING_CASES
 
 # sheet names (plain trade words)
 SUMMARY, INPUTS, ENERGY, CASHFLOW, DEBT = "Summary", "Inputs", "Energy", "Cash flow", "Debt"

@@ -7,7 +7,7 @@ debt at close, the break-even price) follows as marked engine values (grey).
 References
 ----------
 MACRS tables: US IRS Publication 946, Table A-1 (half-year convention), as held in
-:data:`lcoe.finance.cashflow.MACRS`.
+:data:`lcoe.finance.tax.MACRS`.
 """
 
 from __future__ import annotations
@@ -15,7 +15,8 @@ from __future__ import annotations
 from openpyxl.styles import Alignment
 from openpyxl.worksheet.datavalidation import DataValidation
 
-from lcoe.finance.cashflow import MACRS, debt_service_scale
+from lcoe.finance.debt import debt_service_scale
+from lcoe.finance.tax import MACRS
 from lcoe.outputs.workbook.cells import (
     BLUE,
     BOLD,
@@ -253,11 +254,11 @@ def write_inputs(book: Book, report) -> InputSheet:
              ("Item", "Value", "Unit", "Source", "", "Why it is not a formula"))
     v("gross_aep_per_turbine_mwh", "Gross AEP per turbine", float(fl.gross_aep_mwh[0, 0]) / p.turbines, "MWh/yr",
       "lcoe.physics.energy", "mwh", "the Weibull integral (or series mean) over the site power curve", engine=True)
-    v("debt_at_close", "Debt at close", float(fl.debt[0, 0]), "{cur}", "lcoe.finance.cashflow.size_debt", "money",
+    v("debt_at_close", "Debt at close", float(fl.debt[0, 0]), "{cur}", "lcoe.finance.debt.size_debt", "money",
       "converged through the interest-tax circularity; the Checks sheet tests it against the live schedule",
       engine=True)
     v("debt_service_scale", "Debt-service scale (gearing cap)", debt_service_scale(sched, target), "-",
-      "lcoe.finance.cashflow.sculpt", "factor", "1 unless the gearing cap binds; then the share of CFADS / target kept",
+      "lcoe.finance.debt.sculpt", "factor", "1 unless the gearing cap binds; then the share of CFADS / target kept",
       engine=True)
     v("breakeven_engine", "Break-even PPA price", case.metrics.get("breakeven_ppa_price_per_mwh"), "{cur}/MWh",
       "lcoe.engine.breakeven_price", "price", "a goal seek that re-sizes the debt at every trial price",
@@ -286,7 +287,7 @@ def write_inputs(book: Book, report) -> InputSheet:
     macrs_rows = [(t + 1, *[MACRS[k][t] if t < len(MACRS[k]) else None for k in MACRS]) for t in range(n_years)]
     first, last = inp.table("MACRS depreciation tables, percent of base by year (US IRS Publication 946, "
                             "Table A-1, half-year convention)", ("Year", *MACRS.keys()), macrs_rows,
-                            ("int",) + ("rate",) * len(MACRS), {}, engine=True, note="lcoe.finance.cashflow.MACRS")
+                            ("int",) + ("rate",) * len(MACRS), {}, engine=True, note="lcoe.finance.tax.MACRS")
     book.name("macrs_table", ws, f"{absolute(2, first)}:{absolute(1 + len(MACRS), last)}")
     book.name("macrs_methods", ws, f"{absolute(2, first - 1)}:{absolute(1 + len(MACRS), first - 1)}")
     return inp

@@ -1,0 +1,98 @@
+"""Debt sculpted to a target DSCR: the schedule fixed at close, its amortisation and the
+sizing iteration through interest and tax.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from lcoe.finance.tax import tax_with_carryforward
+
+DEBT_TOLERANCE = 1e-12   # change of the debt and of each year's debt service (to capex) that ends the sizing iteration
+DEBT_MAX_ITER = 200
+
+
+@dataclass(frozen=True)
+class Schedule:
+    """A debt schedule fixed at financial close; arrays over t = 1..L."""
+
+    debt: np.ndarray          # (n, 1)
+    debt_service: np.ndarray  # (n, L)
+    interest: np.ndarray
+    principal: np.ndarray
+    balance_open: np.ndarray
+    fee: np.ndarray           # (n, 1)
+    sizing_cfads: np.ndarray  # (n, L), CFADS of the sizing case at close
+    iterations: int
+    gearing_bound: np.ndarray  # (n, 1) bool
+
+
+def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
+    """Debt service sculpted to CFADS / target over the tenor, and the debt it carries.
+
+    Returns (debt_service, debt, gearing_bound). The debt is the present value of
+    debt service at the interest rate, capped at ``cap``; where the cap binds the
+    debt service is scaled down in proportion.
+    """
+    years = np.arange(1, cfads.shape[-1] + 1)
+    disc = (1.0 + rate) ** -years
+    ds = np.maximum(cfads, 0.0) / target_dscr * tenor_mask
+    pv = (ds * disc).sum(axis=-1, keepdims=True)
+    bound = pv > cap
+    scale = np.where(bound, cap / np.where(pv > 0, pv, 1.0), 1.0)
+    return ds * scale, np.minimum(pv, cap), bound
+
+
+def debt_service_scale(schedule, target_dscr: float) -> float:
+    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise)."""
+    if schedule is None or not bool(np.asarray(schedule.gearing_bound).ravel()[0]):
+        return 1.0
+    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / target_dscr
+    on = schedule.debt_service[0] > 0
+    total = float(raw[on].sum())
+    return float(schedule.debt_service[0][on].sum() / total) if total > 0 else 1.0
+
+
+def amortise(debt_service, rate):
+    """Opening balance, interest and principal of a schedule whose PV at ``rate`` is the debt."""
+    L = debt_service.shape[-1]
+    years = np.arange(1, L + 1)
+    disc = (1.0 + rate) ** -years
+    pv_from = np.cumsum((debt_service * disc)[..., ::-1], axis=-1)[..., ::-1]
+    opening = pv_from * (1.0 + rate) ** (years - 1)
+    interest = opening * rate
+    return opening, interest, debt_service - interest
+
+
+def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, target_dscr, max_gearing,
+              tenor_years, interest_rate, upfront_fee, years) -> Schedule:
+    """Size sculpted debt on the sizing case (energy scaled by P_case / P50).
+
+    DS_t = CFADS_t / target_dscr over the tenor; debt = min(PV of DS at the interest
+    rate, max_gearing * capex). Interest lowers tax, which raises CFADS and the debt:
+    the loop repeats until the debt and every year's debt service change by less than
+    DEBT_TOLERANCE * capex (when the gearing cap binds the debt is fixed from the start,
+    but the shape of the debt service, and so the interest, still moves).
+    """
+    rev_s, om_s = operating(energy_t * case_factor)
+    pre_tax = rev_s - om_s - decom_t
+    mask = (years <= tenor_years).astype(float)
+    cap = max_gearing * capex
+    interest = np.zeros_like(pre_tax)
+    debt_prev = np.full(np.shape(capex), -1.0)
+    ds_prev = None
+    tol = DEBT_TOLERANCE * np.maximum(np.abs(capex), 1.0)
+    for it in range(1, DEBT_MAX_ITER + 1):
+        tax = tax_with_carryforward(pre_tax - dep - interest, tax_rate)
+        cfads = pre_tax - tax
+        ds, debt, bound = sculpt(cfads, target_dscr, mask, interest_rate, cap)
+        opening, interest, principal = amortise(ds, interest_rate)
+        if np.all(np.abs(debt - debt_prev) <= tol) and ds_prev is not None and np.all(np.abs(ds - ds_prev) <= tol):
+            break
+        debt_prev, ds_prev = debt, ds
+    debt = np.asarray(debt).reshape(-1, 1)
+    fee = upfront_fee * debt
+    return Schedule(debt, ds, interest, principal, opening, np.asarray(fee).reshape(-1, 1), cfads, it,
+                    np.asarray(bound).reshape(-1, 1))

@@ -1,0 +1,334 @@
+"""The scenario schema: typed, validated sections of one site, and the conventions derived from them.
+
+Every value a user can get wrong is checked at the edge and reported as a
+:class:`~lcoe.inputs.errors.ScenarioError` that names the file, the dotted key and
+the value. Units live in the key names (``speed_mps``, ``cost_per_kw_year``);
+fractions are 0..1.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Any, Literal, get_args
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+SCHEMA_VERSION = 1
+
+Frac = Annotated[float, Field(ge=0.0, le=1.0)]
+LossFrac = Annotated[float, Field(ge=0.0, lt=1.0)]
+Pos = Annotated[float, Field(gt=0.0)]
+NonNeg = Annotated[float, Field(ge=0.0)]
+Rate = Annotated[float, Field(gt=-1.0, le=1.0)]
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+
+
+class Project(_Model):
+    name: Annotated[str, Field(min_length=1)]
+    currency: str = "EUR"
+    lifetime_years: Annotated[int, Field(ge=1, le=60)]
+    turbines: Annotated[int, Field(ge=1, le=10000)]
+
+
+class Wind(_Model):
+    height_m: Pos
+    mean_speed_mps: Annotated[float, Field(gt=0.0, lt=40.0)] | None = None
+    weibull_scale_mps: Annotated[float, Field(gt=0.0, lt=45.0)] | None = None
+    timeseries: Annotated[str, Field(min_length=1)] | None = None
+    weibull_shape: Annotated[float, Field(ge=0.5, le=10.0)] | None = None
+    shear_exponent: Annotated[float, Field(ge=-0.5, le=1.0)] | None = None
+    roughness_length_m: Annotated[float, Field(gt=0.0, lt=10.0)] | None = None
+    elevation_m: Annotated[float, Field(ge=-500.0, le=6000.0)] = 0.0
+    mean_temperature_c: Annotated[float, Field(ge=-60.0, le=60.0)] = 15.0
+    air_density_kgm3: Annotated[float, Field(ge=0.5, le=1.6)] | None = None
+    max_missing_share: Annotated[float, Field(ge=0.0, lt=1.0)] = 0.2
+
+    @model_validator(mode="after")
+    def _one_source(self) -> "Wind":
+        given = [k for k in ("mean_speed_mps", "weibull_scale_mps", "timeseries")
+                 if getattr(self, k) is not None]
+        if len(given) == 0:
+            raise _Cross("wind", None, "give exactly one of mean_speed_mps, weibull_scale_mps or timeseries",
+                         has_value=False)
+        if len(given) > 1:
+            raise _Cross(f"wind.{given[1]}", getattr(self, given[1]),
+                         f"cannot be given together with wind.{given[0]}; give exactly one of "
+                         "mean_speed_mps, weibull_scale_mps or timeseries")
+        if self.timeseries is None and self.weibull_shape is None:
+            raise _Cross("wind.weibull_shape", None, "is required with a Weibull climate (k > 0)",
+                         has_value=False)
+        if self.shear_exponent is not None and self.roughness_length_m is not None:
+            raise _Cross("wind.roughness_length_m", self.roughness_length_m,
+                         "cannot be given together with wind.shear_exponent; choose the power law or the log law")
+        return self
+
+    @property
+    def alpha(self) -> float:
+        return 1.0 / 7.0 if self.shear_exponent is None else self.shear_exponent
+
+
+class Turbine(_Model):
+    hub_height_m: Annotated[float, Field(gt=0.0, le=300.0)]
+    rated_power_kw: Annotated[float, Field(gt=0.0, le=30000.0)]
+    rotor_diameter_m: Annotated[float, Field(gt=0.0, le=350.0)]
+    power_curve: Annotated[str, Field(min_length=1)] | None = None
+    curve_air_density_kgm3: Annotated[float, Field(ge=0.5, le=1.6)] = 1.225
+    regulation: Literal["pitch", "stall"] = "pitch"
+    cp_max: Annotated[float, Field(gt=0.0)] | None = None
+    cut_in_mps: Annotated[float, Field(ge=0.0, le=15.0)] | None = None
+    cut_out_mps: Annotated[float, Field(gt=0.0, le=60.0)] | None = None
+    drivetrain_efficiency: Annotated[float, Field(gt=0.0, le=1.0)] | None = None
+
+    @model_validator(mode="after")
+    def _curve_source(self) -> "Turbine":
+        physics = {k: getattr(self, k) for k in ("cp_max", "cut_in_mps", "cut_out_mps", "drivetrain_efficiency")}
+        given = [k for k, v in physics.items() if v is not None]
+        if self.power_curve is not None and given:
+            raise _Cross(f"turbine.{given[0]}", physics[given[0]],
+                         "cannot be given together with turbine.power_curve; use a curve table or physics parameters")
+        if self.power_curve is None:
+            if not given:
+                raise _Cross("turbine", None, "give power_curve (a CSV table) or cp_max with cut_in_mps and cut_out_mps",
+                             has_value=False)
+            if self.cp_max is None:
+                raise _Cross("turbine.cp_max", None, "is required for a physics-built power curve", has_value=False)
+            if self.cp_max > 16.0 / 27.0:
+                raise _Cross("turbine.cp_max", self.cp_max,
+                             "must not exceed the Betz limit 16/27 = 0.5926")
+            cut_in = 3.0 if self.cut_in_mps is None else self.cut_in_mps
+            cut_out = 25.0 if self.cut_out_mps is None else self.cut_out_mps
+            if cut_out <= cut_in:
+                raise _Cross("turbine.cut_out_mps", cut_out, f"must be above turbine.cut_in_mps = {cut_in}")
+        return self
+
+
+class Losses(_Model):
+    wake: LossFrac = 0.0
+    electrical: LossFrac = 0.0
+    turbine_performance: LossFrac = 0.0
+    environmental: LossFrac = 0.0
+    curtailment: LossFrac = 0.0
+    other: LossFrac = 0.0
+
+    def factor(self) -> float:
+        out = 1.0
+        for name in LOSS_CATEGORIES:
+            out *= 1.0 - getattr(self, name)
+        return out
+
+
+LOSS_CATEGORIES = tuple(Losses.model_fields)
+
+
+class Operations(_Model):
+    availability_first_year: Annotated[float, Field(gt=0.0, le=1.0)] | None = None
+    availability_mature: Annotated[float, Field(gt=0.0, le=1.0)] = 1.0
+    ageing_starts_year: Annotated[int, Field(ge=0, le=60)] = 60
+    availability_ageing_per_year: Annotated[float, Field(ge=0.0, le=0.2)] = 0.0
+    degradation_per_year: Annotated[float, Field(ge=0.0, lt=0.2)] = 0.0
+
+
+class Component(_Model):
+    name: Annotated[str, Field(min_length=1)]
+    failure_rate_per_turbine_year: Annotated[float, Field(ge=0.0, le=20.0)]
+    replacement_cost: NonNeg = 0.0
+    downtime_days: Annotated[float, Field(ge=0.0, le=365.0)] = 0.0
+
+
+class Overhaul(_Model):
+    name: Annotated[str, Field(min_length=1)]
+    year: Annotated[int, Field(ge=1, le=60)]
+    cost_per_turbine: NonNeg
+
+
+class Maintenance(_Model):
+    fixed_per_kw_year: NonNeg = 0.0
+    variable_per_mwh: NonNeg = 0.0
+    insurance_per_kw_year: NonNeg = 0.0
+    land_lease_share_of_revenue: Annotated[float, Field(ge=0.0, lt=1.0)] = 0.0
+    escalation: Rate | None = None
+    component: list[Component] = []
+    overhaul: list[Overhaul] = []
+
+    @model_validator(mode="after")
+    def _unique_names(self) -> "Maintenance":
+        for table in ("component", "overhaul"):
+            seen: set[str] = set()
+            for i, item in enumerate(getattr(self, table)):
+                if item.name in seen:
+                    raise _Cross(f"maintenance.{table}[{i}].name", item.name, "must be unique within the table")
+                seen.add(item.name)
+        return self
+
+
+class Capex(_Model):
+    turbine_per_kw: NonNeg
+    balance_of_plant_per_kw: NonNeg = 0.0
+    grid_connection: NonNeg = 0.0
+    development: NonNeg = 0.0
+    contingency: Annotated[float, Field(ge=0.0, le=1.0)] = 0.0
+    decommissioning_per_kw: NonNeg = 0.0
+    salvage_per_kw: NonNeg = 0.0
+
+
+class Revenue(_Model):
+    ppa_price_per_mwh: Annotated[float, Field(ge=0.0, le=10000.0)]
+    ppa_term_years: Annotated[int, Field(ge=0, le=60)] | None = None
+    ppa_escalation: Rate = 0.0
+    merchant_price_per_mwh: Annotated[float, Field(ge=0.0, le=10000.0)] | None = None
+    merchant_escalation: Rate = 0.0
+    production_credit_per_mwh: Annotated[float, Field(ge=0.0, le=10000.0)] = 0.0
+    production_credit_years: Annotated[int, Field(ge=0, le=60)] = 10
+
+
+class Debt(_Model):
+    sizing_case: Literal["p50", "p90_1yr", "p90_10yr", "p99_1yr"] = "p90_1yr"
+    target_dscr: Annotated[float, Field(ge=1.0, le=5.0)] = 1.30
+    max_gearing: Annotated[float, Field(ge=0.0, le=1.0)] = 0.75
+    tenor_years: Annotated[int, Field(ge=1, le=60)]
+    interest_rate: Annotated[float, Field(ge=0.0, le=0.5)]
+    upfront_fee: Annotated[float, Field(ge=0.0, le=0.2)] = 0.0
+
+
+class Finance(_Model):
+    inflation: Annotated[float, Field(ge=-0.5, le=1.0)] = 0.0
+    discount_rate: Annotated[float, Field(gt=-0.5, le=1.0)]
+    equity_target_return: Annotated[float, Field(gt=-0.5, le=1.0)] | None = None
+    tax_rate: Annotated[float, Field(ge=0.0, lt=1.0)] = 0.0
+    depreciation: Literal["straight_line", "declining_balance", "macrs_5", "macrs_7",
+                          "macrs_15", "macrs_20"] = "straight_line"
+    depreciation_years: Annotated[int, Field(ge=1, le=60)] = 20
+    debt: Debt | None = None
+
+
+DEPRECIATION_METHODS = get_args(Finance.model_fields["depreciation"].annotation)
+SIZING_CASES = get_args(Debt.model_fields["sizing_case"].annotation)
+
+
+class SpeedTerm(_Model):
+    name: Annotated[str, Field(min_length=1)]
+    sd: Annotated[float, Field(ge=0.0, le=0.5)]
+
+
+class Uncertainty(_Model):
+    interannual_speed_sd: Annotated[float, Field(ge=0.0, le=0.5)] = 0.0
+    speed: list[SpeedTerm] = []
+    energy: list[SpeedTerm] = []
+
+
+class Vary(_Model):
+    distribution: Literal["normal", "triangular", "lognormal", "uniform"]
+    mean: float | None = None
+    sd: NonNeg | None = None
+    low: float | None = None
+    mode: float | None = None
+    high: float | None = None
+
+    @model_validator(mode="after")
+    def _params(self) -> "Vary":
+        d = self.distribution
+        if d in ("normal", "lognormal"):
+            if self.sd is None:
+                raise _Cross("sd", None, f"is required for a {d} distribution", has_value=False)
+            if d == "lognormal" and self.mean is not None and self.mean <= 0:
+                raise _Cross("mean", self.mean, "must be > 0 for a lognormal distribution")
+        else:
+            for k in ("low", "high"):
+                if getattr(self, k) is None:
+                    raise _Cross(k, None, f"is required for a {d} distribution", has_value=False)
+            if self.high < self.low:
+                raise _Cross("high", self.high, f"must be >= low = {self.low}")
+            if d == "triangular" and self.mode is not None and not (self.low <= self.mode <= self.high):
+                raise _Cross("mode", self.mode, f"must lie between low = {self.low} and high = {self.high}")
+        return self
+
+
+class Correlation(_Model):
+    between: Annotated[list[str], Field(min_length=2, max_length=2)]
+    rho: Annotated[float, Field(ge=-1.0, le=1.0)]
+
+
+class MonteCarlo(_Model):
+    trials: Annotated[int, Field(ge=0, le=10_000_000)] = 0
+    seed: Annotated[int, Field(ge=0)] = 0
+    sampling: Literal["random", "latin_hypercube"] = "random"
+    failures: Literal["sampled", "expected"] = "sampled"
+    chunk_size: Annotated[int, Field(ge=1000, le=1_000_000)] = 8192
+    vary: dict[str, Vary] = {}
+    correlation: list[Correlation] = []
+
+
+class _Cross(ValueError):
+    """A cross-field rule broken inside a model validator (converted to ScenarioError)."""
+
+    def __init__(self, key: str, value: Any, message: str, *, has_value: bool = True):
+        self.key, self.value, self.message, self.has_value = key, value, message, has_value
+        super().__init__(message)
+
+
+class ScenarioFields(_Model):
+    """The fields of a scenario and the conventions derived from them (:class:`lcoe.inputs.scenario.Scenario` adds its file)."""
+
+    schema_version: int
+    project: Project
+    wind: Wind
+    turbine: Turbine
+    losses: Losses = Losses()
+    operations: Operations = Operations()
+    maintenance: Maintenance = Maintenance()
+    capex: Capex
+    revenue: Revenue
+    finance: Finance
+    uncertainty: Uncertainty = Uncertainty()
+    montecarlo: MonteCarlo = MonteCarlo()
+    variants: dict[str, dict[str, Any]] = {}
+
+    # Derived conventions, kept here so every module reads them the same way.
+    @property
+    def lifetime(self) -> int:
+        return self.project.lifetime_years
+
+    @property
+    def availability_first_year(self) -> float:
+        o = self.operations
+        return o.availability_mature if o.availability_first_year is None else o.availability_first_year
+
+    @property
+    def escalation(self) -> float:
+        m = self.maintenance
+        return self.finance.inflation if m.escalation is None else m.escalation
+
+    @property
+    def ppa_term_years(self) -> int:
+        r = self.revenue
+        return self.lifetime if r.ppa_term_years is None else r.ppa_term_years
+
+    @property
+    def merchant_price_per_mwh(self) -> float:
+        r = self.revenue
+        return r.ppa_price_per_mwh if r.merchant_price_per_mwh is None else r.merchant_price_per_mwh
+
+    @property
+    def equity_target_return(self) -> float:
+        f = self.finance
+        return f.discount_rate if f.equity_target_return is None else f.equity_target_return
+
+    @property
+    def plant_kw(self) -> float:
+        return self.turbine.rated_power_kw * self.project.turbines
+
+    def warnings(self) -> list[str]:
+        """Non-fatal remarks about the assumptions (shown with every report)."""
+        out = []
+        if self.revenue.ppa_term_years is not None and self.revenue.ppa_term_years > self.lifetime:
+            out.append(f"revenue.ppa_term_years = {self.revenue.ppa_term_years} is longer than "
+                       f"project.lifetime_years = {self.lifetime}; the years past the life are ignored")
+        if self.wind.timeseries is not None and self.wind.weibull_shape is not None:
+            out.append("wind.weibull_shape is ignored with wind.timeseries (the distribution comes from the series)")
+        if self.revenue.production_credit_years > self.lifetime and self.revenue.production_credit_per_mwh > 0:
+            out.append(f"revenue.production_credit_years = {self.revenue.production_credit_years} is longer than "
+                       f"the life; the credit ends with the project")
+        return out
+
