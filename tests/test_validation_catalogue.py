@@ -347,9 +347,11 @@ def test_no_sign_change_gives_a_null_irr_and_zero_debt(tmp_path):
 
 
 def test_zero_energy_gives_no_lcoe(tmp_path):
-    """A calm site (every hour below cut-in): zero energy, so LCOE = cost / 0 is null, not infinite."""
-    calm = "timestamp,speed_mps\n" + "".join(
-        f"2025-01-{1 + h // 24:02d}T{h % 24:02d}:00:00Z,1.5\n" for h in range(24 * 31))
+    """A calm site (a year with every hour below cut-in): zero energy, so LCOE = cost / 0 is null, not infinite."""
+    import pandas as pd
+
+    stamps = pd.date_range("2025-01-01", periods=8760, freq="h", tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+    calm = "timestamp,speed_mps\n" + "".join(f"{t},{0.5 + (h % 25) / 10:.1f}\n" for h, t in enumerate(stamps))
     rep = _edge(tmp_path, ("mean_speed_mps = 7.2\nweibull_shape = 2.0\n", 'timeseries = "calm.csv"\n'),
                 extra_files=[("calm.csv", calm)])
     assert rep["energy"]["gross_aep_mwh"] == 0.0

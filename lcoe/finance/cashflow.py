@@ -113,9 +113,10 @@ def _speed_factor(scn, inp: Inputs, site: en.Site):
     return factor
 
 
-def _gross(scn, inp: Inputs, site: en.Site):
+def _gross(scn, inp: Inputs, site: en.Site, trials: bool = False):
     """Gross AEP per row (n, 1), the hub-speed factor of overridden speed keys, the speed
-    sensitivity per row, and whether the factor must still be applied through the table."""
+    sensitivity per row, and whether the factor must still be applied through the table.
+    ``trials``: the rows are Monte Carlo trials (a drawn Weibull shape reads its table)."""
     others = [k for k in inp.over if (k.startswith("wind.") or k.startswith("turbine.")) and k not in SPEED_KEYS]
     if not others:
         factor = _speed_factor(scn, inp, site)
@@ -126,6 +127,23 @@ def _gross(scn, inp: Inputs, site: en.Site):
         with np.errstate(divide="ignore", invalid="ignore"):
             sens = np.log(hi / lo) / np.log(1.01 / 0.99)
         return gross, factor, sens
+    if others == ["wind.weibull_shape"] and trials and scn.wind.timeseries is None:
+        # Monte Carlo trials drawing the shape read its table, as trials drawing the speed read theirs
+        factor = _speed_factor(scn, inp, site)
+        fixed = "mean" if scn.wind.mean_speed_mps is not None else "scale"
+        k = np.broadcast_to(inp.over["wind.weibull_shape"], (inp.n, 1))
+        if np.ndim(factor) == 0:
+            gross, sens = en.gross_at_shape(site, fixed, k)
+            return gross, 1.0, sens
+        # the speed drawn too: one integration per trial, all trials in one array operation
+        c = site.climate
+        a = (resource.weibull_scale_from_mean(c.mean_speed_mps, k) if fixed == "mean"
+             else np.full(k.shape, c.scale_mps)) * factor
+        rows = lambda f: en.aep_weibull_rows(site.site_curve, a * f, k, site.turbines)  # noqa: E731
+        gross, lo, hi = rows(1.0), rows(0.99), rows(1.01)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sens = np.where((lo > 0) & (hi > 0), np.log(hi / lo) / np.log(1.01 / 0.99), np.nan)
+        return gross, 1.0, sens
     # other climate or turbine keys change the curve or the distribution: integrate each distinct row
     others += [k for k in SPEED_KEYS if inp.has(k)]
     stack = np.hstack([np.broadcast_to(inp.over[k], (inp.n, 1)) for k in others])
@@ -200,7 +218,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     n_turb = scn.project.turbines
     years = np.arange(1, L + 1)
     site = en.site_for(scn)
-    gross, key_factor, sens = _gross(scn, inp, site)
+    gross, key_factor, sens = _gross(scn, inp, site, trials=sample is not None)
     speed_ratio = speed_gross = None
     if sample is not None and sample.speed_factor is not None:
         # the trial's speed factors apply on top of any overridden mean speed

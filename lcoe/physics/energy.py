@@ -74,6 +74,13 @@ class Climate:
     speeds_mps: np.ndarray | None = None      # series: hub-height speeds
     densities_kgm3: np.ndarray | None = None  # series: hourly densities (or None: site density)
     warnings: tuple[str, ...] = field(default=())
+    weights: np.ndarray | None = None         # series: weight of each row (sum 1; None: equal weights)
+    series: object = None                     # series: the wind.Series it came from
+
+    def series_mean(self, values) -> float:
+        """The mean of a per-row series quantity, each calendar month weighed by its length."""
+        v = np.asarray(values, float)
+        return float(self.weights @ v) if self.weights is not None else float(v.mean())
 
 
 @dataclass(frozen=True)
@@ -115,8 +122,55 @@ class Site:
         rho = c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3
         out = np.empty(f.shape)
         for i, fi in enumerate(f):
-            out[i] = self.curve.power_kw_at(c.speeds_mps * fi, rho).mean()
+            out[i] = c.series_mean(self.curve.power_kw_at(c.speeds_mps * fi, rho))
         return self.turbines * HOURS_PER_YEAR * out / 1000.0
+
+
+# shape grid of the tabulated AEP(Weibull k): the whole range wind.weibull_shape accepts
+_SHAPES = np.round(np.arange(0.5, 10.0 + 1e-9, 0.005), 6)
+
+
+def shape_table(site: Site, fixed: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(shapes, AEP(k) / AEP(base), d ln AEP / d ln v at k) over the shape grid, built once per site.
+
+    ``fixed`` says what the scenario holds as the shape moves: ``"mean"`` (the scale follows,
+    A = mean / Gamma(1 + 1/k)) or ``"scale"``. Monte Carlo trials that draw the shape read
+    their energy here, as trials that draw the speed read the speed-factor table: one
+    interpolation instead of one integration per trial. Linear interpolation on the
+    0.005 grid is within about 1e-6 of the integral (tests/test_energy.py).
+    """
+    memo = site.__dict__.setdefault("_shape_tables", {})
+    if fixed in memo:
+        return memo[fixed]
+    c = site.climate
+    k = _SHAPES.reshape(-1, 1)
+    if fixed == "mean":
+        scale = resource.weibull_scale_from_mean(c.mean_speed_mps, k)
+    else:
+        scale = np.full_like(k, c.scale_mps)
+    aep = lambda f: aep_weibull_rows(site.site_curve, scale * f, k, site.turbines)  # noqa: E731
+    gross, lo, hi = aep(1.0), aep(0.99), aep(1.01)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = gross / site.gross_aep_mwh if site.gross_aep_mwh > 0 else np.ones_like(gross)
+        sens = np.where((lo > 0) & (hi > 0), np.log(hi / lo) / math.log(1.01 / 0.99), np.nan)
+    memo[fixed] = (_SHAPES, np.ascontiguousarray(ratio.ravel()), np.ascontiguousarray(sens.ravel()))
+    return memo[fixed]
+
+
+def aep_weibull_rows(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarray:
+    """Gross AEP of one Weibull climate per row: ``scale_mps`` and ``shape`` both (n, 1). [MWh/yr]"""
+    nodes, weights = _quadrature_nodes(curve.breaks_mps)
+    p = curve.power_kw(nodes) * weights
+    a = np.asarray(scale_mps, float).reshape(-1, 1)
+    pdf = resource.weibull_pdf(nodes[None, :], a, np.asarray(shape, float).reshape(-1, 1))
+    return turbines * HOURS_PER_YEAR * (pdf @ p) / 1000.0
+
+
+def gross_at_shape(site: Site, fixed: str, shape) -> tuple[np.ndarray, np.ndarray]:
+    """Gross AEP and speed sensitivity at Weibull shapes ``shape`` (any shape of array), from the table."""
+    ks, ratio, sens = shape_table(site, fixed)
+    k = np.ascontiguousarray(shape, dtype=float)
+    return site.gross_aep_mwh * _interp_uniform(k, ks, ratio), _interp_uniform(k, ks, sens)
 
 
 def _interp_uniform(x, xp, fp):
@@ -151,20 +205,56 @@ def climate_from(scn) -> Climate:
         a_ref = w.weibull_scale_mps if w.weibull_scale_mps is not None else \
             float(resource.weibull_scale_from_mean(w.mean_speed_mps, k))
         a = a_ref * shear
-        return Climate("weibull", rho, a, k, float(resource.weibull_mean(a, k)))
-    series = resource.load_series(scn.resolve(w.timeseries), max_missing_share=w.max_missing_share)
+        mean = float(resource.weibull_mean(a, k))
+        _check_hub_mean(mean, "wind.mean_speed_mps" if w.mean_speed_mps is not None else "wind.weibull_scale_mps",
+                        w.mean_speed_mps if w.mean_speed_mps is not None else w.weibull_scale_mps)
+        return Climate("weibull", rho, a, k, mean, warnings=tuple(_low_mean_note(mean)))
+    path = scn.resolve(w.timeseries)
+    series = resource.load_series(path, max_missing_share=w.max_missing_share)
+    warns = list(series.warnings) + resource.require_year(series, path)
     v = series.speed_mps * shear
+    if np.ptp(v) == 0:
+        raise ScenarioError(f"every speed in the series is {v[0]:g} m/s; a constant record is not wind",
+                            key="wind.timeseries", value=path.name, file=str(path))
     dens = None
+    weights = series.weights
     if series.temperature_c is not None and w.air_density_kgm3 is None:
         dens = resource.air_density(w.elevation_m, series.temperature_c)
-        rho = float(dens.mean())
-    warns = list(series.warnings)
+        rho = float(weights @ dens)
+    mean = float(weights @ v)
+    _check_hub_mean(mean, "wind.timeseries", w.timeseries, file=str(path), series=True)
+    warns += _low_mean_note(mean)
     try:
         k, a = resource.fit_weibull(v)
     except ScenarioError:
         k, a = float("nan"), float("nan")
         warns.append("too few positive speeds in the series to fit a Weibull distribution")
-    return Climate("series", rho, a, k, float(v.mean()), speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns))
+    if math.isfinite(k) and not 0.5 <= k <= 10.0:
+        raise ScenarioError(f"the speeds fit a Weibull shape k = {k:.3g}, outside 0.5..10 (the range "
+                            "wind.weibull_shape takes): the record is nearly constant, or nearly all calm",
+                            key="wind.timeseries", value=path.name, file=str(path))
+    return Climate("series", rho, a, k, mean, speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns),
+                   weights=weights, series=series)
+
+
+#: below this hub-height mean the turbines would hardly turn (common practice: sites
+#: worth building have 6 m/s or more) [m/s]
+LOW_MEAN_SPEED_MPS = 3.0
+
+
+def _check_hub_mean(mean: float, key: str, value, *, file: str | None = None, series: bool = False) -> None:
+    """No measured site has a long-term hub-height mean above 20 m/s: refuse one."""
+    if mean > resource.MAX_MEAN_SPEED_MPS:
+        hint = " (is the series in km/h or knots? speed_mps is in m/s)" if series else ""
+        raise ScenarioError(f"gives a hub-height mean speed of {mean:.1f} m/s; no site has a mean above "
+                            f"{resource.MAX_MEAN_SPEED_MPS:g} m/s{hint}", key=key, value=value, file=file)
+
+
+def _low_mean_note(mean: float) -> list[str]:
+    if mean < LOW_MEAN_SPEED_MPS:
+        return [f"the hub-height mean wind speed is {mean:.2f} m/s: below {LOW_MEAN_SPEED_MPS:g} m/s the turbines "
+                "hardly turn (common practice: sites worth building have 6 m/s or more); check the wind input"]
+    return []
 
 
 def curve_from(scn) -> PowerCurve:
@@ -333,6 +423,10 @@ class EnergyResult:
         return {k: float(getattr(self, k)) for k in keys}
 
 
+#: a net capacity factor above this is not seen in wind farms (common practice) [-]
+HIGH_CAPACITY_FACTOR = 0.6
+
+
 def energy_of(scn) -> EnergyResult:
     """Gross and net energy, the yearly profile and the P-values of a scenario."""
     site = site_for(scn)
@@ -359,6 +453,9 @@ def energy_of(scn) -> EnergyResult:
     if gross <= 0:
         warns.append("gross AEP is zero: the power curve produces nothing in this wind climate")
     cf = p50 / (scn.plant_kw * HOURS_PER_YEAR / 1000.0)
+    if cf > HIGH_CAPACITY_FACTOR:
+        warns.append(f"the net capacity factor is {cf:.0%}: no wind farm runs that steadily (common practice: "
+                     "25-50 %); check the power curve and the wind input")
     return EnergyResult(
         air_density_kgm3=c.density_kgm3, hub_mean_speed_mps=c.mean_speed_mps, weibull_scale_mps=c.scale_mps,
         weibull_shape=c.shape, gross_aep_mwh=gross, loss_factor=lf, downtime_fraction=d,
