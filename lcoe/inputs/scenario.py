@@ -452,6 +452,27 @@ def vary_refusal(scn: Scenario, key: str) -> str | None:
     return None
 
 
+def input_files(scn: Scenario) -> list[tuple[str, Path]]:
+    """(label, path) of every file a run of the scenario reads: the scenario and the data files
+    it names, its variants' included."""
+    out: list[tuple[str, Path]] = []
+    if scn.source and not scn.source.startswith("<"):
+        out.append(("the scenario", Path(scn.source)))
+    tables = [(None, scn)] + [(name, None) for name in scn.variants]
+    for name, one in tables:
+        if one is None:
+            try:
+                one = scn.variant(name)
+            except ScenarioError:
+                continue
+        for key in ("turbine.power_curve", "wind.timeseries"):
+            rel = getattr(getattr(one, key.split(".")[0]), key.split(".")[1])
+            if rel is not None:
+                label = f"{key} of variant {name}" if name else key
+                out.append((label, one.resolve(rel)))
+    return out
+
+
 def load(path: str | Path) -> Scenario:
     """Load and validate a scenario file. Raises :class:`ScenarioError`."""
     if not str(path).strip():
