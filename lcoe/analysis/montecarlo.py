@@ -346,6 +346,10 @@ def refuse_idle_inputs(scn, case=None) -> None:
     vary = scn.montecarlo.vary
     if not vary:
         return
+    for key in vary:
+        why = sc.vary_refusal(scn, key)
+        if why:
+            raise ScenarioError(why, key=f"montecarlo.vary.{key}", has_value=False)
     case = case if case is not None else model.run(scn, breakeven=False)
     keys = list(vary)
     rows = 2 * len(keys)

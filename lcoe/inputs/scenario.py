@@ -211,6 +211,12 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
         scn._raw = copy.deepcopy(raw)
         _cross_checks(scn)
         if check_variants:
+            # the file's own Monte Carlo keys (a scenario derived from it, with a shorter life say,
+            # is not refused for them: its Monte Carlo run checks them again, by their effect)
+            for name in scn.montecarlo.vary:
+                why = vary_refusal(scn, name)
+                if why:
+                    raise ScenarioError(why, key=f"montecarlo.vary.{name}", has_value=False)
             for name, overrides in scn.variants.items():
                 if not isinstance(overrides, dict):
                     raise ScenarioError("must be a table of dotted keys and values", key=f"variants.{name}",
@@ -350,10 +356,6 @@ def _cross_checks(scn: Scenario) -> None:
         raise ScenarioError(f"must not be longer than project.lifetime_years = {L}",
                             key="finance.debt.tenor_years", value=debt.tenor_years)
     mc = scn.montecarlo
-    for name in mc.vary:
-        why = vary_refusal(scn, name)
-        if why:
-            raise ScenarioError(why, key=f"montecarlo.vary.{name}", has_value=False)
     for i, c in enumerate(mc.correlation):
         for n in c.between:
             if n not in mc.vary:
