@@ -27,10 +27,11 @@ def _check_trials(trials, option="--trials") -> None:
 
 def cmd_check(args) -> int:
     scn = _load(args.file)
-    e = energy.energy_of(scn)  # reads and checks the curve and series files too
-    for name in scn.variants:
-        energy.energy_of(scn.variant(name))
-    montecarlo.refuse_idle_inputs(scn)
+    with scenario.naming_the_file(scn):
+        e = energy.energy_of(scn)  # reads and checks the curve and series files too
+        for name in scn.variants:
+            energy.energy_of(scn.variant(name))
+        montecarlo.refuse_idle_inputs(scn)
     print(f"{args.file}: ok ({scn.project.name}, {scn.lifetime} years, {scn.project.turbines} turbines, "
           f"{len(scn.variants)} variant(s))")
     series = energy.site_for(scn).climate.series
@@ -68,7 +69,8 @@ def cmd_run(args) -> int:
     scn = _load(args.file)
     _check_outputs(args, scenario.input_files(scn))
     trials = args.trials
-    rep = study.build(scn, trials=trials, sensitivity=args.workbook is not None)
+    with scenario.naming_the_file(scn):
+        rep = study.build(scn, trials=trials, sensitivity=args.workbook is not None)
     written = []
     try:                       # each file is atomic; if the second fails, the first goes too
         if args.workbook is not None:

@@ -81,6 +81,11 @@ def _metric_list(text: str | None, default) -> list[str]:
 
 def cmd_sweep(args) -> int:
     scn = sc.load(args.file)
+    with sc.naming_the_file(scn):
+        return _cmd_sweep(args, scn)
+
+
+def _cmd_sweep(args, scn) -> int:
     cols = _metric_list(args.metrics, SWEEP_COLUMNS + ((BREAKEVEN,) if args.breakeven else ()))
     be = args.breakeven or BREAKEVEN in cols
     values = np.linspace(args.start, args.stop, args.steps)
@@ -114,6 +119,11 @@ def cmd_sweep(args) -> int:
 
 def cmd_tornado(args) -> int:
     scn = sc.load(args.file)
+    with sc.naming_the_file(scn):
+        return _cmd_tornado(args, scn)
+
+
+def _cmd_tornado(args, scn) -> int:
     metric = check_metric(args.metric, label="--metric")
     inputs = [k.strip() for k in args.inputs.split(",") if k.strip()] if args.inputs else None
     rows = tornado(scn, metric=metric, inputs=inputs)
@@ -170,6 +180,11 @@ def parse_target(text: str) -> tuple[str, float]:
 
 def cmd_solve(args) -> int:
     scn = sc.load(args.file)
+    with sc.naming_the_file(scn):
+        return _cmd_solve(args, scn)
+
+
+def _cmd_solve(args, scn) -> int:
     metric, value = parse_target(args.target)
     if (args.low is None) != (args.high is None):
         raise ScenarioError("give both --low and --high, or neither", key="--low" if args.low is None else "--high",

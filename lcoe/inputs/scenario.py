@@ -8,6 +8,7 @@ applies overrides and variants, and loads a file.
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import math
 import re
@@ -473,6 +474,15 @@ def input_files(scn: Scenario) -> list[tuple[str, Path]]:
                 label = f"{key} of variant {name}" if name else key
                 out.append((label, one.resolve(rel)))
     return out
+
+
+@contextlib.contextmanager
+def naming_the_file(scn: Scenario):
+    """A ScenarioError raised while a scenario runs names its file (unless it names a data file already)."""
+    try:
+        yield
+    except ScenarioError as exc:
+        raise exc.with_file(scn.source) from None
 
 
 def load(path: str | Path) -> Scenario:

@@ -277,11 +277,11 @@ def _site_key(scn) -> str:
     for rel in (scn.wind.timeseries, scn.turbine.power_curve):
         if rel is not None:
             p = scn.resolve(rel)
-            h.update(str(p.resolve()).encode())
             try:
+                h.update(str(p.resolve()).encode())
                 st = p.stat()
                 h.update(f"{st.st_mtime_ns}:{st.st_size}".encode())
-            except OSError:
+            except (OSError, RuntimeError, ValueError):      # missing, a loop of links, a NUL: refused on reading
                 h.update(b"missing")
     return h.hexdigest()
 
