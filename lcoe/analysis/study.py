@@ -46,6 +46,9 @@ class Report:
         for name, v in self.variants.items():
             out["variants"][name] = {"metrics": dict(v.metrics), "energy": v.energy.report()}
             warnings.extend(f"variant {name}: {w}" for w in v.warnings if w not in c.warnings)
+            for key, value in out["variants"][name]["energy"].items():
+                if value is None or (isinstance(value, float) and not math.isfinite(value)):
+                    warnings.append(f"variant {name}: energy.{key} is null: not defined for this scenario")
         for key, value in out["energy"].items():
             if value is None or (isinstance(value, float) and not math.isfinite(value)):
                 warnings.append(f"energy.{key} is null: not defined for this scenario")
