@@ -509,9 +509,12 @@ def test_a_failure_inside_a_screen_is_one_message_and_the_page_stays(monkeypatch
     """No traceback reaches the browser: an unexpected error is one message, the headline stays."""
     from lcoe.analysis import lifetime
 
+    import streamlit as st
+
     def broken(*args, **kwargs):
         raise RuntimeError("/srv/secret/path exploded")
     monkeypatch.setattr(lifetime, "study", broken)
+    st.cache_data.clear()             # a study cached by an earlier test would not call it
     at = start(view="Lifetime")
     assert not at.exception
     assert [e.value for e in at.error] == ["Something went wrong (RuntimeError); the inputs are kept. Change an input "

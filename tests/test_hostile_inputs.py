@@ -249,9 +249,11 @@ CASES = [
      r"give a CSV file", 30),
     ("money_1e308", "money_1e308.toml", [], ["run", "SCN", "--csv", "out.csv"],
      r"error: SCN: capex\.grid_connection = 1e\+308: must be <= 1e\+12", 60),
-    ("hub_mean_beyond_20", "hub_mean_25.toml", [], ["run", "SCN", "--csv", "out.csv"],
-     r"error: SCN: wind\.mean_speed_mps = 25\.0: gives a hub-height mean speed of 25\.2 m/s; no site has a mean above "
-     r"20 m/s", 60),
+    ("hub_mean_beyond_20", "hub_mean_above_20.toml", [], ["run", "SCN", "--csv", "out.csv"],
+     r"error: SCN: wind\.mean_speed_mps = 19\.95: gives a hub-height mean speed of 20\.1 m/s; no site has a mean "
+     r"above 20 m/s", 60),
+    ("mean_speed_beyond_20", "mean_speed_25.toml", [], ["run", "SCN", "--csv", "out.csv"],
+     r"error: SCN: wind\.mean_speed_mps = 25\.0: must be <= 20\.0", 60),
     # ---- TOML and scenario shape
     ("toml_nested_5000_deep", "toml_nested_5000.toml", [], ["run", "SCN", "--csv", "out.csv"],
      r"error: SCN: line 3: arrays or tables nest more than 32 levels deep; a scenario needs 3", 30),

@@ -47,7 +47,8 @@ class Project(_Model):
 
 class Wind(_Model):
     height_m: Pos
-    mean_speed_mps: Annotated[float, Field(gt=0.0, lt=40.0)] | None = None
+    # no measured site has a long-term mean above 20 m/s (a series in km/h reads as 25-30)
+    mean_speed_mps: Annotated[float, Field(gt=0.0, le=20.0)] | None = None
     weibull_scale_mps: Annotated[float, Field(gt=0.0, lt=45.0)] | None = None
     timeseries: Annotated[str, Field(min_length=1)] | None = None
     weibull_shape: Annotated[float, Field(ge=0.5, le=10.0)] | None = None

@@ -142,23 +142,28 @@ def write_atomic(path: str | Path, write: Callable[[Path], None], *, option: str
         # the rename would replace a device or a pipe by a plain file
         raise ScenarioError("is not a regular file (a device, pipe or socket); outputs are written only to "
                             "regular files", key=option, value=str(path))
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
-    except OSError as exc:
-        raise ScenarioError(f"cannot write in {folder} ({exc.strerror})", key=option, value=str(path)) from None
-    os.close(fd)
-    tmp_path = Path(tmp)
-    try:
-        with terminate_cleanly():
+    tmp_path = None
+    with terminate_cleanly():             # from before the temporary file exists until it is renamed
+        try:
+            try:
+                fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
+            except OSError as exc:
+                raise ScenarioError(f"cannot write in {folder} ({exc.strerror})", key=option,
+                                    value=str(path)) from None
+            tmp_path = Path(tmp)
+            os.close(fd)
             write(tmp_path)
             os.chmod(tmp_path, 0o666 & ~_umask())   # mkstemp makes owner-only files; use the usual mode
             os.replace(tmp_path, path)
-    except OSError as exc:
-        tmp_path.unlink(missing_ok=True)
-        raise ScenarioError(f"cannot write the file ({exc.strerror})", key=option, value=str(path)) from None
-    except BaseException:
-        tmp_path.unlink(missing_ok=True)
-        raise
+            tmp_path = None
+        except OSError as exc:
+            if tmp_path is not None:
+                tmp_path.unlink(missing_ok=True)
+            raise ScenarioError(f"cannot write the file ({exc.strerror})", key=option, value=str(path)) from None
+        except BaseException:
+            if tmp_path is not None:
+                tmp_path.unlink(missing_ok=True)
+            raise
     return path
 
 
