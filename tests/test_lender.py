@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import numpy_financial as npf
 import pytest
-
 from conftest import DEMO, DEMO_EQUITY
+
 from lcoe import engine
 from lcoe.analysis import lender
 from lcoe.inputs import scenario as sc

@@ -14,7 +14,7 @@ import numpy as np
 from lcoe.finance import costs
 from lcoe.finance.debt import Schedule, size_debt
 from lcoe.finance.tax import depreciation_shares, tax_with_carryforward
-from lcoe.inputs.schema import LOSS_CATEGORIES
+from lcoe.inputs.schema import DERIVED_DEFAULTS, LOSS_CATEGORIES
 from lcoe.physics import energy as en
 from lcoe.physics import wind as resource
 from lcoe.physics.wind import Z_90, Z_99
@@ -52,6 +52,7 @@ class Flows:
     case_factors: dict = field(default_factory=dict)  # name -> (n, 1) P_case / P50
     schedule: Schedule | None = None
     warnings: list = field(default_factory=list)
+    read_keys: set = field(default_factory=set)   # the override keys the engine read for these lines
 
 
 class Inputs:
@@ -59,6 +60,7 @@ class Inputs:
 
     def __init__(self, scn, overrides: dict | None = None):
         self.scn = scn
+        self.read: set[str] = set()   # the keys the engine asked for (an override nobody reads is refused)
         self.over = {}
         n = 1
         for k, v in (overrides or {}).items():
@@ -67,26 +69,26 @@ class Inputs:
             n = max(n, a.shape[0])
         self.n = n
 
-    # keys whose omitted value follows another key (SCENARIO.md defaults): an override of
+    # keys whose omitted value follows another key (schema.DERIVED_DEFAULTS): an override of
     # the source key moves them too, as it would in the file
-    FOLLOWS = {
-        "maintenance.escalation": ("finance.inflation", lambda s: s.maintenance.escalation is None),
-        "finance.equity_target_return": ("finance.discount_rate", lambda s: s.finance.equity_target_return is None),
-        "revenue.merchant_price_per_mwh": ("revenue.ppa_price_per_mwh",
-                                           lambda s: s.revenue.merchant_price_per_mwh is None),
-        "operations.availability_first_year": ("operations.availability_mature",
-                                               lambda s: s.operations.availability_first_year is None),
-    }
+    FOLLOWS = DERIVED_DEFAULTS
 
     def __call__(self, key: str, default):
+        self.read.add(key)
         if key in self.over:
             return self.over[key]
-        follow = self.FOLLOWS.get(key)
-        if follow is not None and follow[0] in self.over and follow[1](self.scn):
-            return self.over[follow[0]]
+        source = self.FOLLOWS.get(key)
+        if source is not None and source in self.over and self._omitted(key):
+            self.read.add(source)
+            return self.over[source]
         return default
 
+    def _omitted(self, key: str) -> bool:
+        section, name = key.split(".")
+        return getattr(getattr(self.scn, section), name) is None
+
     def has(self, key: str) -> bool:
+        self.read.add(key)
         return key in self.over
 
 
@@ -117,6 +119,7 @@ def _gross(scn, inp: Inputs, site: en.Site):
     """Gross AEP per row (n, 1), the hub-speed factor of overridden speed keys, the speed
     sensitivity per row, and whether the factor must still be applied through the table."""
     others = [k for k in inp.over if (k.startswith("wind.") or k.startswith("turbine.")) and k not in SPEED_KEYS]
+    inp.read.update(others)     # read by integrating the changed curve or climate
     if not others:
         factor = _speed_factor(scn, inp, site)
         if np.ndim(factor) == 0:
@@ -215,8 +218,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
         lf = lf * (1.0 - inp(f"losses.{name}", getattr(scn.losses, name)))
     o = scn.operations
     mature = inp("operations.availability_mature", o.availability_mature)
-    first = inp("operations.availability_first_year",
-                mature if o.availability_first_year is None else o.availability_first_year)
+    first = inp("operations.availability_first_year", scn.availability_first_year)
     avail = en.availability_profile(years, first, mature, inp("operations.ageing_starts_year", o.ageing_starts_year),
                                     inp("operations.availability_ageing_per_year", o.availability_ageing_per_year))
     comps = scn.maintenance.component
@@ -391,7 +393,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(tm.gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(tm.p50, (inp.n, 1)),
         case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in tm.factors.items()},
-        schedule=sched, warnings=warnings)
+        schedule=sched, warnings=warnings, read_keys=set(inp.read))
 
 
 def _line(rows: int, years: int, t0) -> np.ndarray:
