@@ -112,12 +112,6 @@ class Losses(_Model):
     curtailment: LossFrac = 0.0
     other: LossFrac = 0.0
 
-    def factor(self) -> float:
-        out = 1.0
-        for name in LOSS_CATEGORIES:
-            out *= 1.0 - getattr(self, name)
-        return out
-
 
 LOSS_CATEGORIES = tuple(Losses.model_fields)
 
