@@ -22,7 +22,7 @@ from lcoe.inputs.about import CAUTION, __version__
 from lcoe.inputs.errors import ScenarioError
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors
-    from lcoe.api import (
+    from lcoe.api import (  # noqa: F401
         BatchResult,
         LenderCases,
         MonteCarlo,

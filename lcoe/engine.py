@@ -12,10 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq
 
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-    cashflow,
-)
+from lcoe.finance import _kernels, cashflow  # _kernels: the compiled trial pass
 from lcoe.finance import metrics as mt
 from lcoe.finance.cashflow import Flows, Inputs, Sample, Schedule
 from lcoe.inputs.errors import ScenarioError

@@ -32,9 +32,7 @@ from scipy import stats
 from scipy.special import ndtr, ndtri
 
 from lcoe import engine as model
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+from lcoe.finance import _kernels  # compiled loops; tests set it to None to run the array formulas
 from lcoe.finance.cashflow import Sample
 from lcoe.inputs import keys
 from lcoe.inputs.errors import ScenarioError

@@ -20,6 +20,7 @@ from lcoe.physics import wind as resource
 
 SPEED_KEYS = ("wind.mean_speed_mps", "wind.weibull_scale_mps")
 
+
 @dataclass
 class Flows:
     """Yearly lines of one batch, each (n, L + 1) with column 0 = t = 0, plus per-row values."""

@@ -10,9 +10,7 @@ import numpy as np
 
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.schema import LOSS_CATEGORIES
-from lcoe.physics import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+from lcoe.physics import _kernels  # compiled loops; tests set it to None to run the array formulas
 from lcoe.physics import wind as resource
 from lcoe.physics.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
 from lcoe.physics.wind import Z_90, Z_99
@@ -320,11 +318,6 @@ def sigma_total(sensitivity, interannual_speed_sd, speed_sds, energy_sds, years=
 def exceedance_factor(sigma, z):
     """P_x / P50 = 1 - z_x sigma, floored at zero. z_90 = 1.2815516, z_99 = 2.3263479. [-]"""
     return np.maximum(0.0, 1.0 - z * sigma)
-
-
-def exceedance(p50, sigma, z):
-    """P_x = P50 (1 - z_x sigma), floored at zero."""
-    return float(p50 * exceedance_factor(sigma, z))
 
 
 def case_factors(sigma_1yr, sigma_10yr) -> dict:
