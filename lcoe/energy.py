@@ -48,13 +48,15 @@ def mean_power_weibull_kw(curve: SiteCurve, scale_mps, shape) -> np.ndarray:
     cut-in and cut-out), so the integral is taken piecewise with 10-point
     Gauss-Legendre quadrature on pieces of at most 0.5 m/s: exact for the
     piecewise-linear or cubic curve to far better than 0.01 %.
-    ``scale_mps`` may be an array; the result has its shape.
+    ``scale_mps`` may be an array; the result has its shape, and each value is the same
+    whatever else is in the array.
     """
     nodes, weights = _quadrature_nodes(curve.breaks_mps)
     p = curve.power_kw(nodes) * weights
     a = np.asarray(scale_mps, float)
     pdf = resource.weibull_pdf(nodes[None, :], a.reshape(-1, 1), shape)
-    return (pdf @ p).reshape(a.shape)
+    # a sum along each row, not a matrix product: a row's value must not depend on the others
+    return np.sum(pdf * p, axis=1).reshape(a.shape)
 
 
 def aep_weibull_mwh(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarray:
