@@ -336,17 +336,27 @@ def poisson(rng: np.random.Generator, lam) -> np.ndarray:
     return rng.poisson(lam).astype(float)
 
 
-def _clip_inputs(scn, inputs: dict, warnings: list) -> dict:
+def _clip_inputs(scn, inputs: dict, clipped: list) -> dict:
+    """Each drawn input clipped to its key's valid range; ``clipped`` receives
+    (key, number of draws clipped, low, high) for each key with draws outside it."""
     out = {}
     for key, x in inputs.items():
         lo, hi = _bounds(scn, key)
         bad = (x < lo) | (x > hi)
         if bad.any():
-            warnings.append(f"montecarlo.vary.{key}: {int(bad.sum())} draw(s) outside the valid range "
-                            f"[{lo:g}, {hi:g}] were clipped to it")
+            clipped.append((key, int(bad.sum()), lo, hi))
             x = np.clip(x, lo, hi)
         out[key] = x
     return out
+
+
+def _clip_warnings(scn, clipped: list, n: int) -> list[str]:
+    """One warning for each key with clipped draws, their count over the whole run."""
+    total: dict[str, list] = {}
+    for key, count, lo, hi in clipped:
+        total.setdefault(key, [0, lo, hi])[0] += count
+    return [f"montecarlo.vary.{key}: {total[key][0]} of {n} draw(s) outside the valid range "
+            f"[{total[key][1]:g}, {total[key][2]:g}] were clipped to it" for key in scn.montecarlo.vary if key in total]
 
 
 def run_trials(scn, case, inputs: dict, sample: Sample, *, fused: bool = True) -> dict:
@@ -381,7 +391,7 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     chunk = scn.montecarlo.chunk_size if chunk_size is None else int(chunk_size)
     chunk = max(BLOCK, (chunk // BLOCK) * BLOCK)
     L = scn.lifetime
-    warnings: list[str] = []
+    clipped: list[tuple] = []
     parts: dict[str, list] = {k: [] for k in SAMPLED_KEYS}
     drawn: dict[str, list] = {k: [] for k in scn.montecarlo.vary}
     blocks = math.ceil(n / BLOCK) if n else 0
@@ -390,7 +400,7 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
 
     def one_chunk(span):
         group = [draw_block(scn, min(BLOCK, n - b * BLOCK), _block_rng(seed, b), L) for b in range(*span)]
-        notes: list[str] = []
+        notes: list[tuple] = []
         inputs = {k: np.concatenate([g[0][k] for g in group]) for k in scn.montecarlo.vary}
         inputs = _clip_inputs(scn, inputs, notes)
         sample = Sample(*[None if getattr(group[0][1], f) is None else
@@ -409,11 +419,13 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
                 parts[k].append(res[k])
             for k in drawn:
                 drawn[k].append(inputs[k])
-            warnings.extend(notes)
+            clipped.extend(notes)
             done += min(n, span[1] * BLOCK) - span[0] * BLOCK
             if progress is not None:
                 progress(done / n)
     samples = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
+    # counted over the whole run, so that the report does not depend on the chunk size
+    warnings = _clip_warnings(scn, clipped, n)
     for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh"):
         bad = int(np.sum(~np.isfinite(samples[k]))) if samples[k].size else 0
         if bad:
@@ -425,9 +437,5 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
             samples.pop(k, None)
     return MonteCarloResult(trials=n, seed=seed, samples=samples,
                             target_dscr=debt.target_dscr if has_debt else None,
-                            equity_target=scn.equity_target_return, warnings=_dedupe(warnings),
+                            equity_target=scn.equity_target_return, warnings=warnings,
                             inputs={k: np.concatenate(v) for k, v in drawn.items() if v})
-
-
-def _dedupe(items):
-    return list(dict.fromkeys(items))

@@ -206,3 +206,72 @@ def test_cli_trials_override_prints_the_block(capsys):
     out = json.loads(capsys.readouterr().out)
     assert out["montecarlo"]["trials"] == 3000
     assert out["montecarlo"]["seed"] == 2028
+
+
+def _blocks(n):
+    return [(b, min(n, b + uncertainty.BLOCK)) for b in range(0, n, uncertainty.BLOCK)]
+
+
+# --------------------------------------------------------------------------- the report does not depend on chunking
+
+def _clipping_scenario(sampling, **montecarlo):
+    raw = _quiet()
+    raw["montecarlo"].update({"sampling": sampling, **montecarlo,
+                              "vary": {"losses.electrical": {"distribution": "normal", "mean": 0.02, "sd": 0.02}}})
+    return make_scenario(raw)
+
+
+@pytest.mark.parametrize("sampling", ["random", "latin_hypercube"])
+def test_clipped_draws_are_counted_over_the_whole_run(sampling):
+    """40,000 trials of a loss drawn normal(0.02, 0.02), clipped at 0: one warning with the
+    exact count, the same for every chunk size. The count is that of the draws at the bound, and
+    near n Phi(-1) (scipy.stats.norm.cdf): within 4 binomial standard deviations for random
+    sampling; with Latin hypercube each block of m trials has floor(m p) or one more below the
+    p-quantile (one draw per stratum)."""
+    n = 40_000
+    p = stats.norm.cdf(-1.0)
+    texts = []
+    for chunk in (8192, 24576, 40960):
+        mc = uncertainty.monte_carlo(_clipping_scenario(sampling, chunk_size=chunk), trials=n, seed=2028)
+        notes = [w for w in mc.warnings if w.startswith("montecarlo.vary.losses.electrical")]
+        assert len(notes) == 1
+        texts.append(notes[0])
+        count = int(np.sum(mc.inputs["losses.electrical"] == 0.0))
+        assert notes[0] == (f"montecarlo.vary.losses.electrical: {count} of {n} draw(s) outside the valid "
+                            "range [0, 1] were clipped to it")
+    assert texts[0] == texts[1] == texts[2]
+    if sampling == "random":
+        assert abs(count - n * p) < 4 * np.sqrt(n * p * (1 - p))
+    else:
+        sizes = [hi - lo for lo, hi in _blocks(n)]
+        low = sum(int(np.floor(m * p)) for m in sizes)
+        assert low <= count <= low + len(sizes)
+
+
+def test_whole_json_report_is_identical_for_any_chunk_size_and_thread_count(monkeypatch):
+    """The whole report, warnings included, byte for byte: chunks of one, three and five
+    random-number blocks, on two threads and on one."""
+    import os
+
+    from lcoe import report
+    raw = _quiet()
+    raw["uncertainty"] = {"interannual_speed_sd": 0.05, "speed": [{"name": "measurement", "sd": 0.03}],
+                          "energy": [{"name": "losses", "sd": 0.03}]}
+    raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": 0.04,
+                                        "replacement_cost": 300000.0, "downtime_days": 20.0}]
+    raw["montecarlo"] = {"trials": 4 * uncertainty.BLOCK + 321, "seed": 77, "sampling": "latin_hypercube",
+                         "vary": {"losses.electrical": {"distribution": "normal", "mean": 0.02, "sd": 0.02},
+                                  "capex.turbine_per_kw": {"distribution": "normal", "sd": 60.0},
+                                  "revenue.ppa_price_per_mwh": {"distribution": "uniform", "low": 20.0,
+                                                                "high": 70.0}},
+                         "correlation": [{"between": ["capex.turbine_per_kw", "revenue.ppa_price_per_mwh"],
+                                          "rho": 0.5}]}
+    outs = []
+    for chunk, cpus in ((8192, None), (24576, None), (40960, None), (8192, 1)):
+        raw["montecarlo"]["chunk_size"] = chunk
+        if cpus is not None:
+            monkeypatch.setattr(os, "cpu_count", lambda: cpus)
+        outs.append(report.to_json(report.build(make_scenario(raw), variants=False)))
+    assert outs[0] == outs[1] == outs[2] == outs[3]
+    warnings = __import__("json").loads(outs[0])["warnings"]
+    assert sum(w.startswith("montecarlo.vary.losses.electrical") for w in warnings) == 1
