@@ -2,8 +2,9 @@
 
 Each trial draws
 
-* the inputs of ``[montecarlo.vary.KEY]`` (normal, lognormal, triangular, uniform),
-  correlated through a Gaussian copula, by Latin hypercube or plain random sampling;
+* the inputs of ``[montecarlo.vary.KEY]`` (normal, lognormal, triangular, uniform), by
+  plain random sampling (correlated through a Gaussian copula) or Latin hypercube
+  sampling within each random-number block (correlated by Iman-Conover reordering);
 * a long-term wind-speed factor from ``[[uncertainty.speed]]`` and an independent
   factor for every year from ``uncertainty.interannual_speed_sd``; both scale the
   hub-height speeds, and energy follows from the model's own AEP(scale) curve;
@@ -55,12 +56,13 @@ SAMPLED_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "pro
 # --------------------------------------------------------------------------- input distributions
 
 def correlation_matrix(scn) -> np.ndarray:
-    """Correlation of the Gaussian copula that gives the requested rank correlations.
+    """Normal-score correlation that gives the requested rank correlations.
 
     ``rho`` in ``[[montecarlo.correlation]]`` is a rank (Spearman) correlation; for a
-    Gaussian copula the normal correlation is r = 2 sin(pi rho / 6) (Pearson 1907's
-    relation between rank and product-moment correlation of a bivariate normal), and
-    rank correlations survive the marginal transforms unchanged.
+    bivariate normal the product-moment correlation is r = 2 sin(pi rho / 6) (Pearson
+    1907's relation between rank and product-moment correlation), and rank correlations
+    survive monotone transforms unchanged. Random sampling uses r in a Gaussian copula;
+    Latin hypercube sampling gives the same r to the normal scores of Iman-Conover.
     """
     keys = list(scn.montecarlo.vary)
     m = len(keys)
@@ -74,6 +76,39 @@ def correlation_matrix(scn) -> np.ndarray:
         raise ScenarioError("the correlations together are impossible (the matrix is not positive definite)",
                             key="montecarlo.correlation", has_value=False) from None
     return r
+
+
+def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+    """Reorder the columns of ``x`` (n draws of m inputs) towards the target rank correlation.
+
+    Each column keeps its values, only their order changes, so a stratified (Latin
+    hypercube) column stays stratified. Scores: the van der Waerden normal scores
+    Phi^-1(i / (n + 1)), shuffled independently for each column; their sample
+    correlation T = Q Q^T is replaced by ``target`` = P P^T through S* = S (P Q^-1)^T;
+    each column of ``x`` is then given the ranks of the matching column of S*.
+
+    References
+    ----------
+    R. L. Iman and W. J. Conover (1982), "A distribution-free approach to inducing rank
+    correlation among input variables", Communications in Statistics - Simulation and
+    Computation 11(3).
+    """
+    n, m = x.shape
+    if n < 2 or m < 2:
+        return x
+    scores = ndtri(np.arange(1, n + 1) / (n + 1.0))
+    s = rng.permuted(np.broadcast_to(scores, (m, n)), axis=1).T
+    t = np.corrcoef(s, rowvar=False)
+    try:
+        q = np.linalg.cholesky(t)
+    except np.linalg.LinAlgError:   # too few draws for the scores' correlation to be full rank
+        q = np.eye(m)
+    p = np.linalg.cholesky(target)
+    s_star = s @ np.linalg.solve(q.T, p.T)
+    out = np.empty_like(x)
+    for j in range(m):
+        out[np.argsort(s_star[:, j], kind="stable"), j] = np.sort(x[:, j])
+    return out
 
 
 def _bounds(scn, key):
@@ -113,22 +148,27 @@ def _bounds(scn, key):
 
 
 def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
-    """Correlated draws of every ``[montecarlo.vary]`` input (Gaussian copula)."""
+    """Draws of every ``[montecarlo.vary]`` input for one block of ``n`` trials.
+
+    Latin hypercube: one draw in each of n equal-probability strata per input, strata
+    shuffled independently (McKay, Beckman and Conover 1979); correlated inputs are then
+    reordered by Iman-Conover (:func:`iman_conover`), which keeps every input's strata.
+    Random: independent normals, correlated through a Gaussian copula.
+    """
     vary = scn.montecarlo.vary
     if not vary or n == 0:
         return {}
     keys = list(vary)
     m = len(keys)
     if scn.montecarlo.sampling == "latin_hypercube":
-        # one point in each of n equal-probability strata per input, strata shuffled
-        # independently (McKay, Beckman and Conover 1979)
         strata = rng.permuted(np.broadcast_to(np.arange(n, dtype=float), (m, n)), axis=1)
         u = (strata.T + rng.random((n, m))) / n
-        if not scn.montecarlo.correlation:
-            return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
-        z = ndtri(np.clip(u, 1e-16, 1 - 1e-16))
-    else:
-        z = rng.standard_normal((n, m))
+        x = [quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)]
+        if scn.montecarlo.correlation:
+            mixed = iman_conover(np.column_stack(x), correlation_matrix(scn), rng)
+            x = [mixed[:, j] for j in range(m)]
+        return dict(zip(keys, x))
+    z = rng.standard_normal((n, m))
     if scn.montecarlo.correlation:
         z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
     out = {}
