@@ -272,6 +272,8 @@ def test_series_factor_table_within_its_bound_of_the_direct_hourly_energy(kind):
     direct *= scn.project.turbines * 8760.0 / 1000.0
     table = site.gross_at_factor(f)
     assert site.step_factors.size >= c.speeds_mps.size * 0.99      # a step for (nearly) every hour
+    # the factors trials draw are served by the table, not by direct evaluation
+    assert not site.cell_exact[(site.factors[:-1] >= 0.75) & (site.factors[:-1] < 1.5)].any()
     assert np.all(np.abs(table - direct) <= 1e-5 * direct + 1e-12 * site.gross_aep_mwh)
 
 
@@ -293,3 +295,4 @@ def test_weibull_factor_table_within_its_bound_of_scipy_quadrature():
                       float(max(pts)), points=pts, limit=500, epsabs=0, epsrel=1e-11)
         ref *= scn.project.turbines * 8760.0 / 1000.0
         assert float(site.gross_at_factor(np.array([f]))[0]) == pytest.approx(ref, rel=1e-5), f
+    assert not site.cell_exact[(site.factors[:-1] >= 0.75) & (site.factors[:-1] < 1.5)].any()
