@@ -48,6 +48,8 @@ HIST_BINS = 40
 # keys where a higher value is the better outcome (P90 = 10th percentile); the rest: P90 = 90th
 HIGHER_IS_BETTER = {"project_npv", "project_irr", "equity_npv", "equity_irr", "min_dscr", "avg_dscr", "llcr",
                     "net_aep_year1_mwh", "net_aep_mean_mwh", "debt_amount"}
+# keys whose undefined value is the worst outcome (never paid back): counted in the percentiles
+NEVER_IS_WORST = {"payback_year"}
 SAMPLED_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
                 "equity_irr", "min_dscr", "avg_dscr", "llcr", "payback_year", "net_aep_year1_mwh",
                 "net_aep_mean_mwh", "capex_total", "opex_mean")
@@ -234,25 +236,40 @@ class MonteCarloResult:
     warnings: list = field(default_factory=list)
     inputs: dict = field(default_factory=dict)     # vary key -> drawn values
 
-    def stats(self, key: str) -> dict:
-        """p50, p75, p90, p99 (conservative side), mean and sd of one sampled key."""
+    def _ranked(self, key: str) -> np.ndarray:
+        """The values percentiles are taken of: the defined ones, except for the payback year,
+        where a trial that never pays back counts as later than any year (+inf)."""
         x = self.samples[key]
-        x = x[np.isfinite(x)]
-        if x.size == 0:
+        if key in NEVER_IS_WORST:
+            return np.where(np.isfinite(x), x, np.inf)
+        return x[np.isfinite(x)]
+
+    def stats(self, key: str) -> dict:
+        """p50, p75, p90, p99 (conservative side), mean and sd of one sampled key.
+
+        Percentiles are numpy's (linear between order statistics) of the defined values;
+        for the payback year those of all trials, a trial that never pays back being later
+        than any year, so a percentile among those trials is None. Mean and sd are of the
+        defined values (the trials that pay back)."""
+        x = self._ranked(key)
+        finite = x[np.isfinite(x)]
+        if finite.size == 0:
             return {k: None for k in ("p50", "p75", "p90", "p99", "mean", "sd")}
         better_high = key in HIGHER_IS_BETTER
         q = {"p50": 50.0, "p75": 25.0 if better_high else 75.0, "p90": 10.0 if better_high else 90.0,
              "p99": 1.0 if better_high else 99.0}
-        vals = np.percentile(x, list(q.values()))
-        out = {k: float(v) for k, v in zip(q, vals)}
-        out["mean"] = float(x.mean())
-        out["sd"] = float(x.std(ddof=1)) if x.size > 1 else 0.0
+        with np.errstate(invalid="ignore"):
+            vals = np.percentile(x, list(q.values()))
+        out = {k: (float(v) if math.isfinite(v) else None) for k, v in zip(q, vals)}
+        out["mean"] = float(finite.mean())
+        out["sd"] = float(finite.std(ddof=1)) if finite.size > 1 else 0.0
         return out
 
     def p90_standard_error(self, key: str) -> float | None:
         """Standard error of the P90, distribution-free: half the spread between the order
-        statistics one binomial standard deviation either side of the P90 rank."""
-        x = np.sort(self.samples[key][np.isfinite(self.samples[key])])
+        statistics one binomial standard deviation either side of the P90 rank (None where
+        one of them is a trial that never pays back)."""
+        x = np.sort(self._ranked(key))
         n = x.size
         if n < 10:
             return None
@@ -260,6 +277,8 @@ class MonteCarloResult:
         half = math.sqrt(n * q * (1 - q))
         lo = int(max(0, math.floor(n * q - half)))
         hi = int(min(n - 1, math.ceil(n * q + half)))
+        if not np.isfinite(x[hi]):
+            return None
         return float((x[hi] - x[lo]) / 2.0)
 
     def probability(self, key: str, below: float) -> float | None:
@@ -466,10 +485,14 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     samples = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
     # counted over the whole run, so that the report does not depend on the chunk size
     warnings = _clip_warnings(scn, clipped, n)
-    for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh"):
+    for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh", "payback_year"):
         bad = int(np.sum(~np.isfinite(samples[k]))) if samples[k].size else 0
         if bad:
-            warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s); percentiles use the rest")
+            if k in NEVER_IS_WORST:
+                warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s) (never paid back within the "
+                                "life); they count as later than any year, and a percentile among them is null")
+            else:
+                warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s); percentiles use the rest")
     debt = scn.finance.debt
     has_debt = debt is not None and case.metrics.get("debt_amount") and case.metrics["debt_amount"] > 0
     if not has_debt:

@@ -367,3 +367,25 @@ def test_whole_json_report_is_identical_for_any_chunk_size_and_thread_count(monk
     assert outs[0] == outs[1] == outs[2] == outs[3]
     warnings = __import__("json").loads(outs[0])["warnings"]
     assert sum(w.startswith("montecarlo.vary.losses.electrical") for w in warnings) == 1
+
+
+def test_payback_percentiles_count_trials_that_never_pay_back_as_the_latest():
+    """P90 of the payback year is the year by which 90 % of trials have paid back (the
+    conservative side, later is worse): a trial that never pays back counts as later than any
+    year, so the percentiles are numpy.percentile's with those trials at +inf, and a percentile
+    that falls among them is null. Mean and sd are of the trials that pay back."""
+    raw = _quiet()
+    raw["montecarlo"]["vary"] = {"revenue.ppa_price_per_mwh": {"distribution": "uniform", "low": 45.0,
+                                                               "high": 75.0}}
+    mc = uncertainty.monte_carlo(make_scenario(raw), trials=3000, seed=3)
+    x = mc.samples["payback_year"]
+    never = int(np.isnan(x).sum())
+    assert 0.1 * x.size < never < 0.25 * x.size           # the case: P50 and P75 defined, P90 not
+    ranked = np.where(np.isnan(x), np.inf, x)
+    s = mc.stats("payback_year")
+    assert s["p50"] == np.percentile(ranked, 50) and s["p75"] == np.percentile(ranked, 75)
+    assert s["p90"] is None and s["p99"] is None
+    assert s["mean"] == pytest.approx(np.nanmean(x), rel=1e-12)
+    assert mc.p90_standard_error("payback_year") is None
+    assert f"montecarlo: payback_year undefined in {never} of 3000 trial(s) (never paid back within the life)" \
+        in " ".join(mc.warnings)
