@@ -253,20 +253,22 @@ def factor_table(x, grid, ratios, slopes, exact, steps, step_cum, starts, out):
             i -= 1
         while i < last - 1 and xj >= grid[i + 1]:
             i += 1
-        if xj == grid[i]:
+        lo, hi = grid[i], grid[i + 1]
+        if xj == lo:
             flat_out[j] = ratios[i]
-            continue
-        if xj == grid[i + 1]:
+        elif xj == hi:
             flat_out[j] = ratios[i + 1]
-            continue
-        if exact[i]:
+        elif exact[i]:
             flat_out[j] = np.nan
-            continue
-        w = (xj - grid[i]) / (grid[i + 1] - grid[i])
-        k = starts[i]
-        while k < n_steps and steps[k] < xj:
-            k += 1
-        flat_out[j] = ratios[i] + w * slopes[i] - (step_cum[k] - step_cum[starts[i]])
+        else:
+            value = ratios[i] + (xj - lo) / (hi - lo) * slopes[i]
+            first = starts[i]
+            k = first
+            while k < n_steps and steps[k] < xj:
+                k += 1
+            if k > first:
+                value -= step_cum[k] - step_cum[first]
+            flat_out[j] = value
     return out
 
 

@@ -80,7 +80,16 @@ def correlation_matrix(scn) -> np.ndarray:
     return r
 
 
-def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+@lru_cache(maxsize=8)
+def _normal_scores(n: int) -> np.ndarray:
+    """The van der Waerden scores Phi^-1(i / (n + 1)), i = 1..n."""
+    scores = ndtri(np.arange(1, n + 1) / (n + 1.0))
+    scores.flags.writeable = False
+    return scores
+
+
+def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator, *,
+                 presorted: bool = False) -> np.ndarray:
     """Reorder the columns of ``x`` (n draws of m inputs) towards the target rank correlation.
 
     Each column keeps its values, only their order changes, so a stratified (Latin
@@ -94,12 +103,13 @@ def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator) ->
     R. L. Iman and W. J. Conover (1982), "A distribution-free approach to inducing rank
     correlation among input variables", Communications in Statistics - Simulation and
     Computation 11(3).
+
+    ``presorted``: each column of ``x`` is already in ascending order.
     """
     n, m = x.shape
     if n < 2 or m < 2:
         return x
-    scores = ndtri(np.arange(1, n + 1) / (n + 1.0))
-    s = rng.permuted(np.broadcast_to(scores, (m, n)), axis=1).T
+    s = rng.permuted(np.broadcast_to(_normal_scores(n), (m, n)), axis=1).T
     t = np.corrcoef(s, rowvar=False)
     try:
         q = np.linalg.cholesky(t)
@@ -109,7 +119,7 @@ def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator) ->
     s_star = s @ np.linalg.solve(q.T, p.T)
     out = np.empty_like(x)
     for j in range(m):
-        out[np.argsort(s_star[:, j], kind="stable"), j] = np.sort(x[:, j])
+        out[np.argsort(s_star[:, j]), j] = x[:, j] if presorted else np.sort(x[:, j])
     return out
 
 
@@ -163,13 +173,15 @@ def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
     keys = list(vary)
     m = len(keys)
     if scn.montecarlo.sampling == "latin_hypercube":
+        if scn.montecarlo.correlation:
+            # stratum k holds draw k of every input (ascending); Iman-Conover then orders them
+            u = (np.arange(n, dtype=float)[:, None] + rng.random((n, m))) / n
+            x = np.column_stack([quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)])
+            mixed = iman_conover(x, correlation_matrix(scn), rng, presorted=True)
+            return {key: mixed[:, j] for j, key in enumerate(keys)}
         strata = rng.permuted(np.broadcast_to(np.arange(n, dtype=float), (m, n)), axis=1)
         u = (strata.T + rng.random((n, m))) / n
-        x = [quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)]
-        if scn.montecarlo.correlation:
-            mixed = iman_conover(np.column_stack(x), correlation_matrix(scn), rng)
-            x = [mixed[:, j] for j in range(m)]
-        return dict(zip(keys, x))
+        return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
     z = rng.standard_normal((n, m))
     if scn.montecarlo.correlation:
         z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
