@@ -215,8 +215,10 @@ def _series_steps(site: Site, gross: float) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _flat_table(f: np.ndarray) -> dict:
-    return {"aep_ratios": np.ones_like(f), "cell_slopes": np.zeros(f.size - 1), "cell_exact": np.zeros(f.size - 1, bool),
-            "step_factors": np.empty(0), "step_cum": np.zeros(1), "step_starts": np.zeros(f.size, np.intp)}
+    """A table of ones with no steps and no exact cells (a site with no energy at f = 1)."""
+    return {"aep_ratios": np.ones_like(f), "cell_slopes": np.zeros(f.size - 1),
+            "cell_exact": np.zeros(f.size - 1, bool), "step_factors": np.empty(0), "step_cum": np.zeros(1),
+            "step_starts": np.zeros(f.size, np.intp)}
 
 
 def _factor_table(site: Site, gross: float) -> dict:

@@ -97,14 +97,13 @@ def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator, *,
     Phi^-1(i / (n + 1)), shuffled independently for each column; their sample
     correlation T = Q Q^T is replaced by ``target`` = P P^T through S* = S (P Q^-1)^T;
     each column of ``x`` is then given the ranks of the matching column of S*.
+    ``presorted``: each column of ``x`` is already in ascending order.
 
     References
     ----------
     R. L. Iman and W. J. Conover (1982), "A distribution-free approach to inducing rank
     correlation among input variables", Communications in Statistics - Simulation and
     Computation 11(3).
-
-    ``presorted``: each column of ``x`` is already in ascending order.
     """
     n, m = x.shape
     if n < 2 or m < 2:
@@ -162,10 +161,11 @@ def _bounds(scn, key):
 def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
     """Draws of every ``[montecarlo.vary]`` input for one block of ``n`` trials.
 
-    Latin hypercube: one draw in each of n equal-probability strata per input, strata
-    shuffled independently (McKay, Beckman and Conover 1979); correlated inputs are then
-    reordered by Iman-Conover (:func:`iman_conover`), which keeps every input's strata.
-    Random: independent normals, correlated through a Gaussian copula.
+    Latin hypercube: one draw in each of n equal-probability strata per input (McKay,
+    Beckman and Conover 1979); without correlations the strata are shuffled
+    independently for each input, with them Iman-Conover (:func:`iman_conover`) orders
+    the draws, which keeps every input's strata. Random: independent normals, correlated
+    through a Gaussian copula.
     """
     vary = scn.montecarlo.vary
     if not vary or n == 0:

@@ -291,7 +291,7 @@ def test_weibull_factor_table_within_its_bound_of_scipy_quadrature():
     factors = np.concatenate([np.linspace(0.11, 2.49, 13), [0.7137, 0.9411, 1.0063, 1.1781]])
     for f in factors:
         a = site.climate.scale_mps * f
-        ref, _ = quad(lambda v: float(sc_.power_kw(v)) * weibull_min.pdf(v, site.climate.shape, scale=a), 0.0,
+        ref, _ = quad(lambda v, a=a: float(sc_.power_kw(v)) * weibull_min.pdf(v, site.climate.shape, scale=a), 0.0,
                       float(max(pts)), points=pts, limit=500, epsabs=0, epsrel=1e-11)
         ref *= scn.project.turbines * 8760.0 / 1000.0
         assert float(site.gross_at_factor(np.array([f]))[0]) == pytest.approx(ref, rel=1e-5), f

@@ -362,7 +362,7 @@ def test_whole_json_report_is_identical_for_any_chunk_size_and_thread_count(monk
     for chunk, cpus in ((8192, None), (24576, None), (40960, None), (8192, 1)):
         raw["montecarlo"]["chunk_size"] = chunk
         if cpus is not None:
-            monkeypatch.setattr(os, "cpu_count", lambda: cpus)
+            monkeypatch.setattr(os, "cpu_count", lambda cpus=cpus: cpus)
         outs.append(report.to_json(report.build(make_scenario(raw), variants=False)))
     assert outs[0] == outs[1] == outs[2] == outs[3]
     warnings = __import__("json").loads(outs[0])["warnings"]
