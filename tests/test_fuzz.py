@@ -28,6 +28,7 @@ from lcoe import engine as model
 from lcoe.analysis import study
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.keys import is_integer_key
 from lcoe.outputs import report
 from lcoe.physics import turbine
 from lcoe.physics import wind as resource
@@ -420,5 +421,5 @@ def test_fuzz_monte_carlo_keys(vary):
     event("ran")
     for key in vary:
         assert not key.startswith(("finance.debt.", "montecarlo.", "uncertainty.", "project."))
-        assert not sc.is_whole_number_key(key)
+        assert not is_integer_key(key)
     assert res.samples["lcoe_nominal_per_mwh"].size == 64

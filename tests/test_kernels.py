@@ -47,12 +47,34 @@ def test_tax_kernel_equals_the_running_maximum_formula(monkeypatch):
     assert (fast >= 0).all()
 
 
-def test_interpolation_kernel_equals_numpy_interp():
-    xp = np.round(np.arange(0.1, 2.5 + 1e-9, 0.0025), 6)
-    fp = np.sin(xp) + xp ** 2
-    x = np.random.default_rng(1).uniform(0.0, 3.0, (50, 25))
-    got = energy._interp_uniform(x, xp, fp)
-    np.testing.assert_allclose(got, np.interp(x, xp, fp), rtol=1e-12, atol=1e-12)
+@pytest.mark.parametrize("which", ["weibull", "hourly"])
+def test_factor_table_kernel_equals_its_array_formula(which, monkeypatch):
+    """The compiled table lookup against energy._table_lookup's array formula, factor by factor,
+    on the demo's Weibull climate and its hourly series (steps at every hour's cut-out)."""
+    from conftest import DEMO, DEMO_HOURLY
+
+    from lcoe.inputs import scenario
+    site = energy.site_for(scenario.load(DEMO if which == "weibull" else DEMO_HOURLY))
+    rng = np.random.default_rng(1)
+    x = np.concatenate([rng.uniform(0.0, 3.0, 4000), rng.uniform(0.9, 1.3, 4000), site.factors,
+                        site.step_factors[::5], np.nextafter(site.step_factors[::5], 3.0)])
+    fast = energy._table_lookup(x, site)
+    monkeypatch.setattr(energy, "_kernels", None)
+    slow = energy._table_lookup(x, site)
+    np.testing.assert_array_equal(np.isnan(fast), np.isnan(slow))
+    np.testing.assert_allclose(fast, slow, rtol=1e-13, atol=1e-15, equal_nan=True)
+    # NaN (evaluate directly) exactly outside the grid and inside the cells marked exact
+    g = site.factors
+    i = np.clip(np.searchsorted(g, x, side="right") - 1, 0, g.size - 2)
+    outside = (x < g[0]) | (x > g[-1])
+    on_node = np.isin(x, g)
+    np.testing.assert_array_equal(np.isnan(fast), outside | (site.cell_exact[i] & ~on_node))
+    # at the grid's factors: the directly evaluated ratios
+    np.testing.assert_array_equal(energy._table_lookup(g.copy(), site), site.aep_ratios)
+    if which == "weibull":
+        # no steps: plain linear interpolation, numpy.interp as the outside reference
+        ok = ~np.isnan(fast)
+        np.testing.assert_allclose(fast[ok], np.interp(x[ok], g, site.aep_ratios), rtol=1e-12, atol=1e-14)
 
 
 def test_coverage_kernel_equals_the_array_formulas(monkeypatch):

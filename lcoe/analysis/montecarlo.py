@@ -2,8 +2,9 @@
 
 Each trial draws
 
-* the inputs of ``[montecarlo.vary.KEY]`` (normal, lognormal, triangular, uniform),
-  correlated through a Gaussian copula, by Latin hypercube or plain random sampling;
+* the inputs of ``[montecarlo.vary.KEY]`` (normal, lognormal, triangular, uniform), by
+  plain random sampling (correlated through a Gaussian copula) or Latin hypercube
+  sampling within each random-number block (correlated by Iman-Conover reordering);
 * a long-term wind-speed factor from ``[[uncertainty.speed]]`` and an independent
   factor for every year from ``uncertainty.interannual_speed_sd``; both scale the
   hub-height speeds, and energy follows from the model's own AEP(scale) curve;
@@ -32,13 +33,12 @@ from scipy import stats
 from scipy.special import ndtr, ndtri
 
 from lcoe import engine as model
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+from lcoe.finance import _kernels  # compiled loops; tests set it to None to run the array formulas
 from lcoe.finance.cashflow import Sample
-from lcoe.inputs import scenario as sc
+from lcoe.inputs import keys
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.keys import numeric_value
+from lcoe.inputs.scenario import vary_refusal
 from lcoe.inputs.schema import MAX_TRIALS
 
 BLOCK = 8192  # trials per random-number block
@@ -47,6 +47,8 @@ HIST_BINS = 40
 # keys where a higher value is the better outcome (P90 = 10th percentile); the rest: P90 = 90th
 HIGHER_IS_BETTER = {"project_npv", "project_irr", "equity_npv", "equity_irr", "min_dscr", "avg_dscr", "llcr",
                     "net_aep_year1_mwh", "net_aep_mean_mwh", "debt_amount"}
+# keys whose undefined value is the worst outcome (never paid back): counted in the percentiles
+NEVER_IS_WORST = {"payback_year"}
 SAMPLED_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
                 "equity_irr", "min_dscr", "avg_dscr", "llcr", "payback_year", "net_aep_year1_mwh",
                 "net_aep_mean_mwh", "capex_total", "opex_mean")
@@ -55,12 +57,13 @@ SAMPLED_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "pro
 # --------------------------------------------------------------------------- input distributions
 
 def correlation_matrix(scn) -> np.ndarray:
-    """Correlation of the Gaussian copula that gives the requested rank correlations.
+    """Normal-score correlation that gives the requested rank correlations.
 
     ``rho`` in ``[[montecarlo.correlation]]`` is a rank (Spearman) correlation; for a
-    Gaussian copula the normal correlation is r = 2 sin(pi rho / 6) (Pearson 1907's
-    relation between rank and product-moment correlation of a bivariate normal), and
-    rank correlations survive the marginal transforms unchanged.
+    bivariate normal the product-moment correlation is r = 2 sin(pi rho / 6) (Pearson
+    1907's relation between rank and product-moment correlation), and rank correlations
+    survive monotone transforms unchanged. Random sampling uses r in a Gaussian copula;
+    Latin hypercube sampling gives the same r to the normal scores of Iman-Conover.
     """
     keys = list(scn.montecarlo.vary)
     m = len(keys)
@@ -76,58 +79,78 @@ def correlation_matrix(scn) -> np.ndarray:
     return r
 
 
+@lru_cache(maxsize=8)
+def _normal_scores(n: int) -> np.ndarray:
+    """The van der Waerden scores Phi^-1(i / (n + 1)), i = 1..n."""
+    scores = ndtri(np.arange(1, n + 1) / (n + 1.0))
+    scores.flags.writeable = False
+    return scores
+
+
+def iman_conover(x: np.ndarray, target: np.ndarray, rng: np.random.Generator, *,
+                 presorted: bool = False) -> np.ndarray:
+    """Reorder the columns of ``x`` (n draws of m inputs) towards the target rank correlation.
+
+    Each column keeps its values, only their order changes, so a stratified (Latin
+    hypercube) column stays stratified. Scores: the van der Waerden normal scores
+    Phi^-1(i / (n + 1)), shuffled independently for each column; their sample
+    correlation T = Q Q^T is replaced by ``target`` = P P^T through S* = S (P Q^-1)^T;
+    each column of ``x`` is then given the ranks of the matching column of S*.
+    ``presorted``: each column of ``x`` is already in ascending order.
+
+    References
+    ----------
+    R. L. Iman and W. J. Conover (1982), "A distribution-free approach to inducing rank
+    correlation among input variables", Communications in Statistics - Simulation and
+    Computation 11(3).
+    """
+    n, m = x.shape
+    if n < 2 or m < 2:
+        return x
+    s = rng.permuted(np.broadcast_to(_normal_scores(n), (m, n)), axis=1).T
+    t = np.corrcoef(s, rowvar=False)
+    try:
+        q = np.linalg.cholesky(t)
+    except np.linalg.LinAlgError:   # too few draws for the scores' correlation to be full rank
+        q = np.eye(m)
+    p = np.linalg.cholesky(target)
+    s_star = s @ np.linalg.solve(q.T, p.T)
+    out = np.empty_like(x)
+    for j in range(m):
+        out[np.argsort(s_star[:, j]), j] = x[:, j] if presorted else np.sort(x[:, j])
+    return out
+
+
 def _bounds(scn, key):
-    """(low, high, open_low, open_high) of a key's valid range, from the scenario model's metadata."""
-    parts = key.split(".")
-    model_cls = sc.Scenario
-    node_cls = None
-    for i, part in enumerate(parts):
-        fields = getattr(model_cls, "model_fields", {})
-        if part in fields:
-            info = fields[part]
-            inner = sc._inner_model(info.annotation)
-            if i == len(parts) - 1:
-                node_cls = info
-                break
-            model_cls = inner
-        elif model_cls is not None:
-            continue  # a list item's name
-    lo, hi = -math.inf, math.inf
-    if node_cls is None:
-        return lo, hi
-    metas = list(node_cls.metadata)
-    for arg in getattr(node_cls.annotation, "__args__", ()) or ():
-        metas += list(getattr(arg, "__metadata__", ()) or ())
-        for meta in getattr(arg, "__metadata__", ()) or ():
-            metas += list(getattr(meta, "metadata", []) or [])
-    for meta in metas:
-        for attr, side in (("ge", "lo"), ("gt", "lo"), ("le", "hi"), ("lt", "hi")):
-            v = getattr(meta, attr, None)
-            if v is not None:
-                if side == "lo":
-                    lo = max(lo, v + (1e-12 if attr == "gt" else 0.0))
-                else:
-                    hi = min(hi, v - (1e-12 if attr == "lt" else 0.0))
-    return lo, hi
+    """The closed range a drawn value is clipped to (the schema's, excluded ends moved inside)."""
+    return keys.key_bounds(key)
 
 
 def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
-    """Correlated draws of every ``[montecarlo.vary]`` input (Gaussian copula)."""
+    """Draws of every ``[montecarlo.vary]`` input for one block of ``n`` trials.
+
+    Latin hypercube: one draw in each of n equal-probability strata per input (McKay,
+    Beckman and Conover 1979); without correlations the strata are shuffled
+    independently for each input, with them Iman-Conover (:func:`iman_conover`) orders
+    the draws, which keeps every input's strata. Random: independent normals, correlated
+    through a Gaussian copula.
+    """
     vary = scn.montecarlo.vary
     if not vary or n == 0:
         return {}
     keys = list(vary)
     m = len(keys)
     if scn.montecarlo.sampling == "latin_hypercube":
-        # one point in each of n equal-probability strata per input, strata shuffled
-        # independently (McKay, Beckman and Conover 1979)
+        if scn.montecarlo.correlation:
+            # stratum k holds draw k of every input (ascending); Iman-Conover then orders them
+            u = (np.arange(n, dtype=float)[:, None] + rng.random((n, m))) / n
+            x = np.column_stack([quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)])
+            mixed = iman_conover(x, correlation_matrix(scn), rng, presorted=True)
+            return {key: mixed[:, j] for j, key in enumerate(keys)}
         strata = rng.permuted(np.broadcast_to(np.arange(n, dtype=float), (m, n)), axis=1)
         u = (strata.T + rng.random((n, m))) / n
-        if not scn.montecarlo.correlation:
-            return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
-        z = ndtri(np.clip(u, 1e-16, 1 - 1e-16))
-    else:
-        z = rng.standard_normal((n, m))
+        return {key: quantile(vary[key], numeric_value(scn, key), u[:, j]) for j, key in enumerate(keys)}
+    z = rng.standard_normal((n, m))
     if scn.montecarlo.correlation:
         z = z @ np.linalg.cholesky(correlation_matrix(scn)).T
     out = {}
@@ -193,25 +216,40 @@ class MonteCarloResult:
     warnings: list = field(default_factory=list)
     inputs: dict = field(default_factory=dict)     # vary key -> drawn values
 
-    def stats(self, key: str) -> dict:
-        """p50, p75, p90, p99 (conservative side), mean and sd of one sampled key."""
+    def _ranked(self, key: str) -> np.ndarray:
+        """The values percentiles are taken of: the defined ones, except for the payback year,
+        where a trial that never pays back counts as later than any year (+inf)."""
         x = self.samples[key]
-        x = x[np.isfinite(x)]
-        if x.size == 0:
+        if key in NEVER_IS_WORST:
+            return np.where(np.isfinite(x), x, np.inf)
+        return x[np.isfinite(x)]
+
+    def stats(self, key: str) -> dict:
+        """p50, p75, p90, p99 (conservative side), mean and sd of one sampled key.
+
+        Percentiles are numpy's (linear between order statistics) of the defined values;
+        for the payback year those of all trials, a trial that never pays back being later
+        than any year, so a percentile among those trials is None. Mean and sd are of the
+        defined values (the trials that pay back)."""
+        x = self._ranked(key)
+        finite = x[np.isfinite(x)]
+        if finite.size == 0:
             return {k: None for k in ("p50", "p75", "p90", "p99", "mean", "sd")}
         better_high = key in HIGHER_IS_BETTER
         q = {"p50": 50.0, "p75": 25.0 if better_high else 75.0, "p90": 10.0 if better_high else 90.0,
              "p99": 1.0 if better_high else 99.0}
-        vals = np.percentile(x, list(q.values()))
-        out = {k: float(v) for k, v in zip(q, vals)}
-        out["mean"] = float(x.mean())
-        out["sd"] = float(x.std(ddof=1)) if x.size > 1 else 0.0
+        with np.errstate(invalid="ignore"):
+            vals = np.percentile(x, list(q.values()))
+        out = {k: (float(v) if math.isfinite(v) else None) for k, v in zip(q, vals)}
+        out["mean"] = float(finite.mean())
+        out["sd"] = float(finite.std(ddof=1)) if finite.size > 1 else 0.0
         return out
 
     def p90_standard_error(self, key: str) -> float | None:
         """Standard error of the P90, distribution-free: half the spread between the order
-        statistics one binomial standard deviation either side of the P90 rank."""
-        x = np.sort(self.samples[key][np.isfinite(self.samples[key])])
+        statistics one binomial standard deviation either side of the P90 rank (None where
+        one of them is a trial that never pays back)."""
+        x = np.sort(self._ranked(key))
         n = x.size
         if n < 10:
             return None
@@ -219,6 +257,8 @@ class MonteCarloResult:
         half = math.sqrt(n * q * (1 - q))
         lo = int(max(0, math.floor(n * q - half)))
         hi = int(min(n - 1, math.ceil(n * q + half)))
+        if not np.isfinite(x[hi]):
+            return None
         return float((x[hi] - x[lo]) / 2.0)
 
     def probability(self, key: str, below: float) -> float | None:
@@ -347,21 +387,21 @@ def refuse_idle_inputs(scn, case=None) -> None:
     if not vary:
         return
     for key in vary:
-        why = sc.vary_refusal(scn, key)
+        why = vary_refusal(scn, key)
         if why:
             raise ScenarioError(why, key=f"montecarlo.vary.{key}", has_value=False)
     case = case if case is not None else model.run(scn, breakeven=False)
-    keys = list(vary)
-    rows = 2 * len(keys)
+    names = list(vary)
+    rows = 2 * len(names)
     over = {}
-    for j, key in enumerate(keys):
+    for j, key in enumerate(names):
         base = numeric_value(scn, key)
         lo, hi = _bounds(scn, key)
         column = np.full(rows, base)
         column[2 * j:2 * j + 2] = np.clip(quantile(vary[key], base, np.array([0.1, 0.9])), lo, hi)
         over[key] = column
     res = run_trials(scn, case, over, Sample(), fused=False)
-    for j, key in enumerate(keys):
+    for j, key in enumerate(names):
         a = np.array([np.asarray(res[k], float).reshape(-1)[2 * j] for k in res])
         b = np.array([np.asarray(res[k], float).reshape(-1)[2 * j + 1] for k in res])
         same = (a == b) | (np.isnan(a) & np.isnan(b)) | (np.abs(a - b) <= 1e-12 * np.maximum(np.abs(a), np.abs(b)))
@@ -372,17 +412,27 @@ def refuse_idle_inputs(scn, case=None) -> None:
                                 has_value=False)
 
 
-def _clip_inputs(scn, inputs: dict, warnings: list) -> dict:
+def _clip_inputs(scn, inputs: dict, clipped: list) -> dict:
+    """Each drawn input clipped to its key's valid range; ``clipped`` receives
+    (key, number of draws clipped, low, high) for each key with draws outside it."""
     out = {}
     for key, x in inputs.items():
         lo, hi = _bounds(scn, key)
         bad = (x < lo) | (x > hi)
         if bad.any():
-            warnings.append(f"montecarlo.vary.{key}: {int(bad.sum())} draw(s) outside the valid range "
-                            f"[{lo:g}, {hi:g}] were clipped to it")
+            clipped.append((key, int(bad.sum()), lo, hi))
             x = np.clip(x, lo, hi)
         out[key] = x
     return out
+
+
+def _clip_warnings(scn, clipped: list, n: int) -> list[str]:
+    """One warning for each key with clipped draws, their count over the whole run."""
+    total: dict[str, list] = {}
+    for key, count, lo, hi in clipped:
+        total.setdefault(key, [0, lo, hi])[0] += count
+    return [f"montecarlo.vary.{key}: {total[key][0]} of {n} draw(s) outside the valid range "
+            f"[{total[key][1]:g}, {total[key][2]:g}] were clipped to it" for key in scn.montecarlo.vary if key in total]
 
 
 def run_trials(scn, case, inputs: dict, sample: Sample, *, fused: bool = True) -> dict:
@@ -421,7 +471,7 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     chunk = scn.montecarlo.chunk_size if chunk_size is None else int(chunk_size)
     chunk = max(BLOCK, (chunk // BLOCK) * BLOCK)
     L = scn.lifetime
-    warnings: list[str] = []
+    clipped: list[tuple] = []
     parts: dict[str, list] = {k: [] for k in SAMPLED_KEYS}
     drawn: dict[str, list] = {k: [] for k in scn.montecarlo.vary}
     blocks = math.ceil(n / BLOCK) if n else 0
@@ -430,7 +480,7 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
 
     def one_chunk(span):
         group = [draw_block(scn, min(BLOCK, n - b * BLOCK), _block_rng(seed, b), L) for b in range(*span)]
-        notes: list[str] = []
+        notes: list[tuple] = []
         inputs = {k: np.concatenate([g[0][k] for g in group]) for k in scn.montecarlo.vary}
         inputs = _clip_inputs(scn, inputs, notes)
         sample = Sample(*[None if getattr(group[0][1], f) is None else
@@ -449,15 +499,21 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
                 parts[k].append(res[k])
             for k in drawn:
                 drawn[k].append(inputs[k])
-            warnings.extend(notes)
+            clipped.extend(notes)
             done += min(n, span[1] * BLOCK) - span[0] * BLOCK
             if progress is not None:
                 progress(done / n)
     samples = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
-    for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh"):
+    # counted over the whole run, so that the report does not depend on the chunk size
+    warnings = _clip_warnings(scn, clipped, n)
+    for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh", "payback_year"):
         bad = int(np.sum(~np.isfinite(samples[k]))) if samples[k].size else 0
         if bad:
-            warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s); percentiles use the rest")
+            if k in NEVER_IS_WORST:
+                warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s) (never paid back within the "
+                                "life); they count as later than any year, and a percentile among them is null")
+            else:
+                warnings.append(f"montecarlo: {k} undefined in {bad} of {n} trial(s); percentiles use the rest")
     debt = scn.finance.debt
     has_debt = debt is not None and case.metrics.get("debt_amount") and case.metrics["debt_amount"] > 0
     if not has_debt:
@@ -465,9 +521,5 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
             samples.pop(k, None)
     return MonteCarloResult(trials=n, seed=seed, samples=samples,
                             target_dscr=debt.target_dscr if has_debt else None,
-                            equity_target=scn.equity_target_return, warnings=_dedupe(warnings),
+                            equity_target=scn.equity_target_return, warnings=warnings,
                             inputs={k: np.concatenate(v) for k, v in drawn.items() if v})
-
-
-def _dedupe(items):
-    return list(dict.fromkeys(items))

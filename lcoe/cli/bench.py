@@ -51,6 +51,30 @@ def _carry_forward(taxable: float, pool: float, rate: float) -> tuple[float, flo
     return rate * (taxable - used), pool - used
 
 
+def table_ratio(site, f: float) -> float:
+    """AEP(f)/AEP(1) from the site's table for one factor, looked up step by step (a plain
+    second implementation of :meth:`lcoe.physics.energy.Site.ratio_at_factor`)."""
+    grid = site.factors
+
+    def direct():
+        return float(site.aep_direct(max(f, 0.0))[0] / site.gross_aep_mwh)
+
+    if not grid[0] <= f <= grid[-1]:
+        return direct()
+    i = min(int(np.searchsorted(grid, f, side="right")) - 1, grid.size - 2)
+    if f == grid[i] or f == grid[i + 1]:
+        return float(site.aep_ratios[i if f == grid[i] else i + 1])
+    if site.cell_exact[i]:
+        return direct()
+    fall = 0.0
+    k = int(site.step_starts[i])
+    while k < site.step_factors.size and site.step_factors[k] < f:
+        fall += site.step_cum[k + 1] - site.step_cum[k]
+        k += 1
+    w = (f - grid[i]) / (grid[i + 1] - grid[i])
+    return float(site.aep_ratios[i] + w * site.cell_slopes[i] - fall)
+
+
 def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cost) -> dict:
     """One Monte Carlo trial the straightforward way: a Python loop over the years, then
     numpy-financial's ``npv`` and ``irr`` and every other metric the engine gives. ``over`` holds this trial's drawn inputs;
@@ -91,7 +115,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
             avail -= get("operations.availability_ageing_per_year", o.availability_ageing_per_year) * (
                 t - get("operations.ageing_starts_year", o.ageing_starts_year))
         avail = min(max(avail, 0.0), 1.0)
-        g = gross if speed is None else gross * float(np.interp(speed[t - 1], site.factors, site.aep_ratios))
+        g = gross if speed is None else gross * table_ratio(site, float(speed[t - 1]))
         down = exp_down if downtime is None else downtime[t - 1]
         e = g * lf * avail * (1.0 - down) * (1.0 - get("operations.degradation_per_year",
                                                          o.degradation_per_year)) ** (t - 1)

@@ -18,7 +18,17 @@ from typing import Any
 from pydantic import PrivateAttr, ValidationError
 
 from lcoe.inputs.errors import ScenarioError, _show
-from lcoe.inputs.keys import _inner_model, _model_at, get_dotted, numeric_keys, numeric_value, set_dotted, suggest  # noqa: F401
+from lcoe.inputs.keys import (  # noqa: F401
+    FILE_SETTINGS,
+    _inner_model,
+    _model_at,
+    get_dotted,
+    is_integer_key,
+    numeric_keys,
+    numeric_value,
+    set_dotted,
+    suggest,
+)
 from lcoe.inputs.schema import (  # noqa: F401
     DEPRECIATION_METHODS,
     LOSS_CATEGORIES,
@@ -367,30 +377,6 @@ def _cross_checks(scn: Scenario) -> None:
                                 value=c.between[0])
 
 
-def _field(key: str):
-    """The pydantic field a dotted key names (list items skipped by name), or None."""
-    model: Any = Scenario
-    parts = key.split(".")
-    i = 0
-    while i < len(parts):
-        fields = getattr(model, "model_fields", None)
-        if not fields or parts[i] not in fields:
-            return None
-        info = fields[parts[i]]
-        if i == len(parts) - 1:
-            return info
-        model = _inner_model(info.annotation)
-        i += 2 if getattr(info.annotation, "__origin__", None) is list else 1
-    return None
-
-
-def is_whole_number_key(key: str) -> bool:
-    """True where the field takes whole numbers (years, counts)."""
-    info = _field(key)
-    ann = str(info.annotation) if info is not None else ""
-    return "int" in ann and "float" not in ann
-
-
 def vary_refusal(scn: Scenario, key: str) -> str | None:
     """Why ``[montecarlo.vary."KEY"]`` cannot be drawn in this scenario, or None.
 
@@ -406,11 +392,11 @@ def vary_refusal(scn: Scenario, key: str) -> str | None:
         return exc.message if exc.message.startswith("unknown key") else \
             f"does not name a numeric scenario value ({exc.message})"
     head = key.split(".")[0]
-    if head in ("montecarlo", "variants", "schema_version"):
+    if head in FILE_SETTINGS:
         return "is a setting of the file, not a model input"
     if key in ("project.lifetime_years", "project.turbines"):
         return "cannot vary between trials (it changes the shape of the model); use variants"
-    if is_whole_number_key(key):
+    if is_integer_key(key):
         return ("is a whole number (a year or a count): a trial's draw of, say, 11.6 would match no year, so it "
                 "cannot be drawn; compare whole values with variants or `lcoe sweep`")
     if key.startswith("finance.debt."):

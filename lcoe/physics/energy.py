@@ -9,17 +9,20 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lcoe.inputs.errors import ScenarioError
-from lcoe.physics import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+from lcoe.inputs.schema import LOSS_CATEGORIES
+from lcoe.physics import _kernels  # compiled loops; tests set it to None to run the array formulas
 from lcoe.physics import wind as resource
 from lcoe.physics.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
 from lcoe.physics.wind import Z_90, Z_99
 
 HOURS_PER_YEAR = 8760.0
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(10)
-# speed-factor grid of the tabulated AEP(scale factor); 1.0 is a node, so the base case is exact
-_FACTORS = np.round(np.arange(0.10, 2.50 + 1e-9, 0.0025), 6)
+# speed-factor grid of the tabulated AEP(scale factor); 1.0 is a node, so the base case is exact;
+# factors outside it (hub speeds halved or doubled) are evaluated directly
+_FACTORS = np.round(np.arange(0.50, 2.00 + 1e-9, 0.00125), 6)
+#: the table's error bound, relative to the AEP at the factor looked up
+TABLE_RTOL = 1e-5
+_BATCH = 1 << 21   # factor-by-node (or factor-by-hour) values evaluated at once (bounds the memory)
 
 
 # --------------------------------------------------------------------------- the Weibull integral
@@ -46,13 +49,15 @@ def mean_power_weibull_kw(curve: SiteCurve, scale_mps, shape) -> np.ndarray:
     cut-in and cut-out), so the integral is taken piecewise with 10-point
     Gauss-Legendre quadrature on pieces of at most 0.5 m/s: exact for the
     piecewise-linear or cubic curve to far better than 0.01 %.
-    ``scale_mps`` may be an array; the result has its shape.
+    ``scale_mps`` may be an array; the result has its shape, and each value is the same
+    whatever else is in the array.
     """
     nodes, weights = _quadrature_nodes(curve.breaks_mps)
     p = curve.power_kw(nodes) * weights
     a = np.asarray(scale_mps, float)
     pdf = resource.weibull_pdf(nodes[None, :], a.reshape(-1, 1), shape)
-    return (pdf @ p).reshape(a.shape)
+    # a sum along each row, not a matrix product: a row's value must not depend on the others
+    return np.sum(pdf * p, axis=1).reshape(a.shape)
 
 
 def aep_weibull_mwh(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarray:
@@ -77,15 +82,29 @@ class Climate:
     weights: np.ndarray | None = None         # series: weight of each row (sum 1; None: equal weights)
     series: object = None                     # series: the wind.Series it came from
 
-    def series_mean(self, values) -> float:
-        """The mean of a per-row series quantity, each calendar month weighed by its length."""
+    def series_mean(self, values):
+        """The mean over the series' rows (the last axis), each calendar month weighed by its length."""
         v = np.asarray(values, float)
-        return float(self.weights @ v) if self.weights is not None else float(v.mean())
+        return v @ self.weights if self.weights is not None else v.mean(axis=-1)
+
+    def row_weights(self) -> np.ndarray:
+        """The weight of each row of the series in its mean (summing to 1)."""
+        n = self.speeds_mps.size
+        return self.weights if self.weights is not None else np.full(n, 1.0 / n)
 
 
 @dataclass(frozen=True)
 class Site:
-    """Climate, curves and the gross-energy answers that do not change between trials."""
+    """Climate, curves and the gross-energy answers that do not change between trials.
+
+    The table of AEP against the speed factor f (every hub-height speed times f): with a
+    series, power falls to zero in each hour whose speed crosses the cut-out (and rises
+    from zero at a cut-in with power above zero), so AEP(f) has many small steps. They are
+    kept apart and counted exactly (``step_factors``, one for each hour and curve end,
+    sorted, with the cumulative ratio ``step_cum``); what remains, C(f) = AEP(f)/AEP(1) +
+    the steps below f, is continuous and is interpolated linearly. ``ratio_at_factor``
+    explains the lookup.
+    """
 
     climate: Climate
     curve: PowerCurve
@@ -93,21 +112,34 @@ class Site:
     turbines: int
     gross_aep_mwh: float
     speed_sensitivity: float
-    factors: np.ndarray       # speed-scale factors
-    aep_ratios: np.ndarray    # AEP(f) / AEP(1)
+    factors: np.ndarray       # speed-scale factors (the grid)
+    aep_ratios: np.ndarray    # AEP(f) / AEP(1) at the grid's factors, evaluated directly
+    cell_slopes: np.ndarray   # C(f[i+1]) - C(f[i]) of each cell
+    cell_exact: np.ndarray    # cells evaluated directly (interpolation would miss the bound)
+    step_factors: np.ndarray  # factors where a step of AEP(f) lies (sorted) ...
+    step_cum: np.ndarray      # ... the fall of AEP(f)/AEP(1) over the first k steps (k = 0..)
+    step_starts: np.ndarray   # steps below each grid factor (index into step_factors)
 
     def gross_at_factor(self, factor) -> np.ndarray:
-        """Gross AEP with every hub-height speed scaled by ``factor`` (interpolated table). [MWh/yr]"""
+        """Gross AEP with every hub-height speed scaled by ``factor`` (the table). [MWh/yr]"""
         return self.gross_aep_mwh * self.ratio_at_factor(factor)
 
     def ratio_at_factor(self, factor) -> np.ndarray:
-        """AEP(f) / AEP(1) by linear interpolation in the table (direct integration outside it)."""
+        """AEP(f) / AEP(1) from the table, within ``TABLE_RTOL`` of AEP(f) itself.
+
+        Between grid factors f_i <= f < f_i+1: AEP(f_i)/AEP(1) + w (C(f_i+1) - C(f_i)) minus
+        the steps between f_i and f, w = (f - f_i) / (f_i+1 - f_i). At a grid factor the
+        value is the one evaluated directly. Cells where the interpolation misses the
+        bound (the steep low-wind end, see :func:`_factor_table`) and factors outside the
+        grid are evaluated directly.
+        """
         f = np.asarray(factor, float)
-        out = _interp_uniform(f, self.factors, self.aep_ratios)
-        if f.size and (f.min() < self.factors[0] or f.max() > self.factors[-1]):
-            outside = (f < self.factors[0]) | (f > self.factors[-1])
-            out = np.where(outside, self._direct_ratio(f), out)
-        return out
+        flat = f.reshape(-1)
+        out = _table_lookup(flat, self)
+        bad = np.isnan(out)
+        if bad.any():
+            out[bad] = self._direct_ratio(flat[bad])
+        return out.reshape(f.shape)
 
     def _direct_ratio(self, f: np.ndarray) -> np.ndarray:
         flat = np.clip(f.ravel(), 0.0, None)
@@ -117,13 +149,41 @@ class Site:
         """Gross AEP by direct integration (or series mean) at speed factors. [MWh/yr]"""
         f = np.atleast_1d(np.asarray(factor, float))
         c = self.climate
-        if c.kind == "weibull":
-            return aep_weibull_mwh(self.site_curve, c.scale_mps * f, c.shape, self.turbines)
-        rho = c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3
         out = np.empty(f.shape)
-        for i, fi in enumerate(f):
-            out[i] = c.series_mean(self.curve.power_kw_at(c.speeds_mps * fi, rho))
+        if c.kind == "weibull":
+            rows = max(1, _BATCH // 1024)
+            for i in range(0, f.size, rows):
+                out[i:i + rows] = aep_weibull_mwh(self.site_curve, c.scale_mps * f[i:i + rows], c.shape,
+                                                  self.turbines)
+            return out
+        rho = c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3
+        rows = max(1, _BATCH // c.speeds_mps.size)
+        for i in range(0, f.size, rows):
+            part = f[i:i + rows]
+            out[i:i + rows] = c.series_mean(self.curve.power_kw_at(part[:, None] * c.speeds_mps[None, :], rho))
         return self.turbines * HOURS_PER_YEAR * out / 1000.0
+
+
+def _table_lookup(f: np.ndarray, site: Site) -> np.ndarray:
+    """The table at factors ``f`` (1-d); NaN where the factor must be evaluated directly (outside
+    the grid, in a cell marked exact). Compiled (:func:`lcoe.physics._kernels.factor_table`) or
+    the same formula on arrays."""
+    if _kernels is not None:
+        xc = np.ascontiguousarray(f, dtype=float)
+        return _kernels.factor_table(xc, site.factors, site.aep_ratios, site.cell_slopes, site.cell_exact,
+                                     site.step_factors, site.step_cum, site.step_starts, np.empty_like(xc))
+    xp = site.factors
+    x = np.asarray(f, float)
+    i = np.clip(np.searchsorted(xp, x, side="right") - 1, 0, xp.size - 2)
+    w = (x - xp[i]) / (xp[i + 1] - xp[i])
+    start = site.step_starts[i]
+    k = np.maximum(np.searchsorted(site.step_factors, x, side="left"), start)
+    out = site.aep_ratios[i] + w * site.cell_slopes[i] - (site.step_cum[k] - site.step_cum[start])
+    node = (x == xp[i]) | (x == xp[i + 1])
+    out = np.where(site.cell_exact[i] & ~node, np.nan, out)
+    out = np.where(x == xp[i], site.aep_ratios[i], np.where(x == xp[i + 1], site.aep_ratios[i + 1], out))
+    out = np.where((x >= xp[0]) & (x <= xp[-1]), out, np.nan)
+    return out
 
 
 # shape grid of the tabulated AEP(Weibull k): the whole range wind.weibull_shape accepts
@@ -163,34 +223,94 @@ def aep_weibull_rows(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarr
     p = curve.power_kw(nodes) * weights
     a = np.asarray(scale_mps, float).reshape(-1, 1)
     pdf = resource.weibull_pdf(nodes[None, :], a, np.asarray(shape, float).reshape(-1, 1))
-    return turbines * HOURS_PER_YEAR * (pdf @ p) / 1000.0
+    # a sum along each row (as mean_power_weibull_kw): a row's value does not depend on the others
+    return turbines * HOURS_PER_YEAR * np.sum(pdf * p, axis=1, keepdims=True) / 1000.0
 
 
 def gross_at_shape(site: Site, fixed: str, shape) -> tuple[np.ndarray, np.ndarray]:
     """Gross AEP and speed sensitivity at Weibull shapes ``shape`` (any shape of array), from the table."""
     ks, ratio, sens = shape_table(site, fixed)
-    k = np.ascontiguousarray(shape, dtype=float)
-    return site.gross_aep_mwh * _interp_uniform(k, ks, ratio), _interp_uniform(k, ks, sens)
+    k = np.asarray(shape, dtype=float)
+    flat = k.reshape(-1)
+    return (site.gross_aep_mwh * np.interp(flat, ks, ratio).reshape(k.shape),
+            np.interp(flat, ks, sens).reshape(k.shape))
 
 
-def _interp_uniform(x, xp, fp):
-    """np.interp for an evenly spaced grid ``xp``: the cell index is computed, not searched."""
-    n = xp.size
-    if _kernels is not None and np.ndim(x):
-        xc = np.ascontiguousarray(x, dtype=float)
-        return _kernels.interp_uniform(xc, float(xp[0]), float((xp[-1] - xp[0]) / (n - 1)), fp, np.empty_like(xc))
-    h = (xp[-1] - xp[0]) / (n - 1)
-    pos = np.clip(x, xp[0], xp[-1])
-    pos -= xp[0]
-    pos /= h
-    i = pos.astype(np.intp)
-    np.minimum(i, n - 2, out=i)
-    pos -= i
-    slope = np.diff(fp)
-    out = slope[i]
-    out *= pos
-    out += fp[i]
-    return out
+def _series_steps(site: Site, gross: float) -> tuple[np.ndarray, np.ndarray]:
+    """The steps of a series' AEP(f)/AEP(1): (factor, fall) for each hour and curve end, sorted.
+
+    An hour with speed v and a curve step at speed s (power change dP) steps at f = s / v;
+    its fall in the ratio is -dP turbines 8760 h w / (1000 gross), w the hour's weight in the
+    series mean. A step that lands on a grid factor (a round speed at a round factor) is placed just below it when the direct
+    evaluation at that factor already includes it, else on it, so that the two agree there.
+    """
+    c = site.climate
+    v = c.speeds_mps
+    rho = np.broadcast_to(c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3, v.shape)
+    # each hour weighs as in the series mean (its calendar month by the month's length)
+    scale = site.turbines * HOURS_PER_YEAR / (1000.0 * gross) * c.row_weights()
+    where, fall, hour = [], [], []
+    for speed, change in site.curve.steps_kw_at(rho):
+        ok = np.nonzero((v > 0) & (change != 0))[0]
+        where.append(speed[ok] / v[ok])
+        fall.append(-change[ok] * scale[ok])
+        hour.append(ok)
+    thr, fall, hour = np.concatenate(where), np.concatenate(fall), np.concatenate(hour)
+    grid = site.factors
+    h = (grid[-1] - grid[0]) / (grid.size - 1)
+    k = np.clip(np.rint((thr - grid[0]) / h), 0, grid.size - 1).astype(np.intp)
+    near = np.abs(thr - grid[k]) <= 8.0 * np.finfo(float).eps * grid[k]
+    if near.any():
+        fk, hk = grid[k[near]], hour[near]
+        vk = v[hk]
+        rk = c.densities_kgm3[hk] if c.densities_kgm3 is not None else c.density_kgm3
+        at = site.curve.power_kw_at(vk * fk, rk)
+        below = site.curve.power_kw_at(vk * (fk * (1.0 - 1e-9)), rk)
+        above = site.curve.power_kw_at(vk * (fk * (1.0 + 1e-9)), rk)
+        applied = np.abs(at - above) < np.abs(at - below)
+        thr = thr.copy()
+        thr[near] = np.where(applied, np.nextafter(fk, -np.inf), fk)
+    order = np.argsort(thr, kind="stable")
+    return thr[order], fall[order]
+
+
+def _flat_table(f: np.ndarray) -> dict:
+    """A table of ones with no steps and no exact cells (a site with no energy at f = 1)."""
+    return {"aep_ratios": np.ones_like(f), "cell_slopes": np.zeros(f.size - 1),
+            "cell_exact": np.zeros(f.size - 1, bool), "step_factors": np.empty(0), "step_cum": np.zeros(1),
+            "step_starts": np.zeros(f.size, np.intp)}
+
+
+def _factor_table(site: Site, gross: float) -> dict:
+    """The table of AEP(f)/AEP(1) on the grid, its continuous part, the steps and the exact cells.
+
+    AEP(f) is evaluated directly at every grid factor. Linear interpolation of a smooth
+    function errs by at most h^2 max|C''| / 8 in a cell of width h; the second differences
+    of the continuous part C at the four grid factors nearest the cell estimate h^2 C''
+    there. A cell is interpolated only where that estimate of its error, taken four times
+    over, is within ``TABLE_RTOL`` of the lowest AEP(f)/AEP(1) in the cell (the margin
+    covers the change of C'' across the cell and, for a series, the many small kinks of
+    the hours crossing the curve's breakpoints); elsewhere, mostly the steep low-wind end,
+    the lookup evaluates AEP(f) directly.
+    """
+    f = site.factors
+    ratios = site.aep_direct(f) / gross
+    ratios[np.isclose(f, 1.0, rtol=0, atol=1e-12)] = 1.0
+    if site.climate.kind == "series":
+        thr, fall = _series_steps(site, gross)
+    else:      # the Weibull integral is smooth in the scale: no steps
+        thr, fall = np.empty(0), np.empty(0)
+    cum = np.concatenate([[0.0], np.cumsum(fall)])
+    cum_abs = np.concatenate([[0.0], np.cumsum(np.abs(fall))])
+    starts = np.searchsorted(thr, f, side="left")          # steps below each grid factor
+    cont = ratios + cum[starts]
+    second = np.full(f.size + 2, np.inf)                   # |second difference| at each factor, padded
+    second[2:-2] = np.abs(cont[:-2] - 2.0 * cont[1:-1] + cont[2:])
+    worst = np.max(np.stack([second[0:-3], second[1:-2], second[2:-1], second[3:]]), axis=0)[:f.size - 1]
+    lowest = np.minimum(ratios[:-1], ratios[1:]) - (cum_abs[starts[1:]] - cum_abs[starts[:-1]])
+    exact = ~((4.0 * worst / 8.0 <= TABLE_RTOL * lowest) & (lowest > 0))
+    return {"aep_ratios": ratios, "cell_slopes": np.diff(cont), "cell_exact": exact, "step_factors": thr,
+            "step_cum": cum, "step_starts": starts.astype(np.intp)}
 
 
 def climate_from(scn) -> Climate:
@@ -316,35 +436,55 @@ def _build_site(scn) -> Site:
     curve = curve_from(scn)
     site_curve = curve.at_density(climate.density_kgm3)
     n = scn.project.turbines
-    probe = Site(climate, curve, site_curve, n, 1.0, float("nan"), np.array([1.0]), np.array([1.0]))
+    probe = Site(climate, curve, site_curve, n, 1.0, float("nan"), _FACTORS, **_flat_table(_FACTORS))
     gross = float(probe.aep_direct(1.0)[0])
-    if climate.kind == "weibull":
-        ratios = aep_weibull_mwh(site_curve, climate.scale_mps * _FACTORS, climate.shape, n)
-        factors = _FACTORS
-    else:
-        factors = np.round(np.arange(0.10, 2.50 + 1e-9, 0.01), 6)
-        ratios = probe.aep_direct(factors)
     if gross > 0:
-        ratios = ratios / gross
-        ratios[np.isclose(factors, 1.0, rtol=0, atol=1e-12)] = 1.0
+        table = _factor_table(probe, gross)
         lo, hi = probe.aep_direct(np.array([0.99, 1.01]))
         sens = math.log(hi / lo) / math.log(1.01 / 0.99) if lo > 0 and hi > 0 else float("nan")
-    else:
-        ratios = np.ones_like(factors)
+    else:      # no energy at f = 1: a flat table of ones (every trial's gross AEP stays zero)
+        table = _flat_table(_FACTORS)
         sens = float("nan")
-    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios)
+    return Site(climate, curve, site_curve, n, gross, sens, _FACTORS, **table)
 
 
 # --------------------------------------------------------------------------- net energy
 
 def loss_factor(losses) -> float:
-    """prod(1 - loss_k) over the loss categories, applied multiplicatively. [-]"""
-    return losses.factor()
+    """prod(1 - loss_k) over the loss fractions, applied multiplicatively, in the order given. [-]
+
+    ``losses``: the fractions (floats or per-row arrays), in the order of
+    :data:`lcoe.inputs.schema.LOSS_CATEGORIES`.
+    """
+    out = 1.0
+    for loss in losses:
+        out = out * (1.0 - loss)
+    return out
+
+
+def downtime_fraction(rates, days_per_event) -> float:
+    """Expected downtime D = sum(rate * downtime_days / 365) over the components. [-]"""
+    return sum(r * d / 365.0 for r, d in zip(rates, days_per_event)) if len(rates) else 0.0
 
 
 def component_downtime_fraction(components) -> float:
-    """Expected downtime D = sum(rate * downtime_days / 365). [-]"""
-    return float(sum(c.failure_rate_per_turbine_year * c.downtime_days / 365.0 for c in components))
+    """D of the scenario's component table (see :func:`downtime_fraction`). [-]"""
+    return float(downtime_fraction([c.failure_rate_per_turbine_year for c in components],
+                                   [c.downtime_days for c in components]))
+
+
+def p50_energy(gross_mwh, loss_factor, availability_mature, downtime):
+    """P50 net AEP = gross * prod(1 - loss) * availability_mature * (1 - D). [MWh/yr]"""
+    return gross_mwh * loss_factor * availability_mature * (1.0 - downtime)
+
+
+def yearly_energy(gross_mwh, loss_factor, availability, downtime, degradation, factor=None, out=None):
+    """Net energy of each year, E_t = gross * prod(1 - loss) * avail_t * (1 - D) * degradation_t
+    (times a per-row energy factor where given). [MWh/yr]"""
+    base = gross_mwh * loss_factor * availability * (1.0 - downtime)
+    if factor is None:
+        return np.multiply(base, degradation, out=out)
+    return np.multiply(base * degradation, factor, out=out)
 
 
 def availability_profile(years, first, mature, ageing_starts_year, ageing_per_year):
@@ -365,7 +505,7 @@ def degradation_factor(years, degradation_per_year):
 
 
 def sigma_total(sensitivity, interannual_speed_sd, speed_sds, energy_sds, years=1):
-    """Relative sd of the N-year mean net energy. [-]
+    """Relative sd of the N-year mean net energy (floats or per-row arrays). [-]
 
     sigma_N = sqrt((S sigma_iav)^2 / N + sum (S sigma_speed)^2 + sum sigma_energy^2).
 
@@ -376,12 +516,27 @@ def sigma_total(sensitivity, interannual_speed_sd, speed_sds, energy_sds, years=
     """
     s = sensitivity
     other = sum((s * x) ** 2 for x in speed_sds) + sum(x ** 2 for x in energy_sds)
-    return math.sqrt((s * interannual_speed_sd) ** 2 / years + other)
+    return np.sqrt((s * interannual_speed_sd) ** 2 / years + other)
 
 
-def exceedance(p50, sigma, z):
-    """P_x = P50 (1 - z_x sigma), floored at zero. z_90 = 1.2815516, z_99 = 2.3263479."""
-    return max(0.0, p50 * (1.0 - z * sigma))
+def exceedance_factor(sigma, z):
+    """P_x / P50 = 1 - z_x sigma, floored at zero. z_90 = 1.2815516, z_99 = 2.3263479. [-]"""
+    return np.maximum(0.0, 1.0 - z * sigma)
+
+
+def case_factors(sigma_1yr, sigma_10yr) -> dict:
+    """P_case / P50 of each debt sizing case (p50, p90_1yr, p90_10yr, p99_1yr), floats or per-row arrays."""
+    return {"p50": np.ones_like(np.asarray(sigma_1yr, float)) if np.ndim(sigma_1yr) else 1.0,
+            "p90_1yr": exceedance_factor(sigma_1yr, Z_90), "p90_10yr": exceedance_factor(sigma_10yr, Z_90),
+            "p99_1yr": exceedance_factor(sigma_1yr, Z_99)}
+
+
+def sigmas(sensitivity, interannual_speed_sd, speed_sds, energy_sds):
+    """(sigma_1yr, sigma_10yr) with a non-finite speed sensitivity taken as zero."""
+    s = np.where(np.isfinite(sensitivity), sensitivity, 0.0) if np.ndim(sensitivity) else (
+        sensitivity if math.isfinite(sensitivity) else 0.0)
+    return (sigma_total(s, interannual_speed_sd, speed_sds, energy_sds, 1),
+            sigma_total(s, interannual_speed_sd, speed_sds, energy_sds, 10))
 
 
 @dataclass(frozen=True)
@@ -405,15 +560,12 @@ class EnergyResult:
     sigma_10yr: float
     availability: np.ndarray       # t = 1..L
     energy_mwh: np.ndarray         # t = 1..L
+    factors: dict                  # sizing case -> P_case / P50 (case_factors)
     warnings: tuple[str, ...]
 
     def case_factor(self, case: str) -> float:
         """P_case / P50 for a debt sizing case (p50, p90_1yr, p90_10yr, p99_1yr)."""
-        if self.net_aep_p50_mwh <= 0:
-            return 1.0
-        value = {"p50": self.net_aep_p50_mwh, "p90_1yr": self.net_aep_p90_1yr_mwh,
-                 "p90_10yr": self.net_aep_p90_10yr_mwh, "p99_1yr": self.net_aep_p99_1yr_mwh}[case]
-        return value / self.net_aep_p50_mwh
+        return self.factors[case]
 
     def report(self) -> dict:
         keys = ["air_density_kgm3", "hub_mean_speed_mps", "gross_aep_mwh", "net_aep_p50_mwh",
@@ -431,21 +583,20 @@ def energy_of(scn) -> EnergyResult:
     """Gross and net energy, the yearly profile and the P-values of a scenario."""
     site = site_for(scn)
     c = site.climate
-    lf = loss_factor(scn.losses)
+    lf = loss_factor([getattr(scn.losses, name) for name in LOSS_CATEGORIES])
     d = component_downtime_fraction(scn.maintenance.component)
     o = scn.operations
     years = np.arange(1, scn.lifetime + 1)
     avail = availability_profile(years, scn.availability_first_year, o.availability_mature,
                                  o.ageing_starts_year, o.availability_ageing_per_year)
     gross = site.gross_aep_mwh
-    energy = gross * lf * avail * (1.0 - d) * degradation_factor(years, o.degradation_per_year)
-    p50 = gross * lf * o.availability_mature * (1.0 - d)
+    energy = yearly_energy(gross, lf, avail, d, degradation_factor(years, o.degradation_per_year))
+    p50 = p50_energy(gross, lf, o.availability_mature, d)
     u = scn.uncertainty
-    s = site.speed_sensitivity if math.isfinite(site.speed_sensitivity) else 0.0
-    speed_sds = [x.sd for x in u.speed]
-    energy_sds = [x.sd for x in u.energy]
-    s1 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 1)
-    s10 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 10)
+    s1, s10 = sigmas(site.speed_sensitivity, u.interannual_speed_sd, [x.sd for x in u.speed],
+                     [x.sd for x in u.energy])
+    s1, s10 = float(s1), float(s10)
+    factors = {k: float(v) for k, v in case_factors(s1, s10).items()}
     warns = list(c.warnings)
     if d >= 1.0:
         raise ScenarioError("the expected component downtime sum(rate * downtime_days / 365) reaches 100 %",
@@ -459,7 +610,7 @@ def energy_of(scn) -> EnergyResult:
     return EnergyResult(
         air_density_kgm3=c.density_kgm3, hub_mean_speed_mps=c.mean_speed_mps, weibull_scale_mps=c.scale_mps,
         weibull_shape=c.shape, gross_aep_mwh=gross, loss_factor=lf, downtime_fraction=d,
-        net_aep_p50_mwh=p50, net_aep_p90_1yr_mwh=exceedance(p50, s1, Z_90),
-        net_aep_p90_10yr_mwh=exceedance(p50, s10, Z_90), net_aep_p99_1yr_mwh=exceedance(p50, s1, Z_99),
+        net_aep_p50_mwh=p50, net_aep_p90_1yr_mwh=p50 * factors["p90_1yr"],
+        net_aep_p90_10yr_mwh=p50 * factors["p90_10yr"], net_aep_p99_1yr_mwh=p50 * factors["p99_1yr"],
         net_capacity_factor=cf, speed_sensitivity=site.speed_sensitivity, sigma_1yr=s1, sigma_10yr=s10,
-        availability=avail, energy_mwh=energy, warnings=tuple(warns))
+        availability=avail, energy_mwh=energy, factors=factors, warnings=tuple(warns))

@@ -63,16 +63,6 @@ def normalised_speed(speed_mps, density_kgm3, reference_density_kgm3):
     return np.asarray(speed_mps, float) * (density_kgm3 / reference_density_kgm3) ** (1.0 / 3.0)
 
 
-def normalised_power_stall(power_kw, density_kgm3, reference_density_kgm3):
-    """Power normalisation for stall-regulated turbines, P_n = P rho_0 / rho. [kW]
-
-    References
-    ----------
-    IEC 61400-12-1 (from memory).
-    """
-    return np.asarray(power_kw, float) * reference_density_kgm3 / density_kgm3
-
-
 @dataclass(frozen=True)
 class SiteCurve:
     """A power curve at the site's air density: P(v) in kW and the breakpoints of P."""
@@ -138,6 +128,32 @@ class PowerCurve:
             vn = normalised_speed(v, rho, self.reference_density_kgm3)
             p = np.interp(vn, self.speed_mps, self.power_kw, left=0.0, right=0.0)
         return np.minimum(p, rated)
+
+    def steps_kw_at(self, density_kgm3) -> list[tuple[np.ndarray, np.ndarray]]:
+        """Where :meth:`power_kw_at` jumps, at each density: a list of (speed [m/s], change [kW]).
+
+        P(v) is continuous except at the ends of its range: at the first table point (or
+        the cut-in) it rises from zero to the power there, at the last point (or the
+        cut-out) it falls back to zero. ``change`` is the power just above the speed minus
+        the power just below it; the arrays have the shape of ``density_kgm3``.
+        """
+        rho = np.asarray(density_kgm3, float)
+        rated = self.rated_power_kw
+        out = []
+        if self.kind == "physics":
+            area = float(swept_area_m2(self.rotor_diameter_m))
+            for v, sign in ((self.cut_in_mps, 1.0), (self.cut_out_mps, -1.0)):
+                p = np.minimum(wind_power_kw(v, rho, area, self.cp_max, self.drivetrain_efficiency), rated)
+                out.append((np.full(rho.shape, float(v)), sign * p))
+            return out
+        for at, sign in ((0, 1.0), (-1, -1.0)):
+            s, p = float(self.speed_mps[at]), float(self.power_kw[at])
+            if self.regulation == "stall":
+                speed, power = np.full(rho.shape, s), p * rho / self.reference_density_kgm3
+            else:
+                speed, power = s / (rho / self.reference_density_kgm3) ** (1.0 / 3.0), np.full(rho.shape, p)
+            out.append((speed, sign * np.minimum(power, rated)))
+        return out
 
     def at_density(self, density_kgm3: float) -> SiteCurve:
         """The curve at the site: density-adjusted table, or physics at the site density.
