@@ -313,3 +313,45 @@ def test_weibull_factor_table_within_its_bound_of_scipy_quadrature():
         ref *= scn.project.turbines * 8760.0 / 1000.0
         assert float(site.gross_at_factor(np.array([f]))[0]) == pytest.approx(ref, rel=1e-5), f
     assert not site.cell_exact[(site.factors[:-1] >= 0.75) & (site.factors[:-1] < 1.5)].any()
+
+
+@pytest.mark.parametrize("fixed", ["mean", "scale"])
+def test_weibull_shape_table_within_its_bound_of_scipy_quadrature(fixed):
+    """The table of AEP(k) that Monte Carlo reads when it draws the Weibull shape, against
+    scipy.integrate.quad of P(v) f(v; k, A) (scipy.stats.weibull_min), with A = mean / Gamma(1 + 1/k)
+    (the scenario holds the mean) or A fixed (it holds the scale): within 1e-5, at shapes off the grid."""
+    from conftest import DEMO
+    from scipy.integrate import quad
+    from scipy.special import gamma as gamma_fn
+
+    from lcoe.inputs import scenario
+    site = en.site_for(scenario.load(DEMO))
+    c, sc_ = site.climate, site.site_curve
+    pts = list(sc_.breaks_mps)
+    shapes = np.array([0.5031, 1.1234, 1.7777, 2.0987, 2.3456, 3.0101, 4.4444, 7.3331, 9.9977])
+    gross, _ = en.gross_at_shape(site, fixed, shapes)
+    for k, table in zip(shapes, gross):
+        a = c.mean_speed_mps / gamma_fn(1.0 + 1.0 / k) if fixed == "mean" else c.scale_mps
+        ref, _ = quad(lambda v, a=a, k=k: float(sc_.power_kw(v)) * weibull_min.pdf(v, k, scale=a), 0.0,
+                      float(max(pts)), points=pts, limit=500, epsabs=0, epsrel=1e-11)
+        ref *= site.turbines * 8760.0 / 1000.0
+        assert table == pytest.approx(ref, rel=1e-5), k
+
+
+def test_monte_carlo_drawing_the_shape_matches_one_integration_per_trial():
+    """Trials that draw the shape read the table; the same trials run one scenario each (the
+    integral evaluated afresh) give the same energy to 1e-5 (the table's bound)."""
+    from conftest import DEMO
+
+    from lcoe import engine as model
+    from lcoe.finance.cashflow import Sample
+    from lcoe.inputs import scenario
+    scn = scenario.load(DEMO)
+    case = model.run(scn, breakeven=False)
+    ks = np.array([1.55, 1.9, 2.1, 2.35, 2.8])
+    fast, _, _ = model.evaluate(scn, overrides={"wind.weibull_shape": ks}, sample=Sample(), schedule=case.schedule,
+                                energy=case.energy, lean=True)
+    for i, k in enumerate(ks):
+        one = en.site_for(scn.with_overrides({"wind.weibull_shape": float(k)}))
+        assert fast.energy_mwh[i, 1] / case.flows.energy_mwh[0, 1] == pytest.approx(
+            one.gross_aep_mwh / case.energy.gross_aep_mwh, rel=1e-5)

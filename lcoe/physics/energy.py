@@ -197,7 +197,7 @@ def shape_table(site: Site, fixed: str) -> tuple[np.ndarray, np.ndarray, np.ndar
     A = mean / Gamma(1 + 1/k)) or ``"scale"``. Monte Carlo trials that draw the shape read
     their energy here, as trials that draw the speed read the speed-factor table: one
     interpolation instead of one integration per trial. Linear interpolation on the
-    0.005 grid is within about 1e-6 of the integral (tests/test_energy.py).
+    0.005 grid is within 1e-5 of the integral (tests/test_energy.py).
     """
     memo = site.__dict__.setdefault("_shape_tables", {})
     if fixed in memo:
