@@ -36,8 +36,10 @@ def cmd_check(args) -> int:
           f"{len(scn.variants)} variant(s))")
     series = energy.site_for(scn).climate.series
     if series is not None:
-        print(f"series: {series.step_text} steps over {series.years:.1f} years; data in each calendar month, in "
-              f"months: {resource.coverage_text(series.month_coverage)}")
+        print(f"series: {series.step_text} steps over {series.years:.1f} years; months of data in each calendar "
+              "month (each weighs by its length):")
+        cells = [f"{m[:3]} {c:4.1f}" for m, c in zip(resource.MONTHS, series.month_coverage)]
+        print("  " + "   ".join(cells[:6]) + "\n  " + "   ".join(cells[6:]))
     for w in dict.fromkeys(list(scn.warnings()) + list(e.warnings)):
         print(f"warning: {w}")
     return 0
