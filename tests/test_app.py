@@ -484,7 +484,8 @@ def test_app_command_finds_the_app_and_serves_it_headless():
     assert argv[1:5] == ["-m", "streamlit", "run", str(APP)]
     opts = dict(zip(argv[5::2], argv[6::2]))
     assert opts == {"--server.headless": "true", "--server.port": "8765", "--server.address": "127.0.0.1",
-                    "--browser.gatherUsageStats": "false", "--client.toolbarMode": "minimal"}
+                    "--browser.gatherUsageStats": "false", "--client.toolbarMode": "minimal",
+                    "--client.showErrorDetails": "none"}
 
 
 def test_app_command_without_the_app_says_so(monkeypatch, capsys, tmp_path):
