@@ -89,7 +89,7 @@ def test_toml_round_trip():
     (dict(wind__weibull_scale_mps=8.0),
      r"^test\.toml: wind\.weibull_scale_mps = 8\.0: cannot be given together with wind\.mean_speed_mps"),
     (dict(wind__mean_speed_mps=None),
-     r"^test\.toml: wind: give exactly one of mean_speed_mps, weibull_scale_mps or timeseries$"),
+     r"^test\.toml: wind: give exactly one of mean_speed_mps, weibull_scale_mps, timeseries or rose$"),
     (dict(turbine__hub_height_m=50.0),
      r"^test\.toml: turbine\.hub_height_m = 50\.0: must be above the rotor radius 55 m"),
     (dict(finance__debt__tenor_years=25),

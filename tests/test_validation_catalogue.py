@@ -85,16 +85,16 @@ CASES = [
     # ---- mutually exclusive keys
     ("exclusive_mean_and_scale", TOML, "wind.weibull_scale_mps", "8.1",
      r"cannot be given together with wind\.mean_speed_mps; give exactly one of mean_speed_mps, "
-     r"weibull_scale_mps or timeseries"),
+     r"weibull_scale_mps, timeseries or rose"),
     ("exclusive_curve_and_physics", TOML, "turbine.cp_max", "0.45",
      r"cannot be given together with turbine\.power_curve; use a curve table or physics parameters"),
     ("exclusive_shear_and_roughness", TOML, "wind.roughness_length_m", "0.05",
      r"cannot be given together with wind\.shear_exponent; choose the power law or the log law"),
     ("exclusive_no_wind_source", TOML, "wind", None,
-     r"give exactly one of mean_speed_mps, weibull_scale_mps or timeseries"),
+     r"give exactly one of mean_speed_mps, weibull_scale_mps, timeseries or rose"),
     ("series_weibull_too", TOML, "wind.timeseries", "'series_weibull_too.csv'",
      r"cannot be given together with wind\.mean_speed_mps; give exactly one of mean_speed_mps, "
-     r"weibull_scale_mps or timeseries"),
+     r"weibull_scale_mps, timeseries or rose"),
     # ---- missing required keys
     ("missing_capex_section", TOML, "capex", None, r"is required"),
     ("missing_ppa_price", TOML, "revenue.ppa_price_per_mwh", None, r"is required"),

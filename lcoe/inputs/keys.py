@@ -152,6 +152,8 @@ def numeric_value(scn: ScenarioFields, key: str) -> float:
                            "revenue.merchant_price_per_mwh": scn.merchant_price_per_mwh,
                            "finance.equity_target_return": scn.equity_target_return,
                            "wind.shear_exponent": scn.wind.alpha}
+                if key == "layout.wake_decay_constant" and scn.layout is not None:
+                    return float(scn.layout.decay_constant)
                 if key in derived:
                     return float(derived[key])
                 raise ScenarioError("is not set in this scenario", key=key, has_value=False)

@@ -12,6 +12,8 @@ from lcoe.inputs.errors import ScenarioError
 from lcoe.physics import (
     _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
 )
+from lcoe.physics import farm, mcp
+from lcoe.physics import rose as rs
 from lcoe.physics import wind as resource
 from lcoe.physics.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
 from lcoe.physics.wind import Z_90, Z_99
@@ -64,9 +66,14 @@ def aep_weibull_mwh(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarra
 
 @dataclass(frozen=True)
 class Climate:
-    """The wind at hub height and the site's air density."""
+    """The wind at hub height and the site's air density.
 
-    kind: str                       # "weibull" | "series"
+    For a rose, ``scale_mps`` and ``shape`` describe the all-sector distribution by the
+    Weibull with its mean and mean cube (:func:`lcoe.physics.rose.equivalent_weibull`);
+    the energy is summed sector by sector.
+    """
+
+    kind: str                       # "weibull" | "series" | "rose"
     density_kgm3: float
     scale_mps: float
     shape: float
@@ -74,6 +81,14 @@ class Climate:
     speeds_mps: np.ndarray | None = None      # series: hub-height speeds
     densities_kgm3: np.ndarray | None = None  # series: hourly densities (or None: site density)
     warnings: tuple[str, ...] = field(default=())
+    rose: rs.Rose | None = None               # directions at hub height (a rose, or derived from the series)
+    long_term: mcp.LongTerm | None = None     # the long-term correction that made the series
+
+    def pdf(self, speed_mps) -> np.ndarray:
+        """Speed density at hub height: the rose's sector mixture, else the (fitted) Weibull. [1/(m/s)]"""
+        if self.kind == "rose":
+            return self.rose.pdf(speed_mps)
+        return resource.weibull_pdf(speed_mps, self.scale_mps, self.shape)
 
 
 @dataclass(frozen=True)
@@ -88,6 +103,8 @@ class Site:
     speed_sensitivity: float
     factors: np.ndarray       # speed-scale factors
     aep_ratios: np.ndarray    # AEP(f) / AEP(1)
+    sector_aep_mwh: np.ndarray | None = None   # gross AEP by sector (they sum to gross_aep_mwh)
+    wake: farm.FarmWake | None = None          # wake losses of the layout
 
     def gross_at_factor(self, factor) -> np.ndarray:
         """Gross AEP with every hub-height speed scaled by ``factor`` (interpolated table). [MWh/yr]"""
@@ -112,6 +129,13 @@ class Site:
         c = self.climate
         if c.kind == "weibull":
             return aep_weibull_mwh(self.site_curve, c.scale_mps * f, c.shape, self.turbines)
+        if c.kind == "rose":
+            r = c.rose
+            out = np.zeros(f.shape)
+            for fs, a, k in zip(r.frequency, r.scale_mps, r.shape):
+                if fs > 0:
+                    out = out + fs * aep_weibull_mwh(self.site_curve, a * f, k, self.turbines)
+            return out
         rho = c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3
         out = np.empty(f.shape)
         for i, fi in enumerate(f):
@@ -146,6 +170,11 @@ def climate_from(scn) -> Climate:
         rho = float(w.air_density_kgm3)
     else:
         rho = float(resource.air_density(w.elevation_m, w.mean_temperature_c))
+    if w.rose is not None:
+        rose = rs.rose_from_table(w.rose.frequency, w.rose.weibull_scale_mps, w.rose.weibull_shape).scaled(shear)
+        mean = rose.mean_speed_mps()
+        k, a = rs.equivalent_weibull(mean, rose.mean_cube())
+        return Climate("rose", rho, a, k, mean, rose=rose)
     if w.timeseries is None:
         k = float(w.weibull_shape)
         a_ref = w.weibull_scale_mps if w.weibull_scale_mps is not None else \
@@ -153,18 +182,32 @@ def climate_from(scn) -> Climate:
         a = a_ref * shear
         return Climate("weibull", rho, a, k, float(resource.weibull_mean(a, k)))
     series = resource.load_series(scn.resolve(w.timeseries), max_missing_share=w.max_missing_share)
-    v = series.speed_mps * shear
-    dens = None
-    if series.temperature_c is not None and w.air_density_kgm3 is None:
-        dens = resource.air_density(w.elevation_m, series.temperature_c)
-        rho = float(dens.mean())
     warns = list(series.warnings)
+    dens = None
+    lt = None
+    if w.long_term is not None:
+        site_path, ref_path = scn.resolve(w.timeseries), scn.resolve(w.long_term.reference)
+        ref = mcp.load_reference(ref_path, max_missing_share=w.max_missing_share)
+        lt = mcp.correct(series, ref, method=w.long_term.method, site_name=site_path.name,
+                         reference_name=ref_path.name, file=str(ref_path))
+        warns += list(ref.warnings) + list(lt.warnings)
+        v, directions = lt.speeds_mps * shear, lt.directions_deg
+        if series.temperature_c is not None and w.air_density_kgm3 is None:
+            warns.append("the site series' temperature_c is not used with a long-term correction: the air density "
+                         "comes from wind.elevation_m and wind.mean_temperature_c")
+    else:
+        v, directions = series.speed_mps * shear, series.direction_deg
+        if series.temperature_c is not None and w.air_density_kgm3 is None:
+            dens = resource.air_density(w.elevation_m, series.temperature_c)
+            rho = float(dens.mean())
+    rose = None if directions is None else rs.rose_from_series(v, directions, w.sectors or 12)
     try:
         k, a = resource.fit_weibull(v)
     except ScenarioError:
         k, a = float("nan"), float("nan")
         warns.append("too few positive speeds in the series to fit a Weibull distribution")
-    return Climate("series", rho, a, k, float(v.mean()), speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns))
+    return Climate("series", rho, a, k, float(v.mean()), speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns),
+                   rose=rose, long_term=lt)
 
 
 def curve_from(scn) -> PowerCurve:
@@ -184,7 +227,11 @@ def _site_key(scn) -> str:
     h.update(scn.wind.model_dump_json().encode())
     h.update(scn.turbine.model_dump_json().encode())
     h.update(str(scn.project.turbines).encode())
-    for rel in (scn.wind.timeseries, scn.turbine.power_curve):
+    h.update(b"" if scn.layout is None else scn.layout.model_dump_json().encode())
+    files = [scn.wind.timeseries, scn.turbine.power_curve,
+             None if scn.wind.long_term is None else scn.wind.long_term.reference,
+             None if scn.layout is None else scn.layout.positions]
+    for rel in files:
         if rel is not None:
             p = scn.resolve(rel)
             h.update(str(p.resolve()).encode())
@@ -231,6 +278,9 @@ def _build_site(scn) -> Site:
     if climate.kind == "weibull":
         ratios = aep_weibull_mwh(site_curve, climate.scale_mps * _FACTORS, climate.shape, n)
         factors = _FACTORS
+    elif climate.kind == "rose":
+        ratios = probe.aep_direct(_FACTORS)
+        factors = _FACTORS
     else:
         factors = np.round(np.arange(0.10, 2.50 + 1e-9, 0.01), 6)
         ratios = probe.aep_direct(factors)
@@ -242,7 +292,34 @@ def _build_site(scn) -> Site:
     else:
         ratios = np.ones_like(factors)
         sens = float("nan")
-    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios)
+    sector_aep, wake = _directions(scn, climate, curve, site_curve)
+    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios, sector_aep, wake)
+
+
+def _directions(scn, climate: Climate, curve: PowerCurve, site_curve: SiteCurve):
+    """Gross AEP by sector (None without directions) and the layout's wakes (None without a layout)."""
+    rose = climate.rose
+    if rose is None:
+        if scn.layout is not None:
+            w = scn.wind
+            if w.long_term is not None:
+                p = scn.resolve(w.long_term.reference)
+                raise ScenarioError("has no direction_deg column: the long-term series takes its directions from the "
+                                    "reference, and a layout needs wind directions", key="wind.long_term.reference",
+                                    value=p.name, file=str(p))
+            p = scn.resolve(w.timeseries)
+            raise ScenarioError("has no direction_deg column; a layout needs wind directions", key="wind.timeseries",
+                                value=p.name, file=str(p))
+        return None, None
+    n = scn.project.turbines
+    if rose.source == "series":
+        rho = climate.densities_kgm3 if climate.densities_kgm3 is not None else climate.density_kgm3
+        per = rs.sector_mean_power_kw(rose, sample_power_kw=curve.power_kw_at(rose.speeds_mps, rho))
+    else:
+        per = rs.sector_mean_power_kw(rose, weibull_mean_power_kw=lambda a, k: mean_power_weibull_kw(site_curve, a, k))
+    sector_aep = n * HOURS_PER_YEAR * per / 1000.0
+    wake = None if scn.layout is None else farm.wake_of(scn, rose, curve, site_curve, climate.density_kgm3)
+    return sector_aep, wake
 
 
 # --------------------------------------------------------------------------- net energy
@@ -250,6 +327,35 @@ def _build_site(scn) -> Site:
 def loss_factor(losses) -> float:
     """prod(1 - loss_k) over the loss categories, applied multiplicatively. [-]"""
     return losses.factor()
+
+
+def wake_loss_of(scn, site: Site | None = None) -> float | None:
+    """The wake loss computed from the scenario's layout, or None without a layout (``losses.wake`` applies). [-]"""
+    if scn.layout is None:
+        return None
+    site = site if site is not None else site_for(scn)
+    return site.wake.farm_loss
+
+
+def losses_used(scn, site: Site | None = None) -> dict:
+    """Each loss category's fraction as the net energy takes it: the typed values, the wake loss
+    computed from the layout where there is one. [-]"""
+    out = {k: float(getattr(scn.losses, k)) for k in type(scn.losses).model_fields}
+    wake = wake_loss_of(scn, site)
+    if wake is not None:
+        out["wake"] = wake
+    return out
+
+
+def speed_terms(scn, site: Site | None = None) -> list[tuple[str, float]]:
+    """The long-term speed uncertainty terms: ``[[uncertainty.speed]]`` and, with a long-term
+    correction, its own term (:func:`lcoe.physics.farm.long_term_term`). [(name, relative sd)]"""
+    out = [(x.name, float(x.sd)) for x in scn.uncertainty.speed]
+    if scn.wind.long_term is not None:
+        site = site if site is not None else site_for(scn)
+        sd, _, _ = farm.long_term_term(site.climate.long_term, scn.uncertainty.interannual_speed_sd)
+        out.append((farm.MCP_TERM, sd))
+    return out
 
 
 def component_downtime_fraction(components) -> float:
@@ -316,6 +422,12 @@ class EnergyResult:
     availability: np.ndarray       # t = 1..L
     energy_mwh: np.ndarray         # t = 1..L
     warnings: tuple[str, ...]
+    wake_loss: float = 0.0                  # the wake loss applied (computed from a layout, or losses.wake)
+    wake_from_layout: bool = False
+    wind_rose: dict | None = None           # the JSON blocks of directions, wakes and the long-term correction
+    wake: dict | None = None
+    long_term: dict | None = None
+    speed_terms: tuple = ()                 # (name, sd) of every long-term speed uncertainty term
 
     def case_factor(self, case: str) -> float:
         """P_case / P50 for a debt sizing case (p50, p90_1yr, p90_10yr, p99_1yr)."""
@@ -329,7 +441,7 @@ class EnergyResult:
         keys = ["air_density_kgm3", "hub_mean_speed_mps", "gross_aep_mwh", "net_aep_p50_mwh",
                 "net_aep_p90_1yr_mwh", "net_aep_p90_10yr_mwh", "net_aep_p99_1yr_mwh", "net_capacity_factor",
                 "speed_sensitivity", "sigma_1yr", "sigma_10yr", "weibull_scale_mps", "weibull_shape",
-                "loss_factor", "downtime_fraction"]
+                "loss_factor", "downtime_fraction", "wake_loss"]
         return {k: float(getattr(self, k)) for k in keys}
 
 
@@ -337,7 +449,8 @@ def energy_of(scn) -> EnergyResult:
     """Gross and net energy, the yearly profile and the P-values of a scenario."""
     site = site_for(scn)
     c = site.climate
-    lf = loss_factor(scn.losses)
+    used = losses_used(scn, site)
+    lf = math.prod(1.0 - x for x in used.values())
     d = component_downtime_fraction(scn.maintenance.component)
     o = scn.operations
     years = np.arange(1, scn.lifetime + 1)
@@ -348,7 +461,8 @@ def energy_of(scn) -> EnergyResult:
     p50 = gross * lf * o.availability_mature * (1.0 - d)
     u = scn.uncertainty
     s = site.speed_sensitivity if math.isfinite(site.speed_sensitivity) else 0.0
-    speed_sds = [x.sd for x in u.speed]
+    terms = speed_terms(scn, site)
+    speed_sds = [sd for _, sd in terms]
     energy_sds = [x.sd for x in u.energy]
     s1 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 1)
     s10 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 10)
@@ -365,4 +479,9 @@ def energy_of(scn) -> EnergyResult:
         net_aep_p50_mwh=p50, net_aep_p90_1yr_mwh=exceedance(p50, s1, Z_90),
         net_aep_p90_10yr_mwh=exceedance(p50, s10, Z_90), net_aep_p99_1yr_mwh=exceedance(p50, s1, Z_99),
         net_capacity_factor=cf, speed_sensitivity=site.speed_sensitivity, sigma_1yr=s1, sigma_10yr=s10,
-        availability=avail, energy_mwh=energy, warnings=tuple(warns))
+        availability=avail, energy_mwh=energy, warnings=tuple(warns), wake_loss=used["wake"],
+        wake_from_layout=site.wake is not None,
+        wind_rose=None if c.rose is None else farm.rose_report(c.rose, site.sector_aep_mwh, site.wake),
+        wake=None if site.wake is None else site.wake.report(gross),
+        long_term=None if c.long_term is None else farm.long_term_report(c.long_term, u.interannual_speed_sd),
+        speed_terms=tuple(terms))
