@@ -12,12 +12,11 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq
 
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-    cashflow,
-)
+from lcoe.finance import _kernels, cashflow  # _kernels: the compiled trial pass
 from lcoe.finance import metrics as mt
 from lcoe.finance.cashflow import Flows, Inputs, Sample, Schedule
+from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.keys import check_overrides
 from lcoe.physics import energy as en
 
 METRIC_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_npv",
@@ -92,9 +91,12 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     runs them row by row from :func:`lcoe.finance.cashflow.terms`. Returns TRIAL_KEYS plus
     ``capex_total`` and ``debt_amount``, one value per trial.
     """
+    overrides = check_overrides(scn, overrides) or None
     tm = cashflow.terms(scn, energy, overrides, sample)
     n, L = tm.inp.n, scn.lifetime
     r, infl, eq, rate_i = _metric_rates(scn, tm.inp)
+    if overrides:
+        refuse_unread(overrides, tm.inp.read, locked=True)
 
     def yearly(a, cols=L):
         a = np.asarray(a, float)
@@ -161,21 +163,41 @@ def evaluate(scn, *, overrides=None, sample: Sample | None = None, schedule: Sch
              energy: en.EnergyResult | None = None, lean: bool = False, irr_guess: dict | None = None
              ) -> tuple[Flows, dict, list[str]]:
     """Flows and metrics (without break-even) for a batch of rows (``lean``: see cashflow.evaluate)."""
+    overrides = check_overrides(scn, overrides) or None
     energy = energy if energy is not None else en.energy_of(scn)
     flows = cashflow.evaluate(scn, energy, overrides=overrides, sample=sample, schedule=schedule, lean=lean)
     m, w = batch_metrics(scn, flows, overrides, irr_guess)
+    if overrides:
+        rates = Inputs(scn, overrides)
+        _metric_rates(scn, rates)
+        refuse_unread(overrides, flows.read_keys | rates.read, locked=schedule is not None)
     return flows, m, flows.warnings + w
 
 
-def _equity_npv_at_price(scn, energy, price, row_overrides):
+def refuse_unread(overrides: dict, read: set, *, locked: bool) -> None:
+    """An override that no part of this run reads would change nothing: refuse it, never ignore it."""
+    for key in overrides:
+        if key in read:
+            continue
+        if key.startswith("finance.debt.") and locked:
+            why = "the debt is fixed at close here, so its terms change nothing; they apply only where it is sized"
+        elif key.startswith("project."):
+            why = "it changes the shape of the model (years or turbines): run one scenario per value"
+        else:
+            why = "this run does not use it, so a batch cannot vary it: run one scenario per value"
+        raise ScenarioError(f"cannot be varied here: {why}", key=key, has_value=False)
+
+
+def _equity_npv_at_price(scn, energy, price, row_overrides, sample=None):
     over = dict(row_overrides)
     over[PRICE_KEY] = np.array([price])
-    flows = cashflow.evaluate(scn, energy, overrides=over, lean=True)
+    flows = cashflow.evaluate(scn, energy, overrides=over, sample=sample, lean=True)
     eq = Inputs(scn, over)("finance.equity_target_return", scn.equity_target_return)
     return float(mt.npv(eq, flows.equity_cash_flow)[0])
 
 
-def breakeven_price(scn, energy=None, row_overrides: dict | None = None) -> tuple[float, str | None]:
+def breakeven_price(scn, energy=None, row_overrides: dict | None = None, *, sample: Sample | None = None
+                    ) -> tuple[float, str | None]:
     """Year-0 PPA price at which equity NPV is zero at the equity target return (debt sized afresh).
 
     Brent's method (scipy.optimize.brentq) on a bracket found by doubling from the
@@ -186,7 +208,7 @@ def breakeven_price(scn, energy=None, row_overrides: dict | None = None) -> tupl
     row.pop(PRICE_KEY, None)
     # the merchant price stays as it is, even where the file leaves it to follow the PPA price
     row.setdefault("revenue.merchant_price_per_mwh", np.array([scn.merchant_price_per_mwh]))
-    g = lambda p: _equity_npv_at_price(scn, energy, p, row)  # noqa: E731
+    g = lambda p: _equity_npv_at_price(scn, energy, p, row, sample)  # noqa: E731
     lo, hi = 0.0, max(10.0, scn.revenue.ppa_price_per_mwh)
     f_lo = g(lo)
     if f_lo >= 0:

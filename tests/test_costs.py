@@ -49,7 +49,8 @@ def test_opex_formula_by_hand():
     years = np.array([1, 2])
     e = np.array([1000.0, 2000.0])
     rev = np.array([50_000.0, 100_000.0])
-    got = costs.opex(30.0, 5.0, 100.0, 2.0, e, 500.0, np.array([0.0, 1000.0]), 0.1, years, 0.04, rev)
+    fixed = costs.fixed_om(30.0, 5.0, 100.0, 500.0, np.array([0.0, 1000.0]))
+    got = costs.opex(fixed, 2.0, e, costs.escalation_index(0.1, years), 0.04, rev)
     # year 1: (3500 + 2000 + 500 + 0) * 1.1 + 2000 = 8600; year 2: (3500 + 4000 + 500 + 1000) * 1.21 + 4000 = 14890
     assert_allclose(got, [8600.0, 14890.0], rtol=1e-12)
 

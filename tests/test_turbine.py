@@ -111,7 +111,6 @@ def test_stall_curve_at_site_density_scales_the_power():
     v = np.linspace(0.0, 24.0, 97)
     p_curve = np.interp(v, curve.speed_mps, curve.power_kw, left=0, right=0)
     assert_allclose(curve.at_density(rho).power_kw(v), np.minimum(p_curve * rho / 1.225, 2000.0), atol=1e-9)
-    assert_allclose(tb.normalised_power_stall(p_curve * rho / 1.225, rho, 1.225), p_curve, atol=1e-9)
 
 
 def test_table_is_zero_outside_its_range():

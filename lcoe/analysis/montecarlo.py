@@ -32,11 +32,9 @@ from scipy import stats
 from scipy.special import ndtr, ndtri
 
 from lcoe import engine as model
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+from lcoe.finance import _kernels  # compiled loops; tests set it to None to run the array formulas
 from lcoe.finance.cashflow import Sample
-from lcoe.inputs import scenario as sc
+from lcoe.inputs import keys
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.keys import numeric_value
 
@@ -76,38 +74,8 @@ def correlation_matrix(scn) -> np.ndarray:
 
 
 def _bounds(scn, key):
-    """(low, high, open_low, open_high) of a key's valid range, from the scenario model's metadata."""
-    parts = key.split(".")
-    model_cls = sc.Scenario
-    node_cls = None
-    for i, part in enumerate(parts):
-        fields = getattr(model_cls, "model_fields", {})
-        if part in fields:
-            info = fields[part]
-            inner = sc._inner_model(info.annotation)
-            if i == len(parts) - 1:
-                node_cls = info
-                break
-            model_cls = inner
-        elif model_cls is not None:
-            continue  # a list item's name
-    lo, hi = -math.inf, math.inf
-    if node_cls is None:
-        return lo, hi
-    metas = list(node_cls.metadata)
-    for arg in getattr(node_cls.annotation, "__args__", ()) or ():
-        metas += list(getattr(arg, "__metadata__", ()) or ())
-        for meta in getattr(arg, "__metadata__", ()) or ():
-            metas += list(getattr(meta, "metadata", []) or [])
-    for meta in metas:
-        for attr, side in (("ge", "lo"), ("gt", "lo"), ("le", "hi"), ("lt", "hi")):
-            v = getattr(meta, attr, None)
-            if v is not None:
-                if side == "lo":
-                    lo = max(lo, v + (1e-12 if attr == "gt" else 0.0))
-                else:
-                    hi = min(hi, v - (1e-12 if attr == "lt" else 0.0))
-    return lo, hi
+    """The closed range a drawn value is clipped to (the schema's, excluded ends moved inside)."""
+    return keys.key_bounds(key)
 
 
 def draw_inputs(scn, n: int, rng: np.random.Generator) -> dict[str, np.ndarray]:

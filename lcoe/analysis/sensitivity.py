@@ -27,7 +27,8 @@ from scipy.optimize import brentq
 
 from lcoe import engine as model
 from lcoe.analysis.montecarlo import quantile
-from lcoe.finance.cashflow import SPEED_KEYS
+from lcoe.finance.cashflow import SPEED_KEYS, Sample
+from lcoe.inputs import keys
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
 from lcoe.physics import energy as en
@@ -62,18 +63,6 @@ SWING = 0.10             # +-10 % where an input has no distribution
 
 # --------------------------------------------------------------------------- keys
 
-def _owner(scn, key: str):
-    """The model instance holding a dotted key and the field name (list items by name)."""
-    parts = key.split(".")
-    node: Any = scn
-    for part in parts[:-1]:
-        if isinstance(node, list):
-            node = next(x for x in node if getattr(x, "name", None) == part)
-        else:
-            node = getattr(node, part)
-    return node, parts[-1]
-
-
 def base_value(scn, key: str) -> float:
     """The scenario's value of a numeric dotted key; ScenarioError for anything else."""
     if not isinstance(key, str) or not key:
@@ -87,36 +76,12 @@ def base_value(scn, key: str) -> float:
 
 def is_integer_key(scn, key: str) -> bool:
     """True where the scenario field takes whole numbers (years, counts)."""
-    owner, name = _owner(scn, key)
-    ann = str(type(owner).model_fields[name].annotation)
-    return "int" in ann and "float" not in ann
+    return keys.is_integer_key(key)
 
 
 def key_bounds(scn, key: str) -> tuple[float, float]:
-    """The valid range of a key from the scenario model's field constraints (open ends nudged in)."""
-    owner, name = _owner(scn, key)
-    info = type(owner).model_fields[name]
-    metas = list(info.metadata)
-    for arg in getattr(info.annotation, "__args__", ()) or ():
-        for meta in getattr(arg, "__metadata__", ()) or ():
-            metas.append(meta)
-            metas.extend(getattr(meta, "metadata", []) or [])
-    lo, hi = -math.inf, math.inf
-    for meta in metas:
-        for attr in ("ge", "gt", "le", "lt"):
-            v = getattr(meta, attr, None)
-            if v is None:
-                continue
-            nudge = 1e-9 * max(1.0, abs(v))
-            if attr == "ge":
-                lo = max(lo, v)
-            elif attr == "gt":
-                lo = max(lo, v + nudge)
-            elif attr == "le":
-                hi = min(hi, v)
-            else:
-                hi = min(hi, v - nudge)
-    return lo, hi
+    """The valid range of a key (the schema's constraints, excluded ends moved inside)."""
+    return keys.key_bounds(key)
 
 
 def _typed(scn, key: str, value: float, integer: bool):
@@ -299,19 +264,17 @@ def default_inputs(scn) -> list[str]:
 def _energy_row(scn, case, metric: str) -> dict:
     """Net energy at its 10-year P90 and P10 (P50 (1 -+ z_90 sigma_10yr)), everything else as in the scenario.
 
-    The factor f on every year's net energy enters through the loss product
-    (1 - other') = f (1 - other), the one net-energy multiplier the override path
-    has; the debt is re-sized per row as for every other input.
+    The factor f multiplies every year's net energy (the engine's energy factor, as a
+    Monte Carlo trial's); the debt is re-sized per row as for every other input.
     """
     e = case.energy
     p50, sig = e.net_aep_p50_mwh, e.sigma_10yr
     f_lo, f_hi = max(0.0, 1.0 - Z_90 * sig), 1.0 + Z_90 * sig
-    other = scn.losses.other
-    o = np.array([1.0 - f_lo * (1.0 - other), 1.0 - f_hi * (1.0 - other)])
     if metric == BREAKEVEN:
-        at = [_num(model.breakeven_price(scn, e, {"losses.other": np.array([x])})[0]) for x in o]
+        at = [_num(model.breakeven_price(scn, e, sample=Sample(energy_factor=np.array([[f]])))[0])
+              for f in (f_lo, f_hi)]
     else:
-        _, m, _ = model.evaluate(scn, overrides={"losses.other": o}, energy=e)
+        _, m, _ = model.evaluate(scn, sample=Sample(energy_factor=np.array([[f_lo], [f_hi]])), energy=e)
         at = [_num(m[metric][0]), _num(m[metric][1])]
     return {"key": ENERGY_INPUT, "base_value": p50, "low_value": p50 * f_lo, "high_value": p50 * f_hi,
             "basis": "energy P90/P10 (10 yr)", "at": at}

@@ -7,7 +7,7 @@ installed package carries the same files as ``lcoe.demo_files.assumptions`` and
 
 from __future__ import annotations
 
-from importlib import resources
+import importlib.util
 from pathlib import Path
 
 _CHECKOUT = Path(__file__).resolve().parents[2]
@@ -15,11 +15,12 @@ _CHECKOUT = Path(__file__).resolve().parents[2]
 
 def _folder(package: str, name: str) -> Path:
     try:
-        found = Path(str(resources.files(package)))
-        if found.is_dir():
-            return found
+        spec = importlib.util.find_spec(package)
     except ModuleNotFoundError:
-        pass
+        spec = None
+    for folder in (spec.submodule_search_locations or []) if spec is not None else []:
+        if Path(folder).is_dir():
+            return Path(folder)
     return _CHECKOUT / name
 
 

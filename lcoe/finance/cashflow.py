@@ -14,12 +14,12 @@ import numpy as np
 from lcoe.finance import costs
 from lcoe.finance.debt import Schedule, size_debt
 from lcoe.finance.tax import depreciation_shares, tax_with_carryforward
-from lcoe.inputs.schema import LOSS_CATEGORIES
+from lcoe.inputs.schema import DERIVED_DEFAULTS, LOSS_CATEGORIES
 from lcoe.physics import energy as en
 from lcoe.physics import wind as resource
-from lcoe.physics.wind import Z_90, Z_99
 
 SPEED_KEYS = ("wind.mean_speed_mps", "wind.weibull_scale_mps")
+
 
 @dataclass
 class Flows:
@@ -52,6 +52,7 @@ class Flows:
     case_factors: dict = field(default_factory=dict)  # name -> (n, 1) P_case / P50
     schedule: Schedule | None = None
     warnings: list = field(default_factory=list)
+    read_keys: set = field(default_factory=set)   # the override keys the engine read for these lines
 
 
 class Inputs:
@@ -59,6 +60,7 @@ class Inputs:
 
     def __init__(self, scn, overrides: dict | None = None):
         self.scn = scn
+        self.read: set[str] = set()   # the keys the engine asked for (an override nobody reads is refused)
         self.over = {}
         n = 1
         for k, v in (overrides or {}).items():
@@ -67,26 +69,26 @@ class Inputs:
             n = max(n, a.shape[0])
         self.n = n
 
-    # keys whose omitted value follows another key (SCENARIO.md defaults): an override of
+    # keys whose omitted value follows another key (schema.DERIVED_DEFAULTS): an override of
     # the source key moves them too, as it would in the file
-    FOLLOWS = {
-        "maintenance.escalation": ("finance.inflation", lambda s: s.maintenance.escalation is None),
-        "finance.equity_target_return": ("finance.discount_rate", lambda s: s.finance.equity_target_return is None),
-        "revenue.merchant_price_per_mwh": ("revenue.ppa_price_per_mwh",
-                                           lambda s: s.revenue.merchant_price_per_mwh is None),
-        "operations.availability_first_year": ("operations.availability_mature",
-                                               lambda s: s.operations.availability_first_year is None),
-    }
+    FOLLOWS = DERIVED_DEFAULTS
 
     def __call__(self, key: str, default):
+        self.read.add(key)
         if key in self.over:
             return self.over[key]
-        follow = self.FOLLOWS.get(key)
-        if follow is not None and follow[0] in self.over and follow[1](self.scn):
-            return self.over[follow[0]]
+        source = self.FOLLOWS.get(key)
+        if source is not None and source in self.over and self._omitted(key):
+            self.read.add(source)
+            return self.over[source]
         return default
 
+    def _omitted(self, key: str) -> bool:
+        section, name = key.split(".")
+        return getattr(getattr(self.scn, section), name) is None
+
     def has(self, key: str) -> bool:
+        self.read.add(key)
         return key in self.over
 
 
@@ -117,6 +119,7 @@ def _gross(scn, inp: Inputs, site: en.Site):
     """Gross AEP per row (n, 1), the hub-speed factor of overridden speed keys, the speed
     sensitivity per row, and whether the factor must still be applied through the table."""
     others = [k for k in inp.over if (k.startswith("wind.") or k.startswith("turbine.")) and k not in SPEED_KEYS]
+    inp.read.update(others)     # read by integrating the changed curve or climate
     if not others:
         factor = _speed_factor(scn, inp, site)
         if np.ndim(factor) == 0:
@@ -210,13 +213,10 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
             speed_gross, speed_ratio = gross, site.ratio_at_factor(sample.speed_factor)
 
     # ---- energy (t = 1..L)
-    lf = 1.0
-    for name in LOSS_CATEGORIES:
-        lf = lf * (1.0 - inp(f"losses.{name}", getattr(scn.losses, name)))
+    lf = en.loss_factor([inp(f"losses.{name}", getattr(scn.losses, name)) for name in LOSS_CATEGORIES])
     o = scn.operations
     mature = inp("operations.availability_mature", o.availability_mature)
-    first = inp("operations.availability_first_year",
-                mature if o.availability_first_year is None else o.availability_first_year)
+    first = inp("operations.availability_first_year", scn.availability_first_year)
     avail = en.availability_profile(years, first, mature, inp("operations.ageing_starts_year", o.ageing_starts_year),
                                     inp("operations.availability_ageing_per_year", o.availability_ageing_per_year))
     comps = scn.maintenance.component
@@ -224,24 +224,18 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
              for c in comps]
     repl = [inp(f"maintenance.component.{c.name}.replacement_cost", c.replacement_cost) for c in comps]
     down = [inp(f"maintenance.component.{c.name}.downtime_days", c.downtime_days) for c in comps]
-    if sample is not None and sample.downtime is not None:
-        downtime = sample.downtime
-    else:
-        downtime = sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0
+    expected_downtime = en.downtime_fraction(rates, down)
+    downtime = sample.downtime if sample is not None and sample.downtime is not None else expected_downtime
     degr = en.degradation_factor(years, inp("operations.degradation_per_year", o.degradation_per_year))
-    p50 = gross * lf * mature * (1.0 - (sum(r * d / 365.0 for r, d in zip(rates, down)) if comps else 0.0))
+    p50 = en.p50_energy(gross, lf, mature, expected_downtime)
 
     # ---- P-case factors (for debt sizing): sigma from the sensitivity and the uncertainty terms
     u = scn.uncertainty
-    iav = inp("uncertainty.interannual_speed_sd", u.interannual_speed_sd)
-    sp2 = sum(inp(f"uncertainty.speed.{x.name}.sd", x.sd) ** 2 for x in u.speed) if u.speed else 0.0
-    en2 = sum(inp(f"uncertainty.energy.{x.name}.sd", x.sd) ** 2 for x in u.energy) if u.energy else 0.0
-    s = np.where(np.isfinite(sens), sens, 0.0)
-    sig1 = np.sqrt((s * iav) ** 2 + s ** 2 * sp2 + en2)
-    sig10 = np.sqrt((s * iav) ** 2 / 10.0 + s ** 2 * sp2 + en2)
-    factors = {"p50": np.ones((1, 1)) if np.ndim(sig1) == 0 else np.ones_like(sig1),
-               "p90_1yr": np.maximum(0.0, 1.0 - Z_90 * sig1), "p90_10yr": np.maximum(0.0, 1.0 - Z_90 * sig10),
-               "p99_1yr": np.maximum(0.0, 1.0 - Z_99 * sig1)}
+    sig1, sig10 = en.sigmas(sens, inp("uncertainty.interannual_speed_sd", u.interannual_speed_sd),
+                            [inp(f"uncertainty.speed.{x.name}.sd", x.sd) for x in u.speed],
+                            [inp(f"uncertainty.energy.{x.name}.sd", x.sd) for x in u.energy])
+    factors = {k: np.broadcast_to(np.asarray(v, float).reshape(-1, 1), (np.size(sig1), 1))
+               for k, v in en.case_factors(sig1, sig10).items()}
 
     # ---- prices and revenue
     r = scn.revenue
@@ -290,7 +284,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     return Terms(inp=inp, years=years, gross=gross, speed_ratio=speed_ratio,
                  speed_gross=speed_gross, loss_factor=lf, availability=avail, downtime=downtime, degradation=degr,
                  energy_factor=None if sample is None else sample.energy_factor, p50=p50, factors=factors,
-                 price=price, credit=credit, capex=capex, fixed_real=(fixed + insurance) * plant_kw + fail + overhaul,
+                 price=price, credit=credit, capex=capex, fixed_real=costs.fixed_om(fixed, insurance, plant_kw, fail, overhaul),
                  variable=inp("maintenance.variable_per_mwh", m.variable_per_mwh),
                  lease=inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue),
                  esc_index=esc_index, decom_t=np.where(years == L, decom, 0.0), shares=shares,
@@ -313,19 +307,14 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
     energy_line = _line(inp.n, L, 0.0)
     energy_t = energy_line[:, 1:]
-    if tm.energy_factor is not None:
-        np.multiply(tm.gross_t() * tm.loss_factor * tm.availability * (1.0 - tm.downtime) * tm.degradation,
-                    tm.energy_factor, out=energy_t)
-    else:
-        np.multiply(tm.gross_t() * tm.loss_factor * tm.availability * (1.0 - tm.downtime), tm.degradation,
-                    out=energy_t)
+    en.yearly_energy(tm.gross_t(), tm.loss_factor, tm.availability, tm.downtime, tm.degradation,
+                     tm.energy_factor, out=energy_t)
     price, credit, decom_t, capex, tax_rate = tm.price, tm.credit, tm.decom_t, tm.capex, tm.tax_rate
     dep = capex * tm.shares
 
     def operating(e, out=None):
         rev = e * (price + credit)
-        om = np.add((tm.fixed_real + tm.variable * e) * tm.esc_index, tm.lease * rev, out=out)
-        return rev, om
+        return rev, costs.opex(tm.fixed_real, tm.variable, e, tm.esc_index, tm.lease, rev, out=out)
 
     opex_line = _line(inp.n, L, 0.0)
     revenue, om = operating(energy_t, out=opex_line[:, 1:])
@@ -391,7 +380,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(tm.gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(tm.p50, (inp.n, 1)),
         case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in tm.factors.items()},
-        schedule=sched, warnings=warnings)
+        schedule=sched, warnings=warnings, read_keys=set(inp.read))
 
 
 def _line(rows: int, years: int, t0) -> np.ndarray:

@@ -35,16 +35,19 @@ def overhaul_costs(years_of_work, costs_per_turbine, turbines, years):
     return out
 
 
-def opex(fixed_per_kw_year, insurance_per_kw_year, plant_kw, variable_per_mwh, energy_mwh,
-         failure_cost, overhaul_cost, escalation, years, lease_share, revenue):
+def fixed_om(fixed_per_kw_year, insurance_per_kw_year, plant_kw, failure_cost, overhaul_cost):
+    """The year-0 O&M that does not follow energy: (fixed + insurance) * kW + failures + overhauls."""
+    return (fixed_per_kw_year + insurance_per_kw_year) * plant_kw + failure_cost + overhaul_cost
+
+
+def opex(fixed_om_real, variable_per_mwh, energy_mwh, escalation_idx, lease_share, revenue, out=None):
     """O&M of each year, nominal.
 
-    O&M_t = [(fixed + insurance) * kW + variable * E_t + failures_t + overhauls_t] * (1 + esc)^t
-    + lease_share * Revenue_t.
+    O&M_t = [(fixed + insurance) * kW + failures_t + overhauls_t + variable * E_t] * (1 + esc)^t
+    + lease_share * Revenue_t, with the first three terms given as ``fixed_om_real``
+    (:func:`fixed_om`) and (1 + esc)^t as ``escalation_idx`` (:func:`escalation_index`).
     """
-    real = (fixed_per_kw_year + insurance_per_kw_year) * plant_kw + variable_per_mwh * energy_mwh \
-        + failure_cost + overhaul_cost
-    return real * escalation_index(escalation, years) + lease_share * revenue
+    return np.add((fixed_om_real + variable_per_mwh * energy_mwh) * escalation_idx, lease_share * revenue, out=out)
 
 
 def decommissioning_net(decommissioning_per_kw, salvage_per_kw, plant_kw, escalation, lifetime_years):

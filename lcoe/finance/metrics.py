@@ -8,11 +8,9 @@ from __future__ import annotations
 
 import numpy as np
 
-IRR_LOW, IRR_HIGH = -0.99, 10.0
+from lcoe.finance import _kernels  # compiled loops; tests set it to None to run the array formulas
 
-from lcoe.finance import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+IRR_LOW, IRR_HIGH = -0.99, 10.0
 
 
 def discount_factors(rate, periods: int):
@@ -147,18 +145,6 @@ def _bisect(c, iters=200):
         hi = np.where(left, hi, mid)
     x = 0.5 * (lo + hi)
     return np.where(valid, 1.0 / x - 1.0, np.nan)
-
-
-def capital_recovery_factor(rate, years):
-    """CRF = i (1 + i)^n / ((1 + i)^n - 1). [1/yr]
-
-    References
-    ----------
-    Engineering-economics interest tables (e.g. ASHRAE Pocket Guide).
-    """
-    i = np.asarray(rate, float)
-    g = (1.0 + i) ** years
-    return np.where(i == 0, 1.0 / years, i * g / np.where(i == 0, 1.0, g - 1.0))
 
 
 def real_rate(nominal, inflation):

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from lcoe.finance import _kernels  # compiled row loops; tests set _kernels = None to run the array formulas
+from lcoe.finance import _kernels  # compiled loops; tests set it to None to run the array formulas
 
 # Modified ACRS, general depreciation system, half-year convention: US IRS Publication 946, Table A-1.
 MACRS = {

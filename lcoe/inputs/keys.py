@@ -5,12 +5,14 @@ reading and setting them in raw scenario data, their effective values, and sugge
 from __future__ import annotations
 
 import difflib
+import math
 from typing import Any
 
+import numpy as np
 from pydantic import BaseModel
 
 from lcoe.inputs.errors import ScenarioError
-from lcoe.inputs.schema import ScenarioFields
+from lcoe.inputs.schema import DERIVED_DEFAULTS, ScenarioFields
 
 
 def suggest(word: str, known: list[str]) -> list[str]:
@@ -146,16 +148,12 @@ def numeric_value(scn: ScenarioFields, key: str) -> float:
         elif isinstance(node, BaseModel) and part in type(node).model_fields:
             node = getattr(node, part)
             if node is None:
-                derived = {"operations.availability_first_year": scn.availability_first_year,
-                           "maintenance.escalation": scn.escalation,
-                           "revenue.ppa_term_years": scn.ppa_term_years,
-                           "revenue.merchant_price_per_mwh": scn.merchant_price_per_mwh,
-                           "finance.equity_target_return": scn.equity_target_return,
-                           "wind.shear_exponent": scn.wind.alpha}
+                if key in DERIVED_DEFAULTS:
+                    return float(scn.derived(key))
                 if key == "layout.wake_decay_constant" and scn.layout is not None:
                     return float(scn.layout.decay_constant)
-                if key in derived:
-                    return float(derived[key])
+                if key == "wind.shear_exponent":
+                    return float(scn.wind.alpha)
                 raise ScenarioError("is not set in this scenario", key=key, has_value=False)
         else:
             model = node if isinstance(node, BaseModel) else None
@@ -188,4 +186,130 @@ def numeric_keys(scn: ScenarioFields) -> list[str]:
             elif isinstance(value, (int, float)) and not isinstance(value, bool):
                 out.append(key)
     visit(scn, "")
+    return out
+
+
+# --------------------------------------------------------------------------- a key's type and range
+
+FILE_SETTINGS = ("montecarlo", "variants", "schema_version")
+
+
+def key_field(key: str):
+    """The pydantic field of a dotted key, walking the schema (list items are skipped by name);
+    None when the key names no field."""
+    model: Any = ScenarioFields
+    parts = key.split(".")
+    after_list = False
+    info = None
+    for i, part in enumerate(parts):
+        fields = getattr(model, "model_fields", None) or {}
+        if part in fields:
+            info = fields[part]
+            if i == len(parts) - 1:
+                return info
+            after_list = "list[" in str(info.annotation).replace("typing.List[", "list[")
+            model = _inner_model(info.annotation)
+        elif after_list:
+            after_list = False        # an item's name
+        else:
+            return None
+    return None
+
+
+def _metadata(info) -> list:
+    metas = list(info.metadata)
+    for arg in getattr(info.annotation, "__args__", ()) or ():
+        for meta in getattr(arg, "__metadata__", ()) or ():
+            metas.append(meta)
+            metas.extend(getattr(meta, "metadata", []) or [])
+    return metas
+
+
+def key_range(key: str) -> tuple[float, float, bool, bool]:
+    """(low, high, low is excluded, high is excluded) of a key, from the schema's constraints."""
+    info = key_field(key)
+    lo, hi, lo_open, hi_open = -math.inf, math.inf, False, False
+    if info is None:
+        return lo, hi, lo_open, hi_open
+    for meta in _metadata(info):
+        for attr in ("ge", "gt", "le", "lt"):
+            v = getattr(meta, attr, None)
+            if v is None:
+                continue
+            if attr in ("ge", "gt") and (v > lo or (v == lo and attr == "gt")):
+                lo, lo_open = v, attr == "gt"
+            elif attr in ("le", "lt") and (v < hi or (v == hi and attr == "lt")):
+                hi, hi_open = v, attr == "lt"
+    return lo, hi, lo_open, hi_open
+
+
+OPEN_END_NUDGE = 1e-9   # relative step inside an excluded end (0 < x: the smallest value tried is 1e-9)
+
+
+def key_bounds(key: str) -> tuple[float, float]:
+    """The closed range of values a key may take, an excluded end moved inside by OPEN_END_NUDGE."""
+    lo, hi, lo_open, hi_open = key_range(key)
+    if lo_open:
+        lo = lo + OPEN_END_NUDGE * max(1.0, abs(lo))
+    if hi_open:
+        hi = hi - OPEN_END_NUDGE * max(1.0, abs(hi))
+    return lo, hi
+
+
+def is_integer_key(key: str) -> bool:
+    """True where the schema field takes whole numbers (years, counts)."""
+    info = key_field(key)
+    if info is None:
+        return False
+    ann = str(info.annotation)
+    return "int" in ann and "float" not in ann
+
+
+def _range_text(lo, hi, lo_open, hi_open) -> str:
+    if math.isfinite(lo) and math.isfinite(hi):
+        return f"must be {'>' if lo_open else '>='} {lo:g} and {'<' if hi_open else '<='} {hi:g}"
+    if math.isfinite(lo):
+        return f"must be {'>' if lo_open else '>='} {lo:g}"
+    return f"must be {'<' if hi_open else '<='} {hi:g}"
+
+
+def check_overrides(scn: ScenarioFields, overrides: dict | None, *, label: str = "override") -> dict:
+    """Batch overrides (dotted key -> one value or one value per row) checked by the file's rules.
+
+    An unknown key is refused with the "did you mean" suggestion; a setting of the file
+    (``montecarlo.*``, ``variants``) is not a model input; every value must be a finite
+    number inside the key's range, a whole number where the key takes one. A refused value
+    names the key, the value and its row. Returns the overrides as float arrays.
+    """
+    out = {}
+    for key, values in (overrides or {}).items():
+        if not isinstance(key, str) or not key or key.split(".")[0] in FILE_SETTINGS:
+            raise ScenarioError("is not a model input; choose a key such as 'capex.turbine_per_kw'",
+                                key=f"{label} key", value=key)
+        numeric_value(scn, key)          # unknown keys, items and non-numeric fields raise here
+        try:
+            a = np.asarray(values, dtype=float)
+        except (TypeError, ValueError):
+            raise ScenarioError("must be numbers", key=key, value=values) from None
+        flat = a.reshape(-1)
+        rows = flat.size
+
+        def refuse(i, why):
+            where = f"row {i + 1} of {rows}: " if rows > 1 else ""
+            raise ScenarioError(where + why, key=key, value=float(flat[i]))
+
+        bad = np.flatnonzero(~np.isfinite(flat))
+        if bad.size:
+            refuse(int(bad[0]), "must be a finite number")
+        lo, hi, lo_open, hi_open = key_range(key)
+        below = (flat <= lo) if lo_open else (flat < lo)
+        above = (flat >= hi) if hi_open else (flat > hi)
+        bad = np.flatnonzero(below | above)
+        if bad.size:
+            refuse(int(bad[0]), _range_text(lo, hi, lo_open, hi_open))
+        if is_integer_key(key):
+            bad = np.flatnonzero(flat != np.round(flat))
+            if bad.size:
+                refuse(int(bad[0]), "must be a whole number")
+        out[key] = a
     return out

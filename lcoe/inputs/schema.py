@@ -201,12 +201,6 @@ class Losses(_Model):
     curtailment: LossFrac = 0.0
     other: LossFrac = 0.0
 
-    def factor(self) -> float:
-        out = 1.0
-        for name in LOSS_CATEGORIES:
-            out *= 1.0 - getattr(self, name)
-        return out
-
 
 LOSS_CATEGORIES = tuple(Losses.model_fields)
 
@@ -357,6 +351,17 @@ class _Cross(ValueError):
         super().__init__(message)
 
 
+# Keys a file may omit whose value then follows another key (SCENARIO.md): the one table of
+# derived defaults. An override of the source key moves the follower too, as it would in the file.
+DERIVED_DEFAULTS = {
+    "operations.availability_first_year": "operations.availability_mature",
+    "maintenance.escalation": "finance.inflation",
+    "revenue.ppa_term_years": "project.lifetime_years",
+    "revenue.merchant_price_per_mwh": "revenue.ppa_price_per_mwh",
+    "finance.equity_target_return": "finance.discount_rate",
+}
+
+
 class ScenarioFields(_Model):
     """The fields of a scenario and the conventions derived from them (:class:`lcoe.inputs.scenario.Scenario` adds its file)."""
 
@@ -380,30 +385,36 @@ class ScenarioFields(_Model):
     def lifetime(self) -> int:
         return self.project.lifetime_years
 
+    def derived(self, key: str) -> float:
+        """The value of a key that the file may omit: its own when given, else the key it
+        follows (:data:`DERIVED_DEFAULTS`)."""
+        section, name = key.split(".")
+        own = getattr(getattr(self, section), name)
+        if own is not None:
+            return own
+        source = DERIVED_DEFAULTS[key]
+        section, name = source.split(".")
+        return getattr(getattr(self, section), name)
+
     @property
     def availability_first_year(self) -> float:
-        o = self.operations
-        return o.availability_mature if o.availability_first_year is None else o.availability_first_year
+        return self.derived("operations.availability_first_year")
 
     @property
     def escalation(self) -> float:
-        m = self.maintenance
-        return self.finance.inflation if m.escalation is None else m.escalation
+        return self.derived("maintenance.escalation")
 
     @property
     def ppa_term_years(self) -> int:
-        r = self.revenue
-        return self.lifetime if r.ppa_term_years is None else r.ppa_term_years
+        return self.derived("revenue.ppa_term_years")
 
     @property
     def merchant_price_per_mwh(self) -> float:
-        r = self.revenue
-        return r.ppa_price_per_mwh if r.merchant_price_per_mwh is None else r.merchant_price_per_mwh
+        return self.derived("revenue.merchant_price_per_mwh")
 
     @property
     def equity_target_return(self) -> float:
-        f = self.finance
-        return f.discount_rate if f.equity_target_return is None else f.equity_target_return
+        return self.derived("finance.equity_target_return")
 
     @property
     def plant_kw(self) -> float:

@@ -9,9 +9,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lcoe.inputs.errors import ScenarioError
-from lcoe.physics import (
-    _kernels,  # compiled row loops; tests set _kernels = None to run the array formulas they are held to
-)
+from lcoe.inputs.schema import LOSS_CATEGORIES
+from lcoe.physics import _kernels  # compiled loops; tests set it to None to run the array formulas
 from lcoe.physics import farm, mcp
 from lcoe.physics import rose as rs
 from lcoe.physics import wind as resource
@@ -325,8 +324,20 @@ def _directions(scn, climate: Climate, curve: PowerCurve, site_curve: SiteCurve)
 # --------------------------------------------------------------------------- net energy
 
 def loss_factor(losses) -> float:
-    """prod(1 - loss_k) over the loss categories, applied multiplicatively. [-]"""
-    return losses.factor()
+    """prod(1 - loss_k) over the loss fractions, applied multiplicatively, in the order given. [-]
+
+    ``losses``: the fractions (floats or per-row arrays), in the order of
+    :data:`lcoe.inputs.schema.LOSS_CATEGORIES`.
+    """
+    out = 1.0
+    for loss in losses:
+        out = out * (1.0 - loss)
+    return out
+
+
+def downtime_fraction(rates, days_per_event) -> float:
+    """Expected downtime D = sum(rate * downtime_days / 365) over the components. [-]"""
+    return sum(r * d / 365.0 for r, d in zip(rates, days_per_event)) if len(rates) else 0.0
 
 
 def wake_loss_of(scn, site: Site | None = None) -> float | None:
@@ -359,8 +370,23 @@ def speed_terms(scn, site: Site | None = None) -> list[tuple[str, float]]:
 
 
 def component_downtime_fraction(components) -> float:
-    """Expected downtime D = sum(rate * downtime_days / 365). [-]"""
-    return float(sum(c.failure_rate_per_turbine_year * c.downtime_days / 365.0 for c in components))
+    """D of the scenario's component table (see :func:`downtime_fraction`). [-]"""
+    return float(downtime_fraction([c.failure_rate_per_turbine_year for c in components],
+                                   [c.downtime_days for c in components]))
+
+
+def p50_energy(gross_mwh, loss_factor, availability_mature, downtime):
+    """P50 net AEP = gross * prod(1 - loss) * availability_mature * (1 - D). [MWh/yr]"""
+    return gross_mwh * loss_factor * availability_mature * (1.0 - downtime)
+
+
+def yearly_energy(gross_mwh, loss_factor, availability, downtime, degradation, factor=None, out=None):
+    """Net energy of each year, E_t = gross * prod(1 - loss) * avail_t * (1 - D) * degradation_t
+    (times a per-row energy factor where given). [MWh/yr]"""
+    base = gross_mwh * loss_factor * availability * (1.0 - downtime)
+    if factor is None:
+        return np.multiply(base, degradation, out=out)
+    return np.multiply(base * degradation, factor, out=out)
 
 
 def availability_profile(years, first, mature, ageing_starts_year, ageing_per_year):
@@ -381,7 +407,7 @@ def degradation_factor(years, degradation_per_year):
 
 
 def sigma_total(sensitivity, interannual_speed_sd, speed_sds, energy_sds, years=1):
-    """Relative sd of the N-year mean net energy. [-]
+    """Relative sd of the N-year mean net energy (floats or per-row arrays). [-]
 
     sigma_N = sqrt((S sigma_iav)^2 / N + sum (S sigma_speed)^2 + sum sigma_energy^2).
 
@@ -392,12 +418,27 @@ def sigma_total(sensitivity, interannual_speed_sd, speed_sds, energy_sds, years=
     """
     s = sensitivity
     other = sum((s * x) ** 2 for x in speed_sds) + sum(x ** 2 for x in energy_sds)
-    return math.sqrt((s * interannual_speed_sd) ** 2 / years + other)
+    return np.sqrt((s * interannual_speed_sd) ** 2 / years + other)
 
 
-def exceedance(p50, sigma, z):
-    """P_x = P50 (1 - z_x sigma), floored at zero. z_90 = 1.2815516, z_99 = 2.3263479."""
-    return max(0.0, p50 * (1.0 - z * sigma))
+def exceedance_factor(sigma, z):
+    """P_x / P50 = 1 - z_x sigma, floored at zero. z_90 = 1.2815516, z_99 = 2.3263479. [-]"""
+    return np.maximum(0.0, 1.0 - z * sigma)
+
+
+def case_factors(sigma_1yr, sigma_10yr) -> dict:
+    """P_case / P50 of each debt sizing case (p50, p90_1yr, p90_10yr, p99_1yr), floats or per-row arrays."""
+    return {"p50": np.ones_like(np.asarray(sigma_1yr, float)) if np.ndim(sigma_1yr) else 1.0,
+            "p90_1yr": exceedance_factor(sigma_1yr, Z_90), "p90_10yr": exceedance_factor(sigma_10yr, Z_90),
+            "p99_1yr": exceedance_factor(sigma_1yr, Z_99)}
+
+
+def sigmas(sensitivity, interannual_speed_sd, speed_sds, energy_sds):
+    """(sigma_1yr, sigma_10yr) with a non-finite speed sensitivity taken as zero."""
+    s = np.where(np.isfinite(sensitivity), sensitivity, 0.0) if np.ndim(sensitivity) else (
+        sensitivity if math.isfinite(sensitivity) else 0.0)
+    return (sigma_total(s, interannual_speed_sd, speed_sds, energy_sds, 1),
+            sigma_total(s, interannual_speed_sd, speed_sds, energy_sds, 10))
 
 
 @dataclass(frozen=True)
@@ -421,6 +462,7 @@ class EnergyResult:
     sigma_10yr: float
     availability: np.ndarray       # t = 1..L
     energy_mwh: np.ndarray         # t = 1..L
+    factors: dict                  # sizing case -> P_case / P50 (case_factors)
     warnings: tuple[str, ...]
     wake_loss: float = 0.0                  # the wake loss applied (computed from a layout, or losses.wake)
     wake_from_layout: bool = False
@@ -431,11 +473,7 @@ class EnergyResult:
 
     def case_factor(self, case: str) -> float:
         """P_case / P50 for a debt sizing case (p50, p90_1yr, p90_10yr, p99_1yr)."""
-        if self.net_aep_p50_mwh <= 0:
-            return 1.0
-        value = {"p50": self.net_aep_p50_mwh, "p90_1yr": self.net_aep_p90_1yr_mwh,
-                 "p90_10yr": self.net_aep_p90_10yr_mwh, "p99_1yr": self.net_aep_p99_1yr_mwh}[case]
-        return value / self.net_aep_p50_mwh
+        return self.factors[case]
 
     def report(self) -> dict:
         keys = ["air_density_kgm3", "hub_mean_speed_mps", "gross_aep_mwh", "net_aep_p50_mwh",
@@ -450,22 +488,21 @@ def energy_of(scn) -> EnergyResult:
     site = site_for(scn)
     c = site.climate
     used = losses_used(scn, site)
-    lf = math.prod(1.0 - x for x in used.values())
+    lf = loss_factor([used[name] for name in LOSS_CATEGORIES])
     d = component_downtime_fraction(scn.maintenance.component)
     o = scn.operations
     years = np.arange(1, scn.lifetime + 1)
     avail = availability_profile(years, scn.availability_first_year, o.availability_mature,
                                  o.ageing_starts_year, o.availability_ageing_per_year)
     gross = site.gross_aep_mwh
-    energy = gross * lf * avail * (1.0 - d) * degradation_factor(years, o.degradation_per_year)
-    p50 = gross * lf * o.availability_mature * (1.0 - d)
+    energy = yearly_energy(gross, lf, avail, d, degradation_factor(years, o.degradation_per_year))
+    p50 = p50_energy(gross, lf, o.availability_mature, d)
     u = scn.uncertainty
-    s = site.speed_sensitivity if math.isfinite(site.speed_sensitivity) else 0.0
     terms = speed_terms(scn, site)
-    speed_sds = [sd for _, sd in terms]
-    energy_sds = [x.sd for x in u.energy]
-    s1 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 1)
-    s10 = sigma_total(s, u.interannual_speed_sd, speed_sds, energy_sds, 10)
+    s1, s10 = sigmas(site.speed_sensitivity, u.interannual_speed_sd, [sd for _, sd in terms],
+                     [x.sd for x in u.energy])
+    s1, s10 = float(s1), float(s10)
+    factors = {k: float(v) for k, v in case_factors(s1, s10).items()}
     warns = list(c.warnings)
     if d >= 1.0:
         raise ScenarioError("the expected component downtime sum(rate * downtime_days / 365) reaches 100 %",
@@ -476,10 +513,10 @@ def energy_of(scn) -> EnergyResult:
     return EnergyResult(
         air_density_kgm3=c.density_kgm3, hub_mean_speed_mps=c.mean_speed_mps, weibull_scale_mps=c.scale_mps,
         weibull_shape=c.shape, gross_aep_mwh=gross, loss_factor=lf, downtime_fraction=d,
-        net_aep_p50_mwh=p50, net_aep_p90_1yr_mwh=exceedance(p50, s1, Z_90),
-        net_aep_p90_10yr_mwh=exceedance(p50, s10, Z_90), net_aep_p99_1yr_mwh=exceedance(p50, s1, Z_99),
+        net_aep_p50_mwh=p50, net_aep_p90_1yr_mwh=p50 * factors["p90_1yr"],
+        net_aep_p90_10yr_mwh=p50 * factors["p90_10yr"], net_aep_p99_1yr_mwh=p50 * factors["p99_1yr"],
         net_capacity_factor=cf, speed_sensitivity=site.speed_sensitivity, sigma_1yr=s1, sigma_10yr=s10,
-        availability=avail, energy_mwh=energy, warnings=tuple(warns), wake_loss=used["wake"],
+        availability=avail, energy_mwh=energy, factors=factors, warnings=tuple(warns), wake_loss=used["wake"],
         wake_from_layout=site.wake is not None,
         wind_rose=None if c.rose is None else farm.rose_report(c.rose, site.sector_aep_mwh, site.wake),
         wake=None if site.wake is None else site.wake.report(gross),

@@ -147,7 +147,7 @@ class Rose:
         """All-sector mean cube of speed. [(m/s)^3]"""
         if self.source == "series":
             return float(np.mean(self.speeds_mps ** 3))
-        return float(np.sum(self.frequency * resource.weibull_moment(self.scale_mps, self.shape, 3)))
+        return float(np.sum(self.frequency * self.scale_mps ** 3 * gamma(1.0 + 3.0 / self.shape)))
 
     def pdf(self, speed_mps) -> np.ndarray:
         """All-sector speed density, sum f_s f_s(v) (table roses). [1/(m/s)]"""

@@ -64,16 +64,6 @@ def normalised_speed(speed_mps, density_kgm3, reference_density_kgm3):
     return np.asarray(speed_mps, float) * (density_kgm3 / reference_density_kgm3) ** (1.0 / 3.0)
 
 
-def normalised_power_stall(power_kw, density_kgm3, reference_density_kgm3):
-    """Power normalisation for stall-regulated turbines, P_n = P rho_0 / rho. [kW]
-
-    References
-    ----------
-    IEC 61400-12-1 (from memory).
-    """
-    return np.asarray(power_kw, float) * reference_density_kgm3 / density_kgm3
-
-
 @dataclass(frozen=True)
 class SiteCurve:
     """A power curve at the site's air density: P(v) in kW and the breakpoints of P."""

@@ -32,11 +32,6 @@ def weibull_mean(scale_mps, shape):
     return np.asarray(scale_mps) * _gamma(1.0 + 1.0 / np.asarray(shape))
 
 
-def weibull_moment(scale_mps, shape, n):
-    """n-th raw moment of a Weibull distribution, A^n * Gamma(1 + n/k). [(m/s)^n]"""
-    return np.asarray(scale_mps) ** n * _gamma(1.0 + n / np.asarray(shape))
-
-
 def weibull_pdf(speed_mps, scale_mps, shape):
     """Weibull probability density f(v) = k/A (v/A)^(k-1) exp(-(v/A)^k). [1/(m/s)]"""
     v = np.asarray(speed_mps, dtype=float)

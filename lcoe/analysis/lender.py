@@ -1,0 +1,122 @@
+"""Lender cases: downside cases run with the debt locked at the base sizing.
+
+A lender sizes the debt once, at financial close, on the sizing case; every downside
+case then meets that fixed schedule, and the question is how far the cover falls. Each
+case here is a set of dotted-key changes on the scenario's own values and, for the
+energy cases, the P-case energy factor (P_case / P50, from the energy assessment) on
+every year's energy. The debt amount and its yearly debt service are those of the base
+case (:attr:`lcoe.engine.Case.schedule`); nothing is re-sized.
+
+The default set (common practice in lenders' base-case reviews; the sizes are the usual
+round numbers, not a standard): base, P90 1-yr, P99 1-yr, P90 10-yr, O&M +10 %,
+availability -2 points, price -10 %, and a combined downside (P90 1-yr energy, O&M +10 %,
+availability -2 points and price -10 % together).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from lcoe import engine
+from lcoe.finance.cashflow import Flows, Sample
+from lcoe.inputs.keys import numeric_keys, numeric_value
+
+ENERGY_CASES = ("p90_1yr", "p99_1yr", "p90_10yr")
+OM_UP = 0.10            # O&M +10 %
+AVAILABILITY_DOWN = 0.02  # availability -2 points (absolute)
+PRICE_DOWN = 0.10       # price -10 %
+
+
+@dataclass(frozen=True)
+class LenderCase:
+    """One downside case: ``changes`` name what moves (key -> factor or shift) for the reader;
+    ``overrides`` are the dotted keys and values the engine runs; ``energy_case`` scales energy."""
+    name: str
+    label: str
+    overrides: dict = field(default_factory=dict)
+    energy_case: str | None = None
+
+
+@dataclass(frozen=True)
+class LenderResult:
+    case: LenderCase
+    flows: Flows
+    metrics: dict                # min_dscr, avg_dscr, llcr, equity_irr, project_irr, years_below_1, ...
+
+    def to_dict(self) -> dict:
+        return {"label": self.case.label, "energy_case": self.case.energy_case,
+                "overrides": dict(self.case.overrides), **self.metrics}
+
+
+def _om_keys(scn) -> list[str]:
+    """Every O&M cost input: fixed, insurance, variable, component replacements, overhauls."""
+    keys = ["maintenance.fixed_per_kw_year", "maintenance.insurance_per_kw_year", "maintenance.variable_per_mwh"]
+    keys += [k for k in numeric_keys(scn) if k.startswith("maintenance.component.") and k.endswith(".replacement_cost")]
+    keys += [k for k in numeric_keys(scn) if k.startswith("maintenance.overhaul.") and k.endswith(".cost_per_turbine")]
+    return keys
+
+
+def om_up(scn, share: float = OM_UP) -> dict:
+    return {k: numeric_value(scn, k) * (1.0 + share) for k in _om_keys(scn)}
+
+
+def availability_down(scn, points: float = AVAILABILITY_DOWN) -> dict:
+    return {"operations.availability_first_year": max(0.0, scn.availability_first_year - points),
+            "operations.availability_mature": max(0.0, scn.operations.availability_mature - points)}
+
+
+def price_down(scn, share: float = PRICE_DOWN) -> dict:
+    return {"revenue.ppa_price_per_mwh": scn.revenue.ppa_price_per_mwh * (1.0 - share),
+            "revenue.merchant_price_per_mwh": scn.merchant_price_per_mwh * (1.0 - share)}
+
+
+def default_cases(scn) -> list[LenderCase]:
+    """The default lender cases of a scenario, as changes on its own values."""
+    return [
+        LenderCase("base", "Base case (P50)"),
+        LenderCase("p90_1yr", "P90 1-yr energy", energy_case="p90_1yr"),
+        LenderCase("p99_1yr", "P99 1-yr energy", energy_case="p99_1yr"),
+        LenderCase("p90_10yr", "P90 10-yr energy", energy_case="p90_10yr"),
+        LenderCase("om_plus_10", "O&M +10 %", om_up(scn)),
+        LenderCase("availability_minus_2", "Availability -2 points", availability_down(scn)),
+        LenderCase("price_minus_10", "Price -10 %", price_down(scn)),
+        LenderCase("combined_downside", "Combined downside (P90 1-yr, O&M +10 %, availability -2 points, "
+                   "price -10 %)", {**om_up(scn), **availability_down(scn), **price_down(scn)},
+                   energy_case="p90_1yr"),
+    ]
+
+
+def _finite(v):
+    v = float(v)
+    return v if np.isfinite(v) else None
+
+
+def run_case(scn, base: engine.Case, case: LenderCase) -> LenderResult:
+    """One case with the debt locked at ``base``'s sizing."""
+    over = {k: np.array([float(v)]) for k, v in case.overrides.items()}
+    sample = None
+    if case.energy_case is not None:
+        factor = float(np.asarray(base.flows.case_factors[case.energy_case]).ravel()[0])
+        sample = Sample(energy_factor=np.array([[factor]]))
+    flows, m, _ = engine.evaluate(scn, overrides=over or None, sample=sample, schedule=base.schedule,
+                                  energy=base.energy)
+    dscr = flows.dscr[0, 1:]
+    service = flows.debt_service[0, 1:] > 0
+    with np.errstate(invalid="ignore"):
+        below = int(np.count_nonzero(service & (dscr < 1.0)))
+    shortfall = float(np.maximum(flows.debt_service[0, 1:] - np.maximum(flows.cfads[0, 1:], 0.0), 0.0)[service].sum())
+    metrics = {k: _finite(np.asarray(m[k]).ravel()[0]) for k in
+               ("min_dscr", "avg_dscr", "llcr", "equity_irr", "project_irr", "equity_npv")}
+    metrics["years_below_1"] = below
+    metrics["cfads_shortfall"] = shortfall
+    return LenderResult(case, flows, metrics)
+
+
+def lender_cases(scn, base: engine.Case | None = None, cases: list[LenderCase] | None = None
+                 ) -> list[LenderResult]:
+    """Every lender case (the default set unless ``cases`` is given) with the debt locked at the
+    base sizing. An all-equity scenario has no debt to lock: the cover figures come back null."""
+    base = base if base is not None else engine.run(scn, breakeven=False)
+    return [run_case(scn, base, c) for c in (cases if cases is not None else default_cases(scn))]
