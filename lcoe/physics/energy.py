@@ -358,15 +358,20 @@ def losses_used(scn, site: Site | None = None) -> dict:
     return out
 
 
+def derived_speed_terms(scn, site: Site | None = None) -> list[tuple[str, float]]:
+    """The speed uncertainty terms the data add to the scenario's: with a long-term correction,
+    its own term (:func:`lcoe.physics.farm.long_term_term`). [(name, relative sd)]"""
+    if scn.wind.long_term is None:
+        return []
+    site = site if site is not None else site_for(scn)
+    sd, _, _ = farm.long_term_term(site.climate.long_term, scn.uncertainty.interannual_speed_sd)
+    return [(farm.MCP_TERM, sd)]
+
+
 def speed_terms(scn, site: Site | None = None) -> list[tuple[str, float]]:
-    """The long-term speed uncertainty terms: ``[[uncertainty.speed]]`` and, with a long-term
-    correction, its own term (:func:`lcoe.physics.farm.long_term_term`). [(name, relative sd)]"""
-    out = [(x.name, float(x.sd)) for x in scn.uncertainty.speed]
-    if scn.wind.long_term is not None:
-        site = site if site is not None else site_for(scn)
-        sd, _, _ = farm.long_term_term(site.climate.long_term, scn.uncertainty.interannual_speed_sd)
-        out.append((farm.MCP_TERM, sd))
-    return out
+    """Every long-term speed uncertainty term: ``[[uncertainty.speed]]`` and :func:`derived_speed_terms`.
+    [(name, relative sd)]"""
+    return [(x.name, float(x.sd)) for x in scn.uncertainty.speed] + derived_speed_terms(scn, site)
 
 
 def component_downtime_fraction(components) -> float:
