@@ -142,12 +142,12 @@ def _assert_same_trials(case, fused, plain):
         np.testing.assert_allclose(a, b, rtol=1e-11, atol=atol, equal_nan=True, err_msg=key)
 
 
-@pytest.mark.parametrize("which", ["demo", "hourly", "equity"])
+@pytest.mark.parametrize("which", ["demo", "hourly", "equity", "layout"])
 def test_trial_kernel_equals_the_array_engine_on_the_demo_scenarios(which):
-    from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY
+    from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT
 
     from lcoe.inputs import scenario
-    scn = scenario.load({"demo": DEMO, "hourly": DEMO_HOURLY, "equity": DEMO_EQUITY}[which])
+    scn = scenario.load({"demo": DEMO, "hourly": DEMO_HOURLY, "equity": DEMO_EQUITY, "layout": DEMO_LAYOUT}[which])
     _assert_same_trials(*_trials_both_ways(scn))
 
 

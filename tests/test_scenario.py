@@ -9,13 +9,13 @@ from __future__ import annotations
 import tomllib
 
 import pytest
-from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, make_raw, make_scenario
+from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, make_raw, make_scenario
 
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
 
 
-@pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY])
+@pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY, DEMO_LAYOUT])
 def test_demo_scenarios_load(path):
     scn = sc.load(path)
     assert scn.project.lifetime_years >= 1 and scn.project.turbines >= 1

@@ -170,6 +170,7 @@ def farm_wake(x_m, y_m, rotor_diameter_m: float, decay_constant: float, sector_b
     c_grid = 1.0 - np.sqrt(1.0 - np.clip(thrust_coefficient(grid), 0.0, 1.0))
     free_p = power_kw(centres)                                   # (bins,)
     waked = np.zeros((dirs.size, n))                             # sum over bins of weight * P(u)
+    reached = np.zeros((dirs.size, n), bool)                     # a wake reaches the turbine in this direction
     chunk = max(1, _CELLS // max(1, n * n))
     for lo in range(0, dirs.size, chunk):
         sl = slice(lo, min(lo + chunk, dirs.size))
@@ -182,12 +183,16 @@ def farm_wake(x_m, y_m, rotor_diameter_m: float, decay_constant: float, sector_b
         for r in range(n):
             j = order[:, r]
             d2 = np.matmul(c2, g2[ar, :, j][:, :, None])[:, :, 0]     # (nd, bins): sum_i c_i^2 G_ij^2
+            reached[sl.start + ar, j] = np.any(d2 > 0, axis=1)
             u = centres[None, :] * np.maximum(1.0 - np.sqrt(d2), 0.0)
             speed[ar, :, j] = u
             c2[ar, :, j] = np.interp(u, grid, c_grid) ** 2
         waked[sl] = np.einsum("db,dbn->dn", weight[sl], power_kw(speed))
-    free = float(np.sum(weight.sum(axis=0) * free_p))
+    # where no wake reaches a turbine its power is the free one, to the last bit
+    free_d = np.einsum("db,b->d", weight, free_p)
+    free_dn = np.repeat(free_d[:, None], n, axis=1)
+    waked = np.where(reached, waked, free_dn)
     by_sector = waked.reshape(sectors, m, n).sum(axis=1)         # (sectors, turbines)
-    sector_free = prob @ free_p * n
+    sector_free = free_dn.reshape(sectors, m, n).sum(axis=1).sum(axis=1)
     return WakeResult(float(decay_constant), 360.0 / sectors / m, float(edges[1] - edges[0]), thrust_source,
-                      np.full(n, free), waked.sum(axis=0), sector_free, by_sector.sum(axis=1))
+                      free_dn.sum(axis=0), waked.sum(axis=0), sector_free, by_sector.sum(axis=1))
