@@ -1,0 +1,323 @@
+"""The site: its wind climate at hub height (a Weibull, a rose, or a series, corrected to the long
+term where a reference is given), its power curve at the site's air density, the gross AEP (the
+Weibull integral or the series mean) with its table against a speed factor, the gross AEP by
+sector and the wake losses of a layout; built once per scenario and cached.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from lcoe.inputs.errors import ScenarioError
+from lcoe.physics import _kernels  # compiled loops; tests set it to None to run the array formulas
+from lcoe.physics import farm, mcp
+from lcoe.physics import rose as rs
+from lcoe.physics import wind as resource
+from lcoe.physics.turbine import PowerCurve, SiteCurve, physics_curve, read_curve_csv
+
+HOURS_PER_YEAR = 8760.0
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(10)
+# speed-factor grid of the tabulated AEP(scale factor); 1.0 is a node, so the base case is exact
+_FACTORS = np.round(np.arange(0.10, 2.50 + 1e-9, 0.0025), 6)
+
+
+# --------------------------------------------------------------------------- the Weibull integral
+
+def _quadrature_nodes(breaks: np.ndarray, max_step: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss-Legendre nodes and weights on each piece between curve breakpoints."""
+    b = np.unique(np.asarray(breaks, float))
+    edges = [b[0]]
+    for lo, hi in zip(b[:-1], b[1:]):
+        pieces = max(1, int(math.ceil((hi - lo) / max_step)))
+        edges.extend(np.linspace(lo, hi, pieces + 1)[1:])
+    e = np.asarray(edges)
+    lo, hi = e[:-1, None], e[1:, None]
+    half = (hi - lo) / 2.0
+    nodes = (lo + hi) / 2.0 + half * _GL_X[None, :]
+    weights = half * _GL_W[None, :]
+    return nodes.ravel(), weights.ravel()
+
+
+def mean_power_weibull_kw(curve: SiteCurve, scale_mps, shape) -> np.ndarray:
+    """Mean power of one turbine, integral of P(v) f(v) dv over a Weibull climate. [kW]
+
+    The curve is smooth between its breakpoints (table points, the rated-power kink,
+    cut-in and cut-out), so the integral is taken piecewise with 10-point
+    Gauss-Legendre quadrature on pieces of at most 0.5 m/s: exact for the
+    piecewise-linear or cubic curve to far better than 0.01 %.
+    ``scale_mps`` may be an array; the result has its shape.
+    """
+    nodes, weights = _quadrature_nodes(curve.breaks_mps)
+    p = curve.power_kw(nodes) * weights
+    a = np.asarray(scale_mps, float)
+    pdf = resource.weibull_pdf(nodes[None, :], a.reshape(-1, 1), shape)
+    return (pdf @ p).reshape(a.shape)
+
+
+def aep_weibull_mwh(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarray:
+    """Gross AEP = turbines * 8760 h * integral P(v) f(v) dv. [MWh/yr]"""
+    return turbines * HOURS_PER_YEAR * mean_power_weibull_kw(curve, scale_mps, shape) / 1000.0
+
+
+# --------------------------------------------------------------------------- the site
+
+@dataclass(frozen=True)
+class Climate:
+    """The wind at hub height and the site's air density.
+
+    For a rose, ``scale_mps`` and ``shape`` describe the all-sector distribution by the
+    Weibull with its mean and mean cube (:func:`lcoe.physics.rose.equivalent_weibull`);
+    the energy is summed sector by sector.
+    """
+
+    kind: str                       # "weibull" | "series" | "rose"
+    density_kgm3: float
+    scale_mps: float
+    shape: float
+    mean_speed_mps: float
+    speeds_mps: np.ndarray | None = None      # series: hub-height speeds
+    densities_kgm3: np.ndarray | None = None  # series: hourly densities (or None: site density)
+    warnings: tuple[str, ...] = field(default=())
+    rose: rs.Rose | None = None               # directions at hub height (a rose, or derived from the series)
+    long_term: mcp.LongTerm | None = None     # the long-term correction that made the series
+
+    def pdf(self, speed_mps) -> np.ndarray:
+        """Speed density at hub height: the rose's sector mixture, else the (fitted) Weibull. [1/(m/s)]"""
+        if self.kind == "rose":
+            return self.rose.pdf(speed_mps)
+        return resource.weibull_pdf(speed_mps, self.scale_mps, self.shape)
+
+
+@dataclass(frozen=True)
+class Site:
+    """Climate, curves and the gross-energy answers that do not change between trials."""
+
+    climate: Climate
+    curve: PowerCurve
+    site_curve: SiteCurve
+    turbines: int
+    gross_aep_mwh: float
+    speed_sensitivity: float
+    factors: np.ndarray       # speed-scale factors
+    aep_ratios: np.ndarray    # AEP(f) / AEP(1)
+    sector_aep_mwh: np.ndarray | None = None   # gross AEP by sector (they sum to gross_aep_mwh)
+    wake: farm.FarmWake | None = None          # wake losses of the layout
+
+    def gross_at_factor(self, factor) -> np.ndarray:
+        """Gross AEP with every hub-height speed scaled by ``factor`` (interpolated table). [MWh/yr]"""
+        return self.gross_aep_mwh * self.ratio_at_factor(factor)
+
+    def ratio_at_factor(self, factor) -> np.ndarray:
+        """AEP(f) / AEP(1) by linear interpolation in the table (direct integration outside it)."""
+        f = np.asarray(factor, float)
+        out = _interp_uniform(f, self.factors, self.aep_ratios)
+        if f.size and (f.min() < self.factors[0] or f.max() > self.factors[-1]):
+            outside = (f < self.factors[0]) | (f > self.factors[-1])
+            out = np.where(outside, self._direct_ratio(f), out)
+        return out
+
+    def _direct_ratio(self, f: np.ndarray) -> np.ndarray:
+        flat = np.clip(f.ravel(), 0.0, None)
+        return (self.aep_direct(flat) / self.gross_aep_mwh).reshape(f.shape)
+
+    def aep_direct(self, factor) -> np.ndarray:
+        """Gross AEP by direct integration (or series mean) at speed factors. [MWh/yr]"""
+        f = np.atleast_1d(np.asarray(factor, float))
+        c = self.climate
+        if c.kind == "weibull":
+            return aep_weibull_mwh(self.site_curve, c.scale_mps * f, c.shape, self.turbines)
+        if c.kind == "rose":
+            r = c.rose
+            out = np.zeros(f.shape)
+            for fs, a, k in zip(r.frequency, r.scale_mps, r.shape):
+                if fs > 0:
+                    out = out + fs * aep_weibull_mwh(self.site_curve, a * f, k, self.turbines)
+            return out
+        rho = c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3
+        out = np.empty(f.shape)
+        for i, fi in enumerate(f):
+            out[i] = self.curve.power_kw_at(c.speeds_mps * fi, rho).mean()
+        return self.turbines * HOURS_PER_YEAR * out / 1000.0
+
+
+def _interp_uniform(x, xp, fp):
+    """np.interp for an evenly spaced grid ``xp``: the cell index is computed, not searched."""
+    n = xp.size
+    if _kernels is not None and np.ndim(x):
+        xc = np.ascontiguousarray(x, dtype=float)
+        return _kernels.interp_uniform(xc, float(xp[0]), float((xp[-1] - xp[0]) / (n - 1)), fp, np.empty_like(xc))
+    h = (xp[-1] - xp[0]) / (n - 1)
+    pos = np.clip(x, xp[0], xp[-1])
+    pos -= xp[0]
+    pos /= h
+    i = pos.astype(np.intp)
+    np.minimum(i, n - 2, out=i)
+    pos -= i
+    slope = np.diff(fp)
+    out = slope[i]
+    out *= pos
+    out += fp[i]
+    return out
+
+
+def climate_from(scn) -> Climate:
+    w, t = scn.wind, scn.turbine
+    shear = resource.shear_factor(t.hub_height_m, w.height_m, w.alpha, w.roughness_length_m)
+    if w.air_density_kgm3 is not None:
+        rho = float(w.air_density_kgm3)
+    else:
+        rho = float(resource.air_density(w.elevation_m, w.mean_temperature_c))
+    if w.rose is not None:
+        rose = rs.rose_from_table(w.rose.frequency, w.rose.weibull_scale_mps, w.rose.weibull_shape).scaled(shear)
+        mean = rose.mean_speed_mps()
+        k, a = rs.equivalent_weibull(mean, rose.mean_cube())
+        return Climate("rose", rho, a, k, mean, rose=rose)
+    if w.timeseries is None:
+        k = float(w.weibull_shape)
+        a_ref = w.weibull_scale_mps if w.weibull_scale_mps is not None else \
+            float(resource.weibull_scale_from_mean(w.mean_speed_mps, k))
+        a = a_ref * shear
+        return Climate("weibull", rho, a, k, float(resource.weibull_mean(a, k)))
+    series = resource.load_series(scn.resolve(w.timeseries), max_missing_share=w.max_missing_share)
+    warns = list(series.warnings)
+    dens = None
+    lt = None
+    if w.long_term is not None:
+        site_path, ref_path = scn.resolve(w.timeseries), scn.resolve(w.long_term.reference)
+        ref = mcp.load_reference(ref_path, max_missing_share=w.max_missing_share)
+        lt = mcp.correct(series, ref, method=w.long_term.method, site_name=site_path.name,
+                         reference_name=ref_path.name, file=str(ref_path))
+        warns += list(ref.warnings) + list(lt.warnings)
+        v, directions = lt.speeds_mps * shear, lt.directions_deg
+        if series.temperature_c is not None and w.air_density_kgm3 is None:
+            warns.append("the site series' temperature_c is not used with a long-term correction: the air density "
+                         "comes from wind.elevation_m and wind.mean_temperature_c")
+    else:
+        v, directions = series.speed_mps * shear, series.direction_deg
+        if series.temperature_c is not None and w.air_density_kgm3 is None:
+            dens = resource.air_density(w.elevation_m, series.temperature_c)
+            rho = float(dens.mean())
+    rose = None if directions is None else rs.rose_from_series(v, directions, w.sectors or 12)
+    try:
+        k, a = resource.fit_weibull(v)
+    except ScenarioError:
+        k, a = float("nan"), float("nan")
+        warns.append("too few positive speeds in the series to fit a Weibull distribution")
+    return Climate("series", rho, a, k, float(v.mean()), speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns),
+                   rose=rose, long_term=lt)
+
+
+def curve_from(scn) -> PowerCurve:
+    t = scn.turbine
+    if t.power_curve is not None:
+        return read_curve_csv(scn.resolve(t.power_curve), t.rated_power_kw, t.rotor_diameter_m,
+                              reference_density_kgm3=t.curve_air_density_kgm3, regulation=t.regulation)
+    return physics_curve(t.rated_power_kw, t.rotor_diameter_m, t.cp_max,
+                         3.0 if t.cut_in_mps is None else t.cut_in_mps,
+                         25.0 if t.cut_out_mps is None else t.cut_out_mps,
+                         1.0 if t.drivetrain_efficiency is None else t.drivetrain_efficiency)
+
+
+def _site_key(scn) -> str:
+    """A key for what the gross energy depends on: wind and turbine sections and file contents."""
+    h = hashlib.sha256()
+    h.update(scn.wind.model_dump_json().encode())
+    h.update(scn.turbine.model_dump_json().encode())
+    h.update(str(scn.project.turbines).encode())
+    h.update(b"" if scn.layout is None else scn.layout.model_dump_json().encode())
+    files = [scn.wind.timeseries, scn.turbine.power_curve,
+             None if scn.wind.long_term is None else scn.wind.long_term.reference,
+             None if scn.layout is None else scn.layout.positions]
+    for rel in files:
+        if rel is not None:
+            p = scn.resolve(rel)
+            h.update(str(p.resolve()).encode())
+            try:
+                st = p.stat()
+                h.update(f"{st.st_mtime_ns}:{st.st_size}".encode())
+            except OSError:
+                h.update(b"missing")
+    return h.hexdigest()
+
+
+def site_for(scn) -> Site:
+    """The :class:`Site` of a scenario, cached on what the gross energy depends on.
+
+    The key is computed once per scenario object (scenarios are immutable)."""
+    key = getattr(scn, "_site_key_memo", None)
+    if key is None:
+        key = _site_key(scn)
+        try:
+            scn._site_key_memo = key
+        except (AttributeError, TypeError, ValueError):
+            pass
+    try:
+        return _SITE_CACHE[key]
+    except KeyError:
+        pass
+    site = _build_site(scn)
+    if len(_SITE_CACHE) > 64:
+        _SITE_CACHE.clear()
+    _SITE_CACHE[key] = site
+    return site
+
+
+_SITE_CACHE: dict[str, Site] = {}
+
+
+def _build_site(scn) -> Site:
+    climate = climate_from(scn)
+    curve = curve_from(scn)
+    site_curve = curve.at_density(climate.density_kgm3)
+    n = scn.project.turbines
+    probe = Site(climate, curve, site_curve, n, 1.0, float("nan"), np.array([1.0]), np.array([1.0]))
+    gross = float(probe.aep_direct(1.0)[0])
+    if climate.kind == "weibull":
+        ratios = aep_weibull_mwh(site_curve, climate.scale_mps * _FACTORS, climate.shape, n)
+        factors = _FACTORS
+    elif climate.kind == "rose":
+        ratios = probe.aep_direct(_FACTORS)
+        factors = _FACTORS
+    else:
+        factors = np.round(np.arange(0.10, 2.50 + 1e-9, 0.01), 6)
+        ratios = probe.aep_direct(factors)
+    if gross > 0:
+        ratios = ratios / gross
+        ratios[np.isclose(factors, 1.0, rtol=0, atol=1e-12)] = 1.0
+        lo, hi = probe.aep_direct(np.array([0.99, 1.01]))
+        sens = math.log(hi / lo) / math.log(1.01 / 0.99) if lo > 0 and hi > 0 else float("nan")
+    else:
+        ratios = np.ones_like(factors)
+        sens = float("nan")
+    sector_aep, wake = _directions(scn, climate, curve, site_curve)
+    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios, sector_aep, wake)
+
+
+def _directions(scn, climate: Climate, curve: PowerCurve, site_curve: SiteCurve):
+    """Gross AEP by sector (None without directions) and the layout's wakes (None without a layout)."""
+    rose = climate.rose
+    if rose is None:
+        if scn.layout is not None:
+            w = scn.wind
+            if w.long_term is not None:
+                p = scn.resolve(w.long_term.reference)
+                raise ScenarioError("has no direction_deg column: the long-term series takes its directions from the "
+                                    "reference, and a layout needs wind directions", key="wind.long_term.reference",
+                                    value=p.name, file=str(p))
+            p = scn.resolve(w.timeseries)
+            raise ScenarioError("has no direction_deg column; a layout needs wind directions", key="wind.timeseries",
+                                value=p.name, file=str(p))
+        return None, None
+    n = scn.project.turbines
+    if rose.source == "series":
+        rho = climate.densities_kgm3 if climate.densities_kgm3 is not None else climate.density_kgm3
+        per = rs.sector_mean_power_kw(rose, sample_power_kw=curve.power_kw_at(rose.speeds_mps, rho))
+    else:
+        per = rs.sector_mean_power_kw(rose, weibull_mean_power_kw=lambda a, k: mean_power_weibull_kw(site_curve, a, k))
+    sector_aep = n * HOURS_PER_YEAR * per / 1000.0
+    wake = None if scn.layout is None else farm.wake_of(scn, rose, curve, site_curve, climate.density_kgm3)
+    return sector_aep, wake
