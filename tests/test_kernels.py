@@ -10,7 +10,7 @@ import pytest
 from lcoe.finance import _kernels as kernels
 from lcoe.finance import metrics as mt
 from lcoe.finance import tax
-from lcoe.physics import energy
+from lcoe.physics import site
 
 
 @pytest.fixture
@@ -51,7 +51,7 @@ def test_interpolation_kernel_equals_numpy_interp():
     xp = np.round(np.arange(0.1, 2.5 + 1e-9, 0.0025), 6)
     fp = np.sin(xp) + xp ** 2
     x = np.random.default_rng(1).uniform(0.0, 3.0, (50, 25))
-    got = energy._interp_uniform(x, xp, fp)
+    got = site._interp_uniform(x, xp, fp)
     np.testing.assert_allclose(got, np.interp(x, xp, fp), rtol=1e-12, atol=1e-12)
 
 
