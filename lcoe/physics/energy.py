@@ -225,7 +225,6 @@ def energy_of(scn) -> EnergyResult:
         net_capacity_factor=cf, speed_sensitivity=site.speed_sensitivity, sigma_1yr=s1, sigma_10yr=s10,
         availability=avail, energy_mwh=energy, factors=factors, warnings=tuple(warns), wake_loss=used["wake"],
         wake_from_layout=site.wake is not None,
-        wind_rose=None if c.rose is None else farm.rose_report(c.rose, site.sector_aep_mwh, site.wake),
-        wake=None if site.wake is None else site.wake.report(gross),
+        wind_rose=site.rose_block, wake=site.wake_block,
         long_term=None if c.long_term is None else farm.long_term_report(c.long_term, u.interannual_speed_sd),
         speed_terms=tuple(terms))

@@ -106,6 +106,8 @@ class Site:
     aep_ratios: np.ndarray    # AEP(f) / AEP(1)
     sector_aep_mwh: np.ndarray | None = None   # gross AEP by sector (they sum to gross_aep_mwh)
     wake: farm.FarmWake | None = None          # wake losses of the layout
+    rose_block: dict | None = None             # the report's wind_rose and wake blocks (read-only)
+    wake_block: dict | None = None
 
     def gross_at_factor(self, factor) -> np.ndarray:
         """Gross AEP with every hub-height speed scaled by ``factor`` (interpolated table). [MWh/yr]"""
@@ -294,7 +296,9 @@ def _build_site(scn) -> Site:
         ratios = np.ones_like(factors)
         sens = float("nan")
     sector_aep, wake = _directions(scn, climate, curve, site_curve)
-    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios, sector_aep, wake)
+    rose_block = None if climate.rose is None else farm.rose_report(climate.rose, sector_aep, wake)
+    wake_block = None if wake is None else wake.report(gross)
+    return Site(climate, curve, site_curve, n, gross, sens, factors, ratios, sector_aep, wake, rose_block, wake_block)
 
 
 def _directions(scn, climate: Climate, curve: PowerCurve, site_curve: SiteCurve):
