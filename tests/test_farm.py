@@ -68,7 +68,7 @@ def test_run_and_check_show_the_blocks(capsys):
     assert max(len(line) for line in out.splitlines() if not line.startswith(("Indicative", "  - "))) <= 100
     assert cli.main(["check", str(DEMO_LAYOUT)]) == 0
     out = capsys.readouterr().out
-    assert "layout: 14 turbines (tallowmere_ridge_layout.csv), nearest pair" in out
+    assert "layout: 14 turbine(s) (tallowmere_ridge_layout.csv), nearest pair" in out
     assert "long-term reference: tallowmere_reference_20yr.csv covers the site period;" in out
 
 
@@ -120,6 +120,19 @@ def _error(raw, base_dir=None):
         s = sc.from_dict(raw, source="test.toml", base_dir=base_dir or ".")
         en.energy_of(s)
     return str(e.value)
+
+
+def test_one_turbine_has_no_wake_and_says_so(tmp_path, capsys):
+    raw = _grid_raw()
+    raw["layout"] = {"positions": "one.csv"}
+    raw["project"]["turbines"] = 1
+    (tmp_path / "one.csv").write_text("x_m,y_m\n0,0\n", encoding="utf-8")
+    (tmp_path / "one.toml").write_text(sc.to_toml(raw), encoding="utf-8")
+    assert cli.main(["check", str(tmp_path / "one.toml")]) == 0
+    assert "layout: 1 turbine(s) (one.csv), one turbine, no wakes; wake loss 0.00 %" in capsys.readouterr().out
+    assert cli.main(["run", str(tmp_path / "one.toml"), "--json", "--trials", "0"]) == 0
+    rep = json.loads(capsys.readouterr().out)
+    assert rep["wake"]["farm_loss"] == 0.0 and rep["wake"]["nearest_spacing_m"] is None
 
 
 def test_the_rules_of_a_layout(tmp_path):

@@ -26,8 +26,8 @@ def cmd_check(args) -> int:
           f"{len(scn.variants)} variant(s))")
     if e.wake is not None:
         w = e.wake
-        print(f"layout: {w['turbines']} turbines ({w['layout']}), nearest pair {w['nearest_spacing_m']:,.0f} m = "
-              f"{w['nearest_spacing_rotor_diameters']:.1f} rotor diameters; wake loss {100 * w['farm_loss']:.2f} %")
+        print(f"layout: {w['turbines']} turbine(s) ({w['layout']}), {rp.spacing_text(w)}; wake loss "
+              f"{100 * w['farm_loss']:.2f} %")
     if e.long_term is not None:
         lt = e.long_term
         print(f"long-term reference: {lt['reference']} covers the site period; {100 * lt['coverage']:.1f} % "

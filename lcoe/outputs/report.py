@@ -138,8 +138,7 @@ def rose_table(rose: dict) -> list[str]:
 def wake_table(w: dict) -> list[str]:
     """The wake loss of every turbine and of the farm."""
     out = [f"Wake losses (Jensen/Park top hat, root-sum-square; k = {w['wake_decay_constant']:g}, {w['location']})",
-           f"  {w['turbines']} turbines ({w['layout'][:40]}), nearest pair {w['nearest_spacing_m']:,.0f} m = "
-           f"{w['nearest_spacing_rotor_diameters']:.1f} rotor diameters",
+           f"  {w['turbines']} turbine(s) ({w['layout'][:40]}), {spacing_text(w)}",
            f"  thrust coefficient: {w['thrust']}",
            f"  {'Turbine':<12} {'x [m]':>11} {'y [m]':>11} {'Gross [MWh/yr]':>15} {'Waked [MWh/yr]':>15} "
            f"{'Wake loss [%]':>14}"]
@@ -153,6 +152,14 @@ def wake_table(w: dict) -> list[str]:
     out.append(f"  per turbine {_f(w['turbine_loss_min'], 'pct')} to {_f(w['turbine_loss_max'], 'pct')} %; "
                f"directions every {w['direction_step_deg']:g} deg, speed bins of {w['speed_bin_mps']:g} m/s")
     return out
+
+
+def spacing_text(w: dict) -> str:
+    """The nearest pair of a layout in words ("one turbine" where there is no pair)."""
+    d = w["nearest_spacing_m"]
+    if d is None or not math.isfinite(d):
+        return "one turbine, no wakes"
+    return f"nearest pair {d:,.0f} m = {w['nearest_spacing_rotor_diameters']:.1f} rotor diameters"
 
 
 def long_term_table(lt: dict) -> list[str]:

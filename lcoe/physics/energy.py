@@ -216,6 +216,13 @@ def energy_of(scn) -> EnergyResult:
                             key="maintenance.component", has_value=False)
     if gross <= 0:
         warns.append("gross AEP is zero: the power curve produces nothing in this wind climate")
+    if site.wake is not None and site.wake.layout.turbines == 1:
+        warns.append("the layout has one turbine: no wakes (wake.nearest_spacing_m is null)")
+    if c.rose is not None:
+        unfit = [s for s in range(c.rose.sectors) if not np.isfinite(c.rose.shape[s])]
+        if unfit:
+            warns.append(f"wind_rose: sector(s) {', '.join(map(str, unfit))} have too few samples for a Weibull fit "
+                         "(their weibull_scale_mps and weibull_shape are null; their energy is counted)")
     cf = p50 / (scn.plant_kw * HOURS_PER_YEAR / 1000.0)
     return EnergyResult(
         air_density_kgm3=c.density_kgm3, hub_mean_speed_mps=c.mean_speed_mps, weibull_scale_mps=c.scale_mps,
