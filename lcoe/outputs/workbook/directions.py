@@ -4,13 +4,15 @@ correction statistics (only where the scenario has directions, a layout or a lon
 from __future__ import annotations
 
 from openpyxl.chart import RadarChart, Reference
+from openpyxl.styles import Alignment
 
 from lcoe.outputs.workbook.cells import BOLD, ENGINE_FILL, HEAD_FILL, ITALIC, Book
 
 
 def _heads(book: Book, ws, row: int, heads) -> None:
     for i, h in enumerate(heads, start=1):
-        book.text(ws, row, i, h, font=BOLD, fill=HEAD_FILL)
+        book.text(ws, row, i, h, font=BOLD, fill=HEAD_FILL).alignment = Alignment(wrap_text=True, vertical="top")
+    ws.row_dimensions[row].height = 30
 
 
 def write_directions(book: Book, ws, row: int, energy) -> int:
@@ -72,7 +74,10 @@ def write_directions(book: Book, ws, row: int, energy) -> int:
     if lt is not None:
         b.text(ws, row, 1, f"Long-term correction (measure-correlate-predict, {lt['method'].replace('_', ' ')}) "
                            f"against {lt['reference']}", font=BOLD)
-        row += 1
+        b.text(ws, row + 1, 1, "linear regression and variance ratio as in Rogers, Rogers and Manwell (2005); the "
+                               "variance ratio keeps the site's mean and standard deviation over the concurrent "
+                               "period", font=ITALIC)
+        row += 2
         items = [
             ("Reference period", f"{lt['reference_start']} to {lt['reference_end']}", None),
             ("Reference length [years]; time step [h]", lt["reference_years"], "price"),
@@ -91,8 +96,7 @@ def write_directions(book: Book, ws, row: int, energy) -> int:
             ("Site mean, long term (used) [m/s]", lt["site_mean_long_term_mps"], "price"),
             ("Veer, site minus reference [deg]", lt["veer_deg"], "price"),
             ("Inter-annual sd of the mean speed", lt["interannual_sd"], "pct"),
-            ("Long-term uncertainty (speed term), s sqrt((1 - r^2) / Nc + r^2 / Nr)", lt["uncertainty_speed_sd"],
-             "pct"),
+            ("Long-term uncertainty (a speed term)", lt["uncertainty_speed_sd"], "pct"),
         ]
         for label, v, fmt in items:
             b.text(ws, row, 1, label)
@@ -102,6 +106,9 @@ def write_directions(book: Book, ws, row: int, energy) -> int:
                 b.num(ws, row, 2, v, fmt, fill=ENGINE_FILL)
             if label.startswith("Reference length"):
                 b.num(ws, row, 3, lt["reference_step_h"], "price", fill=ENGINE_FILL)
+            if label.startswith("Long-term uncertainty"):
+                b.text(ws, row, 3, "= inter-annual sd x sqrt((1 - r^2) / Nc + r^2 / Nr), Nc and Nr the concurrent "
+                                   "and reference years (Cochran 1977, double sampling)", font=ITALIC)
             row += 1
         b.text(ws, row, 1, "The uncertainty term is one of the speed terms behind the P-case factors on Inputs.",
                font=ITALIC)
