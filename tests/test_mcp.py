@@ -199,3 +199,19 @@ def test_a_reference_file_that_is_missing_or_a_folder(tmp_path):
     with pytest.raises(ScenarioError) as e:
         en.energy_of(sc.from_dict(raw, source="x.toml", base_dir=DEMO_LAYOUT.parent))
     assert str(e.value) == f"{tmp_path}: wind.long_term.reference = '{tmp_path.name}': is a folder, not a CSV file"
+
+
+def test_monte_carlo_draws_the_long_term_term_with_the_others():
+    """Trials' long-term speed factors have sd sqrt(sum sd^2) over the scenario's terms and the MCP term
+    (independent terms in quadrature: common practice); inter-annual variability set to zero to see it alone."""
+    from lcoe.analysis import montecarlo
+
+    raw = sc.parse_toml(DEMO_LAYOUT)
+    raw["uncertainty"]["interannual_speed_sd"] = 0.0
+    scn = sc.from_dict(raw, source=str(DEMO_LAYOUT), base_dir=DEMO_LAYOUT.parent)
+    terms = en.speed_terms(scn)
+    assert [n for n, _ in terms] == ["measurement", "long-term correction (MCP)"]
+    _, sample = montecarlo.draw_block(scn, 20000, np.random.default_rng(3), scn.lifetime)
+    expected = math.sqrt(sum(sd ** 2 for _, sd in terms))
+    assert np.std(sample.speed_factor[:, 0]) == pytest.approx(expected, rel=0.03)   # sampling error about 0.5 %
+    assert np.all(sample.speed_factor == sample.speed_factor[:, :1])                 # one factor for the life
