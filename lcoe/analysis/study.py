@@ -26,6 +26,7 @@ class Report:
             "scenario": c.scenario.project.name,
             "warnings": warnings,
             "energy": c.energy.report(),
+            **directions_blocks(c.energy),
             "costs": costs_block(c),
             "metrics": dict(c.metrics),
             "annual": c.annual(),
@@ -41,6 +42,16 @@ class Report:
             if value is None or (isinstance(value, float) and not math.isfinite(value)):
                 warnings.append(f"energy.{key} is null: not defined for this scenario")
         return clean(out)
+
+
+def directions_blocks(energy) -> dict:
+    """The ``wind_rose``, ``wake`` and ``long_term`` blocks of a run, each only where the scenario has it."""
+    out = {}
+    for key in ("wind_rose", "wake", "long_term"):
+        block = getattr(energy, key)
+        if block is not None:
+            out[key] = block
+    return out
 
 
 def costs_block(case: Case) -> dict:

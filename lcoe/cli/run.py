@@ -19,11 +19,19 @@ def _load(path):
 
 def cmd_check(args) -> int:
     scn = _load(args.file)
-    energy.energy_of(scn)  # reads and checks the curve and series files too
+    e = energy.energy_of(scn)  # reads and checks the curve, series, reference and layout files too
     for name in scn.variants:
         energy.energy_of(scn.variant(name))
     print(f"{args.file}: ok ({scn.project.name}, {scn.lifetime} years, {scn.project.turbines} turbines, "
           f"{len(scn.variants)} variant(s))")
+    if e.wake is not None:
+        w = e.wake
+        print(f"layout: {w['turbines']} turbine(s) ({w['layout']}), {rp.spacing_text(w)}; wake loss "
+              f"{100 * w['farm_loss']:.2f} %")
+    if e.long_term is not None:
+        lt = e.long_term
+        print(f"long-term reference: {lt['reference']} covers the site period; {100 * lt['coverage']:.1f} % "
+              f"concurrent ({lt['concurrent_pairs']:,} records), r = {lt['r']:.3f}")
     for w in scn.warnings():
         print(f"warning: {w}")
     return 0

@@ -333,6 +333,33 @@ def _cross_checks(scn: Scenario) -> None:
         if c.between[0] == c.between[1]:
             raise ScenarioError("must name two different inputs", key=f"montecarlo.correlation[{i}].between",
                                 value=c.between[0])
+    _layout_checks(scn)
+
+
+def _layout_checks(scn: Scenario) -> None:
+    """A layout replaces the typed wake loss and needs wind directions; its grid holds project.turbines."""
+    lay = scn.layout
+    if lay is None:
+        return
+    w = scn.wind
+    if w.rose is None and w.timeseries is None:
+        raise ScenarioError("a layout needs wind directions: give [wind.rose], or a wind.timeseries with a "
+                            "direction_deg column", key="layout", has_value=False)
+    if "wake" in (scn._raw.get("losses") or {}):
+        raise ScenarioError("cannot be given together with [layout]: the wake loss is computed from the layout",
+                            key="losses.wake", value=scn.losses.wake)
+    if lay.positions is None and lay.rows * lay.columns != scn.project.turbines:
+        raise ScenarioError(f"must equal the grid's layout.rows x layout.columns = {lay.rows * lay.columns}",
+                            key="project.turbines", value=scn.project.turbines)
+    for name in scn.montecarlo.vary:
+        if name == "losses.wake":
+            raise ScenarioError("cannot vary with a [layout]: the wake loss is computed from the layout (its "
+                                "uncertainty is an [[uncertainty.energy]] term)", key=f"montecarlo.vary.{name}",
+                                has_value=False)
+        if name.split(".")[0] in ("layout", "wind", "turbine"):
+            raise ScenarioError("cannot vary between trials with a [layout]: each value needs its own wake "
+                                "computation; use a sweep or variants", key=f"montecarlo.vary.{name}",
+                                has_value=False)
 
 
 def load(path: str | Path) -> Scenario:

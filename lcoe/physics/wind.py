@@ -93,24 +93,32 @@ def isa_density(elevation_m):
 
 @dataclass(frozen=True)
 class Series:
-    """An hourly wind series after cleaning. Speeds at the measurement height."""
+    """A wind series after cleaning (hourly unless ``step_h`` says otherwise). Speeds at the
+    measurement height; ``hours`` counts the samples kept."""
 
     speed_mps: np.ndarray
     temperature_c: np.ndarray | None
     hours: int
     warnings: tuple[str, ...] = field(default=())
+    direction_deg: np.ndarray | None = None   # where the wind comes from, clockwise from north
+    timestamps: np.ndarray | None = None      # datetime64[ns], UTC, in the order of the speeds
+    step_h: float = 1.0                       # the time step of the record [h]
 
     @property
     def mean_speed_mps(self) -> float:
         return float(self.speed_mps.mean())
 
 
-def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_share: float = 0.2) -> Series:
-    """Load an hourly series ``timestamp, speed_mps[, temperature_c]``.
+def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_share: float = 0.2,
+                step_h: float | None = 1.0) -> Series:
+    """Load an hourly series ``timestamp, speed_mps[, temperature_c][, direction_deg]``.
 
-    Bad rows (non-numeric, NaN, negative or implausibly high speeds) and duplicate
-    timestamps are dropped and reported; gaps in the hourly record are counted. A
-    series with more than ``max_missing_share`` of its hours missing is refused.
+    Bad rows (non-numeric, NaN, negative or implausibly high speeds, directions outside
+    0..360 degrees) and duplicate timestamps are dropped and reported; gaps in the hourly
+    record are counted. A series with more than ``max_missing_share`` of its hours
+    missing is refused. ``step_h`` is the record's time step in hours (None: the most
+    common step between consecutive timestamps, for a reference series); gaps and
+    missing records are counted against it.
     """
     import pandas as pd
 
@@ -154,43 +162,58 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
         ts = pd.to_datetime(df["timestamp"].str.strip(), errors="coerce", utc=True)
     speed = pd.to_numeric(df["speed_mps"].str.strip(), errors="coerce")
     temp = pd.to_numeric(df["temperature_c"].str.strip(), errors="coerce") if "temperature_c" in cols else None
+    dirn = pd.to_numeric(df["direction_deg"].str.strip(), errors="coerce") if "direction_deg" in cols else None
     bad_ts = int(ts.isna().sum())
     bad_speed = (speed.isna() | (speed < 0) | (speed > 75)).to_numpy()
     bad_temp = np.zeros(len(df), bool) if temp is None else (temp.isna() | (temp < -60) | (temp > 60)).to_numpy()
-    bad = bad_speed | bad_temp | ts.isna().to_numpy()
+    bad_dir = np.zeros(len(df), bool) if dirn is None else (dirn.isna() | (dirn < 0) | (dirn > 360)).to_numpy()
+    bad = bad_speed | bad_temp | bad_dir | ts.isna().to_numpy()
     if bad_ts:
         warnings.append(f"{shown}: {bad_ts} row(s) with an unreadable timestamp dropped")
     if bad_speed.sum():
         warnings.append(f"{shown}: {int(bad_speed.sum())} row(s) with a missing, negative or non-numeric speed dropped")
     if bad_temp.sum():
         warnings.append(f"{shown}: {int(bad_temp.sum())} row(s) with a bad temperature dropped")
+    if bad_dir.sum():
+        warnings.append(f"{shown}: {int(bad_dir.sum())} row(s) with a missing or out-of-range direction "
+                        "(0..360 degrees) dropped")
     keep = ~bad
     ts, speed = ts[keep], speed[keep]
     temp = temp[keep] if temp is not None else None
+    dirn = dirn[keep] if dirn is not None else None
     dup = ts.duplicated(keep="first").to_numpy()
     if dup.sum():
         warnings.append(f"{shown}: {int(dup.sum())} duplicate timestamp(s); the first of each kept")
         ts, speed = ts[~dup], speed[~dup]
         temp = temp[~dup] if temp is not None else None
+        dirn = dirn[~dup] if dirn is not None else None
     n = len(ts)
     if n == 0:
         raise fail(f"has no usable rows ({bad_ts} unreadable timestamp(s), {int(bad_speed.sum())} bad speed(s), "
                    f"{int(bad_temp.sum())} bad temperature(s) of {len(df)})")
-    span_h = int(round((ts.max() - ts.min()).total_seconds() / 3600.0)) + 1
+    offsets_h = np.sort((ts - ts.min()).dt.total_seconds().to_numpy()) / 3600.0
+    if step_h is None:
+        diffs = np.round(np.diff(offsets_h), 6)
+        diffs = diffs[diffs > 0]
+        step_h = float(pd.Series(diffs).mode().iloc[0]) if diffs.size else 1.0
+    span_h = int(round(offsets_h[-1] / step_h)) + 1
     expected = max(span_h, n, len(df))
     missing = expected - n
+    unit = "hour(s)" if step_h == 1.0 else f"record(s) of {step_h:g} h"
     if missing > 0:
-        steps_h = np.diff(np.sort((ts - ts.min()).dt.total_seconds().to_numpy())) / 3600.0
-        holes = steps_h[steps_h > 1.5]
-        gaps = f"; {holes.size} gap(s) in the record, the longest {holes.max() - 1:.0f} h" if holes.size else ""
-        warnings.append(f"{shown}: {missing} of {expected} hour(s) missing ({missing / expected:.1%}){gaps}")
+        steps_h = np.diff(offsets_h)
+        holes = steps_h[steps_h > 1.5 * step_h]
+        gaps = f"; {holes.size} gap(s) in the record, the longest {holes.max() - step_h:.0f} h" if holes.size else ""
+        warnings.append(f"{shown}: {missing} of {expected} {unit} missing ({missing / expected:.1%}){gaps}")
     if missing / expected > max_missing_share:
-        raise fail(f"{missing / expected:.1%} of the hours are missing or bad, more than "
-                   f"wind.max_missing_share = {max_missing_share:g} ({missing} of {expected} hour(s))")
-    if n < 24 * 30:
-        warnings.append(f"{shown}: only {n} hour(s); a long-term energy estimate needs at least a year")
+        what = "hours" if step_h == 1.0 else "records"
+        raise fail(f"{missing / expected:.1%} of the {what} are missing or bad, more than "
+                   f"wind.max_missing_share = {max_missing_share:g} ({missing} of {expected} {unit})")
+    if n * step_h < 24 * 30:
+        warnings.append(f"{shown}: only {n * step_h:g} hour(s); a long-term energy estimate needs at least a year")
     return Series(speed_mps=speed.to_numpy(float), temperature_c=None if temp is None else temp.to_numpy(float),
-                  hours=n, warnings=tuple(warnings))
+                  hours=n, warnings=tuple(warnings), direction_deg=None if dirn is None else dirn.to_numpy(float),
+                  timestamps=ts.dt.tz_convert(None).to_numpy(dtype="datetime64[ns]"), step_h=float(step_h))
 
 
 def fit_weibull(speed_mps: np.ndarray) -> tuple[float, float]:
