@@ -1,8 +1,11 @@
 """Make the invented demo data for the invented site "Tallowmere Ridge".
 
 Everything here is made up for the demo: an invented 4.2 MW turbine with a 136 m
-rotor whose power curve is built from physics, and two years of hourly wind at 100 m
-(Weibull-distributed, with a seasonal and a daily pattern) and temperature.
+rotor whose power curve is built from physics (with an invented thrust curve), two
+years of hourly wind at 100 m (Weibull-distributed, with a seasonal and a daily
+pattern) and temperature, and for the layout demo a 14-turbine layout, 12 months of
+hourly site wind with directions and a 20-year, 6-hourly reference series with
+directions, made from one invented weather record so that the two correlate.
 
     python demo/make_demo_data.py        # rewrites the files beside this script
 """
@@ -43,6 +46,73 @@ def power_curve() -> tuple[np.ndarray, np.ndarray]:
     return v, np.round(p, 1)
 
 
+def thrust_curve(v: np.ndarray) -> np.ndarray:
+    """An invented thrust coefficient: 0.80 up to 9 m/s, falling as (9 / v)^2.2 above, 0 outside cut-in..cut-out."""
+    ct = np.minimum(0.80, 0.80 * (9.0 / np.maximum(v, 1e-9)) ** 2.2)
+    return np.round(np.where((v >= CUT_IN) & (v <= CUT_OUT), ct, 0.0), 3)
+
+
+# ---- the layout demo (all invented): a ridge running NNW-SSE across the prevailing west-south-west wind
+RIDGE_BEARING_DEG = 160.0
+REF_START, REF_YEARS = np.datetime64("2005-01-01T00:00"), 20      # 2005-2024
+SITE_YEAR = 2024
+SITE_ANNUAL_FACTOR = 1.045        # lifts the measured year, which the drawn weather left calm, to about 5 % below the long term
+VEER_DEG = 8.0                    # site direction minus reference direction
+
+
+def ridge_layout(seed: int = 20260611) -> tuple[list[str], np.ndarray, np.ndarray]:
+    """Nine turbines along the crest 3.6 rotor diameters apart, five on a shoulder 7 diameters to the east."""
+    rng = np.random.default_rng(seed)
+    b = math.radians(RIDGE_BEARING_DEG)
+    along = np.array([math.sin(b), math.cos(b)])
+    east = np.array([math.cos(b), -math.sin(b)])     # perpendicular, towards the east-north-east
+    crest = [i * 3.6 * ROTOR_M * along + 25.0 * math.sin(i / 2.5) * east for i in range(9)]
+    shoulder = [(1.0 + 1.6 * i) * 3.6 * ROTOR_M * along + 7.0 * ROTOR_M * east for i in range(5)]
+    pos = np.array(crest + shoulder) + rng.normal(0.0, 15.0, (14, 2))
+    pos -= pos.min(axis=0) - 100.0
+    return [f"T{i + 1:02d}" for i in range(14)], np.round(pos[:, 0], 1), np.round(pos[:, 1], 1)
+
+
+def _ar1(rng, n: int, tau_h: float) -> np.ndarray:
+    """A unit-variance Gaussian AR(1) with memory tau (hours)."""
+    from scipy.signal import lfilter
+
+    phi = math.exp(-1.0 / tau_h)
+    e = rng.standard_normal(n) * math.sqrt(1 - phi ** 2)
+    e[0] = rng.standard_normal()
+    return lfilter([1.0], [1.0, -phi], e)
+
+
+def weather(seed: int = 20260612):
+    """20 years of invented hourly weather: stamps, the site's true 100 m speed and direction, and the
+    reference's speed and direction (the same weather seen by a coarser source, with its own noise)."""
+    rng = np.random.default_rng(seed)
+    hours = int((np.datetime64(f"{2005 + REF_YEARS}-01-01T00:00") - REF_START) / np.timedelta64(1, "h"))
+    stamps = REF_START + np.arange(hours).astype("timedelta64[h]")
+    t = np.arange(hours)
+    # weather regimes with a persistence of about three days: west-south-west 65 %, north-east 25 %, north 10 %
+    regimes = np.array([250.0, 50.0, 350.0])
+    runs = rng.geometric(1.0 / 72.0, size=hours // 10)
+    labels = rng.choice(3, size=runs.size, p=[0.65, 0.25, 0.10])
+    regime = np.repeat(labels, runs)[:hours]
+    direction = np.mod(regimes[regime] + 30.0 * _ar1(rng, hours, 12.0), 360.0)
+    strength = np.array([1.08, 0.90, 0.80])[regime]
+    u = stats.norm.cdf(_ar1(rng, hours, 30.0))
+    day_of_year = (t / 24.0) % 365.25
+    season = 1.0 + 0.12 * np.cos(2 * math.pi * (day_of_year - 15) / 365.25)
+    diurnal = 1.0 + 0.05 * np.cos(2 * math.pi * (t % 24 - 15) / 24.0)
+    year = stamps.astype("datetime64[Y]").astype(int) + 1970
+    annual = 1.0 + 0.045 * rng.standard_normal(REF_YEARS)
+    annual[SITE_YEAR - 2005] = SITE_ANNUAL_FACTOR
+    scale = MEAN_SPEED_100M / math.gamma(1 + 1 / WEIBULL_K)
+    truth = stats.weibull_min.ppf(u, WEIBULL_K, scale=scale) * season * diurnal * strength * annual[year - 2005]
+    truth *= MEAN_SPEED_100M / truth.mean()
+    reference = np.maximum(0.86 * truth * (1.0 + 0.22 * _ar1(rng, hours, 6.0)), 0.0)
+    site = np.maximum(truth * (1.0 + 0.18 * _ar1(rng, hours, 4.0)), 0.0)
+    site_dir = np.mod(direction + VEER_DEG + 12.0 * rng.standard_normal(hours), 360.0)
+    return stamps, site, site_dir, reference, direction
+
+
 def hourly_wind(seed: int = 20260501) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Hourly speeds with Weibull marginals, persistence, a winter peak and an afternoon peak."""
     rng = np.random.default_rng(seed)
@@ -69,9 +139,31 @@ def hourly_wind(seed: int = 20260501) -> tuple[np.ndarray, np.ndarray, np.ndarra
     return stamps, np.round(speed, 2), np.round(temp, 1)
 
 
+def write_layout_demo() -> str:
+    names, x, y = ridge_layout()
+    rows = ["name,x_m,y_m"] + [f"{n},{a:.1f},{b:.1f}" for n, a, b in zip(names, x, y)]
+    (HERE / "tallowmere_ridge_layout.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    stamps, site, site_dir, ref, ref_dir = weather()
+    six = np.arange(0, stamps.size, 6)
+    rows = ["timestamp,speed_mps,direction_deg"]
+    rows += [f"{str(s)[:13]}:00Z,{a:.2f},{b:.0f}" for s, a, b in zip(stamps[six], ref[six], ref_dir[six])]
+    (HERE / "tallowmere_reference_20yr.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    year = stamps.astype("datetime64[Y]").astype(int) + 1970
+    keep = np.nonzero(year == SITE_YEAR)[0]
+    rng = np.random.default_rng(20260613)
+    outage = (keep >= keep[0] + 24 * 70) & (keep < keep[0] + 24 * 73)   # a three-day logger outage in March
+    keep = keep[~outage & (rng.random(keep.size) > 0.01)]               # and 1 % scattered dropouts
+    rows = ["timestamp,speed_mps,direction_deg"]
+    rows += [f"{str(s)[:13]}:00Z,{a:.2f},{b:.0f}" for s, a, b in zip(stamps[keep], site[keep], site_dir[keep])]
+    (HERE / "tallowmere_site_12months.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    return (f"layout: {len(names)} turbines; reference: {six.size} records of 6 h, mean {ref[six].mean():.2f} m/s; "
+            f"site: {keep.size} hours in {SITE_YEAR}, mean {site[keep].mean():.2f} m/s")
+
+
 def main() -> None:
     v, p = power_curve()
-    lines = ["speed_mps,power_kw"] + [f"{a:g},{b:g}" for a, b in zip(v, p)]
+    ct = thrust_curve(v)
+    lines = ["speed_mps,power_kw,ct"] + [f"{a:g},{b:g},{c:g}" for a, b, c in zip(v, p, ct)]
     (HERE / "tallowmere_curve.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     stamps, speed, temp = hourly_wind()
     rows = ["timestamp,speed_mps,temperature_c"]
@@ -79,6 +171,7 @@ def main() -> None:
     (HERE / "tallowmere_wind_hourly.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
     print(f"power curve: {len(v)} points, peak {p.max():g} kW; hourly wind: {len(speed)} hours, "
           f"mean {speed.mean():.2f} m/s at 100 m")
+    print(write_layout_demo())
 
 
 if __name__ == "__main__":

@@ -15,6 +15,7 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "assumptions" / "tallowmere_ridge.toml"
 DEMO_HOURLY = ROOT / "assumptions" / "tallowmere_ridge_hourly.toml"
 DEMO_EQUITY = ROOT / "assumptions" / "tallowmere_ridge_equity.toml"
+DEMO_LAYOUT = ROOT / "assumptions" / "tallowmere_ridge_layout.toml"
 
 # A minimal valid scenario (invented numbers) with a physics curve, so it needs no data file.
 BASE = {

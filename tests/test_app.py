@@ -16,7 +16,7 @@ from pathlib import Path
 from urllib.parse import urlparse
 
 import pytest
-from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, ROOT, make_raw, require_tool
+from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, ROOT, make_raw, require_tool
 
 from lcoe import cli
 from lcoe import engine as model
@@ -130,11 +130,29 @@ def test_every_screen_runs_without_an_exception(tab):
     assert not at.error
 
 
-@pytest.mark.parametrize("path", [DEMO_HOURLY, DEMO_EQUITY], ids=["hourly", "equity"])
+@pytest.mark.parametrize("path", [DEMO_HOURLY, DEMO_EQUITY, DEMO_LAYOUT], ids=["hourly", "equity", "layout"])
 def test_other_demo_scenarios_run(path):
     at = start(scenario_file=path.name)
     assert not at.error
     assert shown_headline(at) == expected_headline(model.run(sc.load(path)))
+
+
+def test_the_layout_demo_shows_its_rose_wakes_and_long_term_on_the_energy_tab():
+    """The figures are the engine's own (its report blocks); the wake-loss input gives way to the decay constant."""
+    at = start(scenario_file=DEMO_LAYOUT.name)
+    assert not at.error
+    e = model.run(sc.load(DEMO_LAYOUT), breakeven=False).energy
+    texts = " ".join(m.value for m in at.markdown)
+    assert "Wind rose at hub height (12 sectors, derived from the wind series)" in texts
+    assert f"Wake loss of the layout: {100 * e.wake['farm_loss']:.2f} %" in texts
+    assert f"r = {e.long_term['r']:.3f}" in texts
+    assert len(at.get("vega_lite_chart")) == 3 and len(at.dataframe) == 1     # power curve, energy, rose; turbines
+    keys = [w.key.split("|", 3)[3] for w in at.number_input if w.key and w.key.startswith("in|")]
+    assert "layout.wake_decay_constant" in keys and "losses.wake" not in keys
+    at.number_input(input_key(at, "layout.wake_decay_constant")).set_value(0.05).run()
+    assert not at.exception and not at.error
+    stronger = model.run(sc.load(DEMO_LAYOUT).with_overrides({"layout.wake_decay_constant": 0.05}))
+    assert shown_headline(at) == expected_headline(stronger)
 
 
 # --------------------------------------------------------------------------- inputs move the figures
@@ -387,7 +405,7 @@ def test_upload_with_its_data_file_uses_the_uploaded_file():
     """The curve uploaded beside the scenario is the one read (the demo's curve with 2 % less power
     everywhere: the gross AEP falls by 2 %, the integral being linear in the curve)."""
     lines = (ROOT / "demo" / "tallowmere_curve.csv").read_text(encoding="utf-8").splitlines()
-    rows = [lines[0]] + [f"{v},{float(p) * 0.98}" for v, p in (r.split(",") for r in lines[1:])]
+    rows = [lines[0]] + [",".join([c[0], str(float(c[1]) * 0.98)] + c[2:]) for c in (r.split(",") for r in lines[1:])]
     data = DEMO.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"my_curve.csv"')
     data = data.replace(b"rated_power_kw = 4200", b"rated_power_kw = 4116")
     at = start()

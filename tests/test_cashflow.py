@@ -241,11 +241,11 @@ def three_year(tmp_path, monkeypatch):
 
     No rotor takes power from still air (Betz), so a curve file saying this is refused; the
     curve is handed to the engine directly, past the file checks."""
-    from lcoe.physics import energy as en
+    from lcoe.physics import site
     from lcoe.physics.turbine import PowerCurve
 
     flat = PowerCurve("table", 1000.0, 60.0, speed_mps=np.array([0.0, 40.0]), power_kw=np.array([1000.0, 1000.0]))
-    monkeypatch.setattr(en, "curve_from", lambda scn: flat)
+    monkeypatch.setattr(site, "curve_from", lambda scn: flat)
     raw = {
         "schema_version": 1,
         "project": {"name": "Three years", "lifetime_years": 3, "turbines": 1},

@@ -326,7 +326,7 @@ def test_fuzz_hourly_series_files(text, share, tmp_path_factory):
         _assert_one_line(exc)
         assert str(exc).startswith(f"{path}: wind.timeseries = 'wind.csv': ")
         return
-    assert series.hours == series.speed_mps.size * series.step_s / 3600.0 > 0
+    assert series.hours == series.speed_mps.size > 0           # the samples kept
     assert 60 <= series.step_s <= 3600                    # hourly or finer, whatever the rows say
     assert all(math.isfinite(x) and 0 <= x <= 75 for x in series.speed_mps)
     assert all("\n" not in w for w in series.warnings)

@@ -10,7 +10,7 @@ import pytest
 from lcoe.finance import _kernels as kernels
 from lcoe.finance import metrics as mt
 from lcoe.finance import tax
-from lcoe.physics import energy
+from lcoe.physics import site as site_mod
 
 
 @pytest.fixture
@@ -49,18 +49,18 @@ def test_tax_kernel_equals_the_running_maximum_formula(monkeypatch):
 
 @pytest.mark.parametrize("which", ["weibull", "hourly"])
 def test_factor_table_kernel_equals_its_array_formula(which, monkeypatch):
-    """The compiled table lookup against energy._table_lookup's array formula, factor by factor,
+    """The compiled table lookup against site._table_lookup's array formula, factor by factor,
     on the demo's Weibull climate and its hourly series (steps at every hour's cut-out)."""
     from conftest import DEMO, DEMO_HOURLY
 
     from lcoe.inputs import scenario
-    site = energy.site_for(scenario.load(DEMO if which == "weibull" else DEMO_HOURLY))
+    site = site_mod.site_for(scenario.load(DEMO if which == "weibull" else DEMO_HOURLY))
     rng = np.random.default_rng(1)
     x = np.concatenate([rng.uniform(0.0, 3.0, 4000), rng.uniform(0.9, 1.3, 4000), site.factors,
                         site.step_factors[::5], np.nextafter(site.step_factors[::5], 3.0)])
-    fast = energy._table_lookup(x, site)
-    monkeypatch.setattr(energy, "_kernels", None)
-    slow = energy._table_lookup(x, site)
+    fast = site_mod._table_lookup(x, site)
+    monkeypatch.setattr(site_mod, "_kernels", None)
+    slow = site_mod._table_lookup(x, site)
     np.testing.assert_array_equal(np.isnan(fast), np.isnan(slow))
     np.testing.assert_allclose(fast, slow, rtol=1e-13, atol=1e-15, equal_nan=True)
     # NaN (evaluate directly) exactly outside the grid and inside the cells marked exact
@@ -70,7 +70,7 @@ def test_factor_table_kernel_equals_its_array_formula(which, monkeypatch):
     on_node = np.isin(x, g)
     np.testing.assert_array_equal(np.isnan(fast), outside | (site.cell_exact[i] & ~on_node))
     # at the grid's factors: the directly evaluated ratios
-    np.testing.assert_array_equal(energy._table_lookup(g.copy(), site), site.aep_ratios)
+    np.testing.assert_array_equal(site_mod._table_lookup(g.copy(), site), site.aep_ratios)
     if which == "weibull":
         # no steps: plain linear interpolation, numpy.interp as the outside reference
         ok = ~np.isnan(fast)
@@ -165,12 +165,12 @@ def _assert_same_trials(case, fused, plain):
         np.testing.assert_allclose(a, b, rtol=1e-11, atol=atol, equal_nan=True, err_msg=key)
 
 
-@pytest.mark.parametrize("which", ["demo", "hourly", "equity"])
+@pytest.mark.parametrize("which", ["demo", "hourly", "equity", "layout"])
 def test_trial_kernel_equals_the_array_engine_on_the_demo_scenarios(which):
-    from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY
+    from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT
 
     from lcoe.inputs import scenario
-    scn = scenario.load({"demo": DEMO, "hourly": DEMO_HOURLY, "equity": DEMO_EQUITY}[which])
+    scn = scenario.load({"demo": DEMO, "hourly": DEMO_HOURLY, "equity": DEMO_EQUITY, "layout": DEMO_LAYOUT}[which])
     _assert_same_trials(*_trials_both_ways(scn))
 
 

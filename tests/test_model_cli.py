@@ -10,7 +10,7 @@ import re
 import numpy as np
 import numpy_financial as npf
 import pytest
-from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, make_raw
+from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, make_raw
 
 from lcoe import cli
 from lcoe import engine as model
@@ -126,7 +126,7 @@ def test_breakeven_price_zeroes_the_equity_npv(demo_report):
     assert abs(case.metrics["equity_npv"]) < 0.1      # a tenth of a currency unit on a ~1e8 project
 
 
-@pytest.mark.parametrize("path", [DEMO_HOURLY, DEMO_EQUITY])
+@pytest.mark.parametrize("path", [DEMO_HOURLY, DEMO_EQUITY, DEMO_LAYOUT])
 def test_other_demo_scenarios_run(capsys, path):
     rep = _run_json(capsys, path)
     assert METRIC_KEYS <= set(rep["metrics"]) and ENERGY_KEYS <= set(rep["energy"])
@@ -146,7 +146,7 @@ def test_table_output(capsys):
     assert "LCOE, nominal [EUR/MWh]" in out
 
 
-@pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY])
+@pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY, DEMO_LAYOUT])
 def test_check_accepts_the_demo_files(capsys, path):
     rc = cli.main(["check", str(path)])
     out = capsys.readouterr()

@@ -9,13 +9,13 @@ from __future__ import annotations
 import tomllib
 
 import pytest
-from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, make_raw, make_scenario
+from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, make_raw, make_scenario
 
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
 
 
-@pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY])
+@pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_EQUITY, DEMO_LAYOUT])
 def test_demo_scenarios_load(path):
     scn = sc.load(path)
     assert scn.project.lifetime_years >= 1 and scn.project.turbines >= 1
@@ -89,7 +89,7 @@ def test_toml_round_trip():
     (dict(wind__weibull_scale_mps=8.0),
      r"^test\.toml: wind\.weibull_scale_mps = 8\.0: cannot be given together with wind\.mean_speed_mps"),
     (dict(wind__mean_speed_mps=None),
-     r"^test\.toml: wind: give exactly one of mean_speed_mps, weibull_scale_mps or timeseries$"),
+     r"^test\.toml: wind: give exactly one of mean_speed_mps, weibull_scale_mps, timeseries or rose$"),
     (dict(turbine__hub_height_m=50.0),
      r"^test\.toml: turbine\.hub_height_m = 50\.0: must be above the rotor radius 55 m"),
     (dict(finance__debt__tenor_years=25),

@@ -85,16 +85,16 @@ CASES = [
     # ---- mutually exclusive keys
     ("exclusive_mean_and_scale", TOML, "wind.weibull_scale_mps", "8.1",
      r"cannot be given together with wind\.mean_speed_mps; give exactly one of mean_speed_mps, "
-     r"weibull_scale_mps or timeseries"),
+     r"weibull_scale_mps, timeseries or rose"),
     ("exclusive_curve_and_physics", TOML, "turbine.cp_max", "0.45",
      r"cannot be given together with turbine\.power_curve; use a curve table or physics parameters"),
     ("exclusive_shear_and_roughness", TOML, "wind.roughness_length_m", "0.05",
      r"cannot be given together with wind\.shear_exponent; choose the power law or the log law"),
     ("exclusive_no_wind_source", TOML, "wind", None,
-     r"give exactly one of mean_speed_mps, weibull_scale_mps or timeseries"),
+     r"give exactly one of mean_speed_mps, weibull_scale_mps, timeseries or rose"),
     ("series_weibull_too", TOML, "wind.timeseries", "'series_weibull_too.csv'",
      r"cannot be given together with wind\.mean_speed_mps; give exactly one of mean_speed_mps, "
-     r"weibull_scale_mps or timeseries"),
+     r"weibull_scale_mps, timeseries or rose"),
     # ---- missing required keys
     ("missing_capex_section", TOML, "capex", None, r"is required"),
     ("missing_ppa_price", TOML, "revenue.ppa_price_per_mwh", None, r"is required"),
@@ -176,6 +176,20 @@ CASES = [
      r"column 'speed_mps' appears more than once in the header"),
     ("series_ragged_row", "series_ragged_row.csv", "wind.timeseries", "'series_ragged_row.csv'",
      r"cannot be read as CSV \(ParserError: .*Expected 3 fields in line 55, saw 5\)"),
+    # ---- directions, layouts and the long-term reference
+    ("rose_frequencies_sum", TOML, "wind.rose.frequency", "[...]",
+     r"must sum to 1 \(each sector's share of the time\); these sum to 0\.89"),
+    ("layout_without_directions", TOML, "layout", None,
+     r"a layout needs wind directions: give \[wind\.rose\], or a wind\.timeseries with a direction_deg column"),
+    ("layout_keeps_wake_loss", TOML, "losses.wake", "0.07",
+     r"cannot be given together with \[layout\]: the wake loss is computed from the layout"),
+    # spacing sanity (common practice): no two rotors closer than one diameter
+    ("layout_too_close", "layout_too_close.csv", "layout.positions", "'layout_too_close.csv'",
+     r"turbines T7 and T8 are 85\.4 m apart, closer than one rotor diameter \(turbine\.rotor_diameter_m = 120\)"),
+    ("reference_not_covering", "reference_not_covering.csv", "wind.long_term.reference",
+     "'reference_not_covering.csv'",
+     r"covers 2024-01-01 00:00 to 2024-03-10 18:00, but the site series reference_site_40days\.csv runs "
+     r"2024-03-01 00:00 to 2024-04-09 23:00; the reference must cover the site period"),
 ]
 
 IDS = [c[0] for c in CASES]
@@ -207,7 +221,7 @@ def test_catalogue_is_large_and_covers_every_fixture():
     # every data file is used by a case, by the warning test below, or by a valid variant of the base
     csvs = {p.name for p in BROKEN.glob("*.csv")}
     named = {c[1] for c in CASES if c[1] != TOML} | {"series_weibull_too.csv", "curve_good.csv",
-                                                     "series_gaps_and_duplicates.csv"}
+                                                     "series_gaps_and_duplicates.csv", "reference_site_40days.csv"}
     assert csvs <= named
 
 

@@ -26,7 +26,7 @@ from types import SimpleNamespace
 import numpy as np
 import openpyxl
 import pytest
-from conftest import DEMO, DEMO_EQUITY, make_scenario, require_tool
+from conftest import DEMO, DEMO_EQUITY, DEMO_LAYOUT, make_scenario, require_tool
 from openpyxl.formula import Tokenizer
 from openpyxl.utils import range_boundaries
 
@@ -135,6 +135,7 @@ def books(tmp_path_factory):
         "equity": (sc.load(DEMO_EQUITY), dict(trials=300, variants=False), False),
         "macrs": (_macrs_scenario(), dict(trials=0), False),
         "capped": (_declining_capped_scenario(), dict(trials=0), False),
+        "layout": (sc.load(DEMO_LAYOUT), dict(trials=0, variants=False), False),
     }
     cases = {}
     for name, (scn, build_args, with_sens) in specs.items():
@@ -166,7 +167,7 @@ def books(tmp_path_factory):
     return cases
 
 
-BASE_CASES = ("demo", "equity", "macrs", "capped")
+BASE_CASES = ("demo", "equity", "macrs", "capped", "layout")
 
 
 # --------------------------------------------------------------------------- agreement with the engine
@@ -273,6 +274,28 @@ def test_a_held_debt_that_no_longer_fits_is_flagged(books):
     sheet = c.values["Checks"]
     results = {sheet.cell(r, 1).value: sheet.cell(r, 2).value for r in range(5, sheet.max_row + 1)}
     assert results["Present value of debt service at the interest rate equals the debt"] == 0
+
+
+def test_the_layout_workbook_shows_the_rose_the_wakes_and_the_long_term(books):
+    """Reference engine: LibreOffice. The wake loss on Inputs is the engine's computed one, so the live net
+    energy equals the engine's (above); the Energy sheet holds the sector, turbine and long-term tables."""
+    c = books["layout"]
+    e = c.case.energy
+    assert named(c.values, "loss_wake") == pytest.approx(e.wake_loss, rel=1e-15)
+    ws = c.values["Energy"]
+    col_a = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value is not None}
+    turbine = e.wake["per_turbine"][4]
+    r = col_a[turbine["name"]]
+    assert ws.cell(r, 6).value == pytest.approx(turbine["wake_loss"], rel=1e-12)
+    farm = next(v for k, v in col_a.items() if str(k).startswith("Farm"))
+    assert ws.cell(farm, 6).value == pytest.approx(e.wake["farm_loss"], rel=1e-12)
+    assert ws.cell(col_a["Correlation r"], 2).value == pytest.approx(e.long_term["r"], rel=1e-12)
+    assert ws.cell(col_a["Site mean, long term (used) [m/s]"], 2).value == pytest.approx(
+        e.long_term["site_mean_long_term_mps"], rel=1e-12)
+    head = col_a["Sector (wind from) [deg]"]
+    freqs = [ws.cell(head + 1 + s, 2).value for s in range(12)]
+    assert freqs == pytest.approx([row["frequency"] for row in e.wind_rose["rows"]], rel=1e-12)
+    assert len(c.formulas["Energy"]._charts) == 1
 
 
 # --------------------------------------------------------------------------- integrity

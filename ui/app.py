@@ -32,7 +32,6 @@ from lcoe.inputs.schema import MAX_TRIALS
 from lcoe.outputs import report as rp
 from lcoe.outputs import workbook
 from lcoe.physics import energy as en
-from lcoe.physics import wind as resource
 
 ASSUMPTIONS = assumptions_dir()
 
@@ -302,7 +301,7 @@ def tab_energy(scn, case) -> None:
     curve = pd.DataFrame({"speed": v, "power": site.site_curve.power_kw(v)})
     pdf = None
     if np.isfinite(c.scale_mps) and np.isfinite(c.shape):
-        pdf = pd.DataFrame({"speed": v, "pdf": resource.weibull_pdf(v, c.scale_mps, c.shape)})
+        pdf = pd.DataFrame({"speed": v, "pdf": c.pdf(v)})
     left, right = st.columns(2)
     with left:
         st.markdown("**Power curve over the wind-speed distribution at hub height**")
@@ -318,6 +317,41 @@ def tab_energy(scn, case) -> None:
         d = e.report()
         st.caption(" · ".join(f"{name} {rp.fmt(d[k], how)} {unit}" for k, (name, unit, how) in rp.ENERGY_LABELS.items()
                               if k in ("gross_aep_mwh", "net_aep_p90_10yr_mwh", "net_aep_p99_1yr_mwh", "sigma_1yr")))
+    if e.wind_rose is not None:
+        directions(e)
+
+
+def directions(e) -> None:
+    """The wind rose, and the wake and long-term figures of the report, under the energy charts."""
+    rose = e.wind_rose
+    w = rose["width_deg"]
+    rows = pd.DataFrame([{"start": r["centre_deg"] - w / 2, "end": r["centre_deg"] + w / 2,
+                          "frequency": 100 * r["frequency"], "share": 100 * (r["gross_share"] or 0.0),
+                          "mean": r["mean_speed_mps"], "label": f"from {r['centre_deg']:.0f}°",
+                          **({"wake": 100 * r["wake_loss"]} if "wake_loss" in r else {})} for r in rose["rows"]])
+    left, right = st.columns(2)
+    with left:
+        st.markdown(f"**Wind rose at hub height ({rose['sectors']} sectors, {rose['source']})**")
+        charts.draw(charts.wind_rose, sectors=rows)
+        st.caption("Each wedge is a direction the wind comes from, north at the top; its length is the share of "
+                   "the time, its shade the share of the gross energy.")
+    with right:
+        if e.wake is not None:
+            wk = e.wake
+            st.markdown(f"**Wake loss of the layout: {100 * wk['farm_loss']:.2f} %** (per turbine "
+                        f"{100 * wk['turbine_loss_min']:.2f} to {100 * wk['turbine_loss_max']:.2f} %)")
+            st.dataframe(pd.DataFrame([{"Turbine": t["name"], "x [m]": round(t["x_m"], 1), "y [m]": round(t["y_m"], 1),
+                                        "Wake loss [%]": round(100 * t["wake_loss"], 2)} for t in wk["per_turbine"]]),
+                         hide_index=True, height=240)
+            st.caption(f"Jensen/Park top-hat wakes, k = {wk['wake_decay_constant']:g} ({wk['location']}); thrust: "
+                       f"{wk['thrust']}.")
+        if e.long_term is not None:
+            lt = e.long_term
+            st.markdown(f"**Long-term correction ({lt['method'].replace('_', ' ')})**: r = {lt['r']:.3f} over "
+                        f"{lt['concurrent_years']:.2f} concurrent years against {lt['reference_years']:.1f} reference "
+                        f"years; site mean {lt['site_mean_short_term_mps']:.2f} m/s measured, "
+                        f"{lt['site_mean_long_term_mps']:.2f} m/s long term; uncertainty "
+                        f"{100 * lt['uncertainty_speed_sd']:.2f} % of the speed.")
 
 
 CASH_LINES = {"revenue": "Revenue", "opex": "O&M", "tax": "Tax", "cfads": "CFADS", "debt_service": "Debt service",

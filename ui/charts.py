@@ -54,6 +54,26 @@ def power_curve(curve: pd.DataFrame, pdf: pd.DataFrame | None = None) -> alt.Cha
     return alt.layer(area, line).resolve_scale(y="independent").properties(height=320)
 
 
+def wind_rose(sectors: pd.DataFrame) -> alt.Chart:
+    """sectors: start, end (compass degrees the wind comes from, clockwise from north), frequency [%],
+    share (of gross energy) [%], mean [m/s], label; wake [%] where a layout is given."""
+    tips = ["label", alt.Tooltip("frequency:Q", format=".2f", title="time [%]"),
+            alt.Tooltip("share:Q", format=".2f", title="gross energy [%]"),
+            alt.Tooltip("mean:Q", format=".2f", title="mean speed [m/s]")]
+    if "wake" in sectors:
+        tips.append(alt.Tooltip("wake:Q", format=".2f", title="wake loss [%]"))
+    angle = alt.Scale(domain=[0, 360], range=[0, 6.283185307179586])
+    wedges = alt.Chart(sectors).mark_arc(stroke="white", strokeWidth=1).encode(
+        theta=alt.Theta("start:Q", scale=angle), theta2="end:Q",
+        radius=alt.Radius("frequency:Q", scale=alt.Scale(type="sqrt", zero=True, rangeMin=0, rangeMax=120), title="time [%]"),
+        color=alt.Color("share:Q", title="Gross energy [%]", scale=alt.Scale(scheme="blues")),
+        tooltip=tips)
+    compass = pd.DataFrame({"deg": [0, 90, 180, 270], "text": ["N", "E", "S", "W"]})
+    marks = alt.Chart(compass).mark_text(radius=138, fontSize=13, fontWeight="bold", color=GREY).encode(
+        theta=alt.Theta("deg:Q", scale=angle), text="text:N")
+    return alt.layer(wedges, marks).properties(height=320)
+
+
 def energy_by_year(years: pd.DataFrame) -> alt.Chart:
     """years: year, energy [MWh], availability [%]."""
     base = alt.Chart(years).encode(x=alt.X("year:O", title="Operating year"))

@@ -39,7 +39,7 @@ def input_groups(scn) -> list[tuple[str, list[dict]]]:
         wind.append(_f("wind.mean_speed_mps", f"Mean wind speed at {w.height_m:g} m", "m/s", 0.1))
     elif w.weibull_scale_mps is not None:
         wind.append(_f("wind.weibull_scale_mps", f"Weibull scale A at {w.height_m:g} m", "m/s", 0.1))
-    if w.timeseries is None:
+    if w.timeseries is None and w.rose is None:
         wind.append(_f("wind.weibull_shape", "Weibull shape k", "-", 0.05))
     if w.roughness_length_m is not None:
         wind.append(_f("wind.roughness_length_m", "Roughness length (log law)", "m", 0.01, "%.3f"))
@@ -64,7 +64,10 @@ def input_groups(scn) -> list[tuple[str, list[dict]]]:
 
     losses = [_f(f"losses.{k}", label, "%", 0.5, "%.2f", "pct") for k, label in (
         ("wake", "Wake loss"), ("electrical", "Electrical loss"), ("turbine_performance", "Turbine performance loss"),
-        ("environmental", "Environmental loss"), ("curtailment", "Curtailment"), ("other", "Other losses"))]
+        ("environmental", "Environmental loss"), ("curtailment", "Curtailment"), ("other", "Other losses"))
+        if not (k == "wake" and scn.layout is not None)]     # with a layout the wake loss is computed
+    if scn.layout is not None:
+        losses.insert(0, _f("layout.wake_decay_constant", "Wake decay constant (layout)", "-", 0.005, "%.3f"))
     losses += [_f("operations.availability_first_year", "Availability, first year", "%", 0.5, "%.2f", "pct"),
                _f("operations.availability_mature", "Availability, later years", "%", 0.5, "%.2f", "pct"),
                _i("operations.ageing_starts_year", "Availability falls after year", "year"),
@@ -163,6 +166,9 @@ def input_widgets(scn, token: str) -> dict:
         with st.sidebar.expander(group, expanded=gi == 0):
             if group == "Wind" and scn.wind.timeseries is not None:
                 st.caption(f"Hourly wind series: `{scn.wind.timeseries}`")
+            if group == "Wind" and scn.wind.long_term is not None:
+                st.caption(f"Corrected to the long term against `{scn.wind.long_term.reference}` "
+                           f"({scn.wind.long_term.method.replace('_', ' ')})")
             if group == "Turbine" and scn.turbine.power_curve is not None:
                 st.caption(f"Power curve table `{scn.turbine.power_curve}`: {scn.turbine.rated_power_kw:,.0f} kW, "
                            f"rotor {scn.turbine.rotor_diameter_m:g} m")

@@ -1,7 +1,7 @@
 """Uploaded scenarios in the app, read so that no server file is ever shown.
 
-An uploaded scenario's data files (the power curve, the wind series, in the file or in a
-variant) come only from the files uploaded with it, matched by file name, or from the
+An uploaded scenario's data files (the power curve, the wind series, the long-term
+reference, the layout's positions; in the file or in a variant) come only from the files uploaded with it, matched by file name, or from the
 bundled demo files; a path naming anything else on the server (an absolute path, a
 ``../..`` climb, a link out of the bundle) is refused before it is opened. Messages shown
 in the browser name the uploaded files, never a server path, and quote file content only
@@ -21,7 +21,7 @@ from lcoe.inputs.errors import ScenarioError, cut
 from lcoe.inputs.paths import MAX_SCENARIO_BYTES
 from lcoe.inputs.toml import parse_toml_text
 
-DATA_KEYS = ("turbine.power_curve", "wind.timeseries")
+DATA_KEYS = ("turbine.power_curve", "wind.timeseries", "wind.long_term.reference", "layout.positions")
 _SAFE_NAME = re.compile(r"[^A-Za-z0-9._ -]")
 
 
@@ -52,8 +52,10 @@ def clear(folder: Path | None) -> None:
 def _data_paths(raw: dict):
     """(where, dotted key, path) of every data file a scenario names, its variants' included."""
     for key in DATA_KEYS:
-        section, field = key.split(".")
-        table = raw.get(section)
+        *tables, field = key.split(".")
+        table = raw
+        for part in tables:
+            table = table.get(part) if isinstance(table, dict) else None
         if isinstance(table, dict) and field in table:
             yield (table, field), key, table[field]
     variants = raw.get("variants")

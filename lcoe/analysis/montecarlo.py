@@ -5,7 +5,8 @@ Each trial draws
 * the inputs of ``[montecarlo.vary.KEY]`` (normal, lognormal, triangular, uniform), by
   plain random sampling (correlated through a Gaussian copula) or Latin hypercube
   sampling within each random-number block (correlated by Iman-Conover reordering);
-* a long-term wind-speed factor from ``[[uncertainty.speed]]`` and an independent
+* a long-term wind-speed factor from ``[[uncertainty.speed]]`` (with the long-term
+  correction's own term where the wind is corrected to the long term) and an independent
   factor for every year from ``uncertainty.interannual_speed_sd``; both scale the
   hub-height speeds, and energy follows from the model's own AEP(scale) curve;
 * an energy factor from ``[[uncertainty.energy]]``;
@@ -38,6 +39,7 @@ from lcoe.finance.cashflow import Sample
 from lcoe.inputs import keys
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.keys import numeric_value
+from lcoe.physics import energy as en
 from lcoe.inputs.scenario import vary_refusal
 from lcoe.inputs.schema import MAX_TRIALS
 
@@ -297,7 +299,7 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
     """Everything random for ``n`` trials: (vary inputs, Sample)."""
     inputs = draw_inputs(scn, n, rng)
     u = scn.uncertainty
-    lt_sd = math.sqrt(sum(x.sd ** 2 for x in u.speed))
+    lt_sd = math.sqrt(sum(sd ** 2 for _, sd in en.speed_terms(scn)))
     en_sd = math.sqrt(sum(x.sd ** 2 for x in u.energy))
     z_lt = rng.standard_normal((n, 1))
     z_iav = rng.standard_normal((n, lifetime))

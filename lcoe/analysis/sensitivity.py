@@ -240,7 +240,8 @@ def swing_values(scn, key: str) -> tuple[float, float, str]:
 
 
 def default_inputs(scn) -> list[str]:
-    """The tornado's default inputs: the [montecarlo.vary] keys, the main drivers and the energy uncertainty.
+    """The tornado's default inputs: the [montecarlo.vary] keys, the main drivers (with a layout, the wake
+    decay constant) and the energy uncertainty.
 
     Drivers whose scenario value is zero (and that have no distribution) are left
     out: +-10 % of nothing moves nothing.
@@ -252,6 +253,8 @@ def default_inputs(scn) -> list[str]:
     drivers = ([speed] if speed else []) + list(DRIVERS)
     if scn.finance.debt is not None:
         drivers.append("finance.debt.interest_rate")
+    if scn.layout is not None:
+        drivers.append("layout.wake_decay_constant")     # the wakes of the layout, in place of losses.wake
     for k in drivers:
         if k not in keys and base_value(scn, k) != 0:
             keys.append(k)

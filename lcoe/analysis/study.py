@@ -30,6 +30,7 @@ class Report:
             "scenario": c.scenario.project.name,
             "warnings": warnings,
             "energy": c.energy.report(),
+            **directions_blocks(c.energy),
             "costs": costs_block(c),
             "metrics": dict(c.metrics),
             "annual": c.annual(),
@@ -57,7 +58,7 @@ class Report:
 
 def series_block(series) -> dict:
     """How a wind series was read: its time step, span, missing share and data in each calendar month."""
-    return {"step_minutes": series.step_s / 60.0, "years": series.years, "hours": series.hours,
+    return {"step_minutes": series.step_s / 60.0, "years": series.years, "hours": series.hours * series.step_h,
             "coverage_by_month": {m[:3].lower(): c for m, c in zip(resource.MONTHS, series.month_coverage)},
             "weighting": "each calendar month by its length (days / 365.2425), whatever its share of the record"}
 
@@ -76,6 +77,16 @@ def montecarlo_null_reasons(mc, block: dict) -> list[str]:
     for key, se in (block.get("p90_standard_error") or {}).items():
         if se is None and block.get(key, {}).get("p50") is not None:
             out.append(f"montecarlo.p90_standard_error.{key} is null: fewer than 10 trials define {key}")
+    return out
+
+
+def directions_blocks(energy) -> dict:
+    """The ``wind_rose``, ``wake`` and ``long_term`` blocks of a run, each only where the scenario has it."""
+    out = {}
+    for key in ("wind_rose", "wake", "long_term"):
+        block = getattr(energy, key)
+        if block is not None:
+            out[key] = block
     return out
 
 

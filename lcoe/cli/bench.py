@@ -3,7 +3,8 @@
 Times in one run (a) the full Monte Carlo through the batch engine, (b) the same
 trials through a straightforward loop, one trial at a time, with numpy-financial's
 ``npv`` and ``irr`` (timed on a subsample and scaled: the output says so), (c) one
-deterministic run with the site cached, (d) the Weibull AEP integral, and the peak
+deterministic run with the site cached, (d) the Weibull AEP integral, (e) the wake
+losses of a 50-turbine grid over a 12-sector rose in 1 m/s speed bins, and the peak
 memory of the process. The loop and the engine are checked against each other on
 the subsample.
 """
@@ -25,6 +26,11 @@ from lcoe.finance.tax import depreciation_shares
 from lcoe.inputs import scenario
 from lcoe.inputs.schema import LOSS_CATEGORIES
 from lcoe.physics import energy as en
+from lcoe.physics import layout, rose, wake
+
+# the wake benchmark: a 5 x 10 grid (7 and 4 rotor diameters) over an invented 12-sector rose
+WAKE_ROWS, WAKE_COLUMNS, WAKE_SECTORS, WAKE_BIN_MPS = 5, 10, 12, 1.0
+WAKE_FREQUENCY = (0.05, 0.04, 0.05, 0.06, 0.07, 0.09, 0.12, 0.15, 0.14, 0.10, 0.07, 0.06)
 
 DEMO = demo_scenario()
 
@@ -53,7 +59,7 @@ def _carry_forward(taxable: float, pool: float, rate: float) -> tuple[float, flo
 
 def table_ratio(site, f: float) -> float:
     """AEP(f)/AEP(1) from the site's table for one factor, looked up step by step (a plain
-    second implementation of :meth:`lcoe.physics.energy.Site.ratio_at_factor`)."""
+    second implementation of :meth:`lcoe.physics.site.Site.ratio_at_factor`)."""
     grid = site.factors
 
     def direct():
@@ -88,8 +94,9 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     L, n = scn.lifetime, scn.project.turbines
     kw = get("turbine.rated_power_kw", scn.turbine.rated_power_kw) * n
     lf = 1.0
+    used = en.losses_used(scn, site)     # the wake loss of a layout where there is one
     for name in LOSS_CATEGORIES:
-        lf *= 1.0 - get(f"losses.{name}", getattr(scn.losses, name))
+        lf *= 1.0 - get(f"losses.{name}", used[name])
     o, m, c, r, f = scn.operations, scn.maintenance, scn.capex, scn.revenue, scn.finance
     mature = get("operations.availability_mature", o.availability_mature)
     first = get("operations.availability_first_year", scn.availability_first_year)
@@ -212,6 +219,20 @@ def _shape_vary_s(scn, trials: int) -> float | None:
     return time.perf_counter() - t0
 
 
+def wake_case(site):
+    """The wake benchmark's inputs on the scenario's turbine: (x, y, D, k, probabilities, edges, power, thrust)."""
+    d = site.curve.rotor_diameter_m
+    grid = layout.grid_layout(WAKE_ROWS, WAKE_COLUMNS, 7.0, 4.0, 90.0, d)
+    a = site.climate.scale_mps if np.isfinite(site.climate.scale_mps) else 8.0
+    r = rose.rose_from_table(WAKE_FREQUENCY, [a * (0.85 + 0.3 * f / max(WAKE_FREQUENCY)) for f in WAKE_FREQUENCY],
+                             [2.0] * WAKE_SECTORS)
+    top = float(np.max(site.site_curve.breaks_mps))
+    edges = np.arange(0.0, np.ceil(top / WAKE_BIN_MPS) * WAKE_BIN_MPS + WAKE_BIN_MPS + 1e-9, WAKE_BIN_MPS)
+    rho = site.climate.density_kgm3
+    return (grid.x_m, grid.y_m, d, wake.DECAY_ONSHORE, r.bin_probabilities(edges), edges, site.site_curve.power_kw,
+            lambda v: site.curve.thrust_coefficient_at(v, rho))
+
+
 def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: int = 5) -> dict:
     """Time the engine; ``engine_s`` is the median of ``repeat`` Monte Carlo runs."""
 
@@ -259,6 +280,8 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
     c = site.climate
     aep_ms = 1000.0 * _median_time(lambda: en.aep_weibull_mwh(site.site_curve, c.scale_mps, c.shape,
                                                               scn.project.turbines), 50)
+    case_w = wake_case(site)
+    wake_ms = 1000.0 * _median_time(lambda: wake.farm_wake(*case_w), 5)
     return {
         "scenario": str(path),
         "trials": trials,
@@ -272,6 +295,9 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
         "deterministic_ms": deterministic_ms,
         "aep_ms": aep_ms,
         "shape_vary_s": shape_s,
+        "wake_ms": wake_ms,
+        "wake_case": f"{WAKE_ROWS * WAKE_COLUMNS} turbines, {WAKE_SECTORS} sectors, {WAKE_BIN_MPS:g} m/s bins, "
+                     "1 degree directions",
         "peak_rss_mb": _peak_rss_mb(),
         "chunk_size": scn.montecarlo.chunk_size,
     }
@@ -300,5 +326,6 @@ def cmd_bench(args) -> int:
         print(f"  The same with the Weibull shape drawn too:      {res['shape_vary_s']:.3f} s (one run)")
     print(f"  One deterministic run (site cached):            {res['deterministic_ms']:.2f} ms")
     print(f"  Weibull AEP integral:                           {res['aep_ms']:.3f} ms")
+    print(f"  Wake losses ({res['wake_case']}): {res['wake_ms']:.1f} ms")
     print(f"  Peak memory:                                    {res['peak_rss_mb']:.0f} MB")
     return 0

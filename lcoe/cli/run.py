@@ -28,14 +28,22 @@ def _check_trials(trials, option="--trials") -> None:
 def cmd_check(args) -> int:
     scn = _load(args.file)
     with scenario.naming_the_file(scn):
-        e = energy.energy_of(scn)  # reads and checks the curve and series files too
+        e = energy.energy_of(scn)  # reads and checks the curve, series, reference and layout files too
         for name in scn.variants:
             energy.energy_of(scn.variant(name))
         montecarlo.refuse_idle_inputs(scn)
     print(f"{args.file}: ok ({scn.project.name}, {scn.lifetime} years, {scn.project.turbines} turbines, "
           f"{len(scn.variants)} variant(s))")
+    if e.wake is not None:
+        w = e.wake
+        print(f"layout: {w['turbines']} turbine(s) ({w['layout']}), {rp.spacing_text(w)}; wake loss "
+              f"{100 * w['farm_loss']:.2f} %")
+    if e.long_term is not None:
+        lt = e.long_term
+        print(f"long-term reference: {lt['reference']} covers the site period; {100 * lt['coverage']:.1f} % "
+              f"concurrent ({lt['concurrent_pairs']:,} records), r = {lt['r']:.3f}")
     series = energy.site_for(scn).climate.series
-    if series is not None:
+    if series is not None and series.weights is not None:
         print(f"series: {series.step_text} steps over {series.years:.1f} years; months of data in each calendar "
               "month (each weighs by its length):")
         cells = [f"{m[:3]} {c:4.1f}" for m, c in zip(resource.MONTHS, series.month_coverage)]

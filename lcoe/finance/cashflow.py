@@ -117,27 +117,32 @@ def _speed_factor(scn, inp: Inputs, site: en.Site):
 
 def _gross(scn, inp: Inputs, site: en.Site, trials: bool = False):
     """Gross AEP per row (n, 1), the hub-speed factor of overridden speed keys, the speed
-    sensitivity per row, and whether the factor must still be applied through the table.
+    sensitivity per row, and the wake loss of the layout per row (None without a layout).
+
+    The wake loss is a fraction computed for the long-term climate: it follows the rows
+    whose climate, turbine or layout is changed, and stays as it is under a speed factor.
     ``trials``: the rows are Monte Carlo trials (a drawn Weibull shape reads its table)."""
-    others = [k for k in inp.over if (k.startswith("wind.") or k.startswith("turbine.")) and k not in SPEED_KEYS]
+    others = [k for k in inp.over if k.split(".")[0] in ("wind", "turbine", "layout") and k not in SPEED_KEYS]
     inp.read.update(others)     # read by integrating the changed curve or climate
+    wake = en.wake_loss_of(scn, site)
     if not others:
         factor = _speed_factor(scn, inp, site)
         if np.ndim(factor) == 0:
-            return site.gross_aep_mwh, factor, site.speed_sensitivity
+            return site.gross_aep_mwh, factor, site.speed_sensitivity, wake
         gross = site.gross_at_factor(factor)
         lo, hi = site.ratio_at_factor(0.99 * factor), site.ratio_at_factor(1.01 * factor)
         with np.errstate(divide="ignore", invalid="ignore"):
             sens = np.log(hi / lo) / np.log(1.01 / 0.99)
-        return gross, factor, sens
-    if others == ["wind.weibull_shape"] and trials and scn.wind.timeseries is None:
+        return gross, factor, sens, wake
+    if others == ["wind.weibull_shape"] and trials and scn.wind.timeseries is None and scn.wind.rose is None \
+            and scn.layout is None:
         # Monte Carlo trials drawing the shape read its table, as trials drawing the speed read theirs
         factor = _speed_factor(scn, inp, site)
         fixed = "mean" if scn.wind.mean_speed_mps is not None else "scale"
         k = np.broadcast_to(inp.over["wind.weibull_shape"], (inp.n, 1))
         if np.ndim(factor) == 0:
             gross, sens = en.gross_at_shape(site, fixed, k)
-            return gross, 1.0, sens
+            return gross, 1.0, sens, wake
         # the speed drawn too: one integration per trial, all trials in one array operation
         c = site.climate
         a = (resource.weibull_scale_from_mean(c.mean_speed_mps, k) if fixed == "mean"
@@ -146,19 +151,22 @@ def _gross(scn, inp: Inputs, site: en.Site, trials: bool = False):
         gross, lo, hi = rows(1.0), rows(0.99), rows(1.01)
         with np.errstate(divide="ignore", invalid="ignore"):
             sens = np.where((lo > 0) & (hi > 0), np.log(hi / lo) / np.log(1.01 / 0.99), np.nan)
-        return gross, 1.0, sens
+        return gross, 1.0, sens, wake
     # other climate or turbine keys change the curve or the distribution: integrate each distinct row
     others += [k for k in SPEED_KEYS if inp.has(k)]
     stack = np.hstack([np.broadcast_to(inp.over[k], (inp.n, 1)) for k in others])
     uniq, inverse = np.unique(stack, axis=0, return_inverse=True)
     gross = np.empty((uniq.shape[0], 1))
     sens = np.empty((uniq.shape[0], 1))
+    wakes = np.zeros((uniq.shape[0], 1))
     for j, row in enumerate(uniq):
-        s = en.site_for(scn.with_overrides({k: _typed(scn, k, v) for k, v in zip(others, row)}))
+        s_j = scn.with_overrides({k: _typed(scn, k, v) for k, v in zip(others, row)})
+        s = en.site_for(s_j)
         gross[j, 0] = s.gross_aep_mwh
         sens[j, 0] = s.speed_sensitivity
+        wakes[j, 0] = en.wake_loss_of(s_j, s) or 0.0
     inverse = np.asarray(inverse).ravel()
-    return gross[inverse], 1.0, sens[inverse]
+    return gross[inverse], 1.0, sens[inverse], (wakes[inverse] if wake is not None else None)
 
 
 def _typed(scn, key, value):
@@ -221,7 +229,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     n_turb = scn.project.turbines
     years = np.arange(1, L + 1)
     site = en.site_for(scn)
-    gross, key_factor, sens = _gross(scn, inp, site, trials=sample is not None)
+    gross, key_factor, sens, wake = _gross(scn, inp, site, trials=sample is not None)
     speed_ratio = speed_gross = None
     if sample is not None and sample.speed_factor is not None:
         # the trial's speed factors apply on top of any overridden mean speed
@@ -231,7 +239,9 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
             speed_gross, speed_ratio = gross, site.ratio_at_factor(sample.speed_factor)
 
     # ---- energy (t = 1..L)
-    lf = en.loss_factor([inp(f"losses.{name}", getattr(scn.losses, name)) for name in LOSS_CATEGORIES])
+    # with a layout the wake loss is computed (losses.wake is not read, so an override of it is refused)
+    lf = en.loss_factor([wake if name == "wake" and wake is not None else inp(f"losses.{name}", getattr(scn.losses, name))
+                         for name in LOSS_CATEGORIES])
     o = scn.operations
     mature = inp("operations.availability_mature", o.availability_mature)
     first = inp("operations.availability_first_year", scn.availability_first_year)
@@ -250,7 +260,8 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     # ---- P-case factors (for debt sizing): sigma from the sensitivity and the uncertainty terms
     u = scn.uncertainty
     sig1, sig10 = en.sigmas(sens, inp("uncertainty.interannual_speed_sd", u.interannual_speed_sd),
-                            [inp(f"uncertainty.speed.{x.name}.sd", x.sd) for x in u.speed],
+                            [inp(f"uncertainty.speed.{x.name}.sd", x.sd) for x in u.speed]
+                            + [sd for _, sd in en.derived_speed_terms(scn, site)],
                             [inp(f"uncertainty.energy.{x.name}.sd", x.sd) for x in u.energy])
     factors = {k: np.broadcast_to(np.asarray(v, float).reshape(-1, 1), (np.size(sig1), 1))
                for k, v in en.case_factors(sig1, sig10).items()}

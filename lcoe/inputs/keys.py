@@ -150,6 +150,8 @@ def numeric_value(scn: ScenarioFields, key: str) -> float:
             if node is None:
                 if key in DERIVED_DEFAULTS:
                     return float(scn.derived(key))
+                if key == "layout.wake_decay_constant" and scn.layout is not None:
+                    return float(scn.layout.decay_constant)
                 if key == "wind.shear_exponent":
                     return float(scn.wind.alpha)
                 raise ScenarioError("is not set in this scenario", key=key, has_value=False)

@@ -375,6 +375,33 @@ def _cross_checks(scn: Scenario) -> None:
         if c.between[0] == c.between[1]:
             raise ScenarioError("must name two different inputs", key=f"montecarlo.correlation[{i}].between",
                                 value=c.between[0])
+    _layout_checks(scn)
+
+
+def _layout_checks(scn: Scenario) -> None:
+    """A layout replaces the typed wake loss and needs wind directions; its grid holds project.turbines."""
+    lay = scn.layout
+    if lay is None:
+        return
+    w = scn.wind
+    if w.rose is None and w.timeseries is None:
+        raise ScenarioError("a layout needs wind directions: give [wind.rose], or a wind.timeseries with a "
+                            "direction_deg column", key="layout", has_value=False)
+    if "wake" in (scn._raw.get("losses") or {}):
+        raise ScenarioError("cannot be given together with [layout]: the wake loss is computed from the layout",
+                            key="losses.wake", value=scn.losses.wake)
+    if lay.positions is None and lay.rows * lay.columns != scn.project.turbines:
+        raise ScenarioError(f"must equal the grid's layout.rows x layout.columns = {lay.rows * lay.columns}",
+                            key="project.turbines", value=scn.project.turbines)
+    for name in scn.montecarlo.vary:
+        if name == "losses.wake":
+            raise ScenarioError("cannot vary with a [layout]: the wake loss is computed from the layout (its "
+                                "uncertainty is an [[uncertainty.energy]] term)", key=f"montecarlo.vary.{name}",
+                                has_value=False)
+        if name.split(".")[0] in ("layout", "wind", "turbine"):
+            raise ScenarioError("cannot vary between trials with a [layout]: each value needs its own wake "
+                                "computation; use a sweep or variants", key=f"montecarlo.vary.{name}",
+                                has_value=False)
 
 
 def vary_refusal(scn: Scenario, key: str) -> str | None:
@@ -407,7 +434,8 @@ def vary_refusal(scn: Scenario, key: str) -> str | None:
         return "sets the spread of the wind and energy draws; it is not itself drawn"
     w, t, r, o = scn.wind, scn.turbine, scn.revenue, scn.operations
     unused = {
-        "wind.weibull_shape": w.timeseries is not None and "the distribution comes from wind.timeseries",
+        "wind.weibull_shape": (w.timeseries is not None and "the distribution comes from wind.timeseries") or
+        (getattr(w, "rose", None) is not None and "the wind rose gives each sector's shape"),
         "wind.max_missing_share": "it only decides whether the series is accepted",
         "wind.shear_exponent": w.roughness_length_m is not None and "the log law (wind.roughness_length_m) "
                                                                     "sets the shear",
@@ -454,9 +482,11 @@ def input_files(scn: Scenario) -> list[tuple[str, Path]]:
                 one = scn.variant(name)
             except ScenarioError:
                 continue
-        for key in ("turbine.power_curve", "wind.timeseries"):
-            rel = getattr(getattr(one, key.split(".")[0]), key.split(".")[1])
-            if rel is not None:
+        for key in ("turbine.power_curve", "wind.timeseries", "wind.long_term.reference", "layout.positions"):
+            rel: Any = one
+            for part in key.split("."):
+                rel = getattr(rel, part, None) if rel is not None else None
+            if isinstance(rel, str):
                 label = f"{key} of variant {name}" if name else key
                 out.append((label, one.resolve(rel)))
     return out

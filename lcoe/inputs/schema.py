@@ -45,6 +45,39 @@ class Project(_Model):
     turbines: Annotated[int, Field(ge=1, le=10000)]
 
 
+Sectors = Annotated[int, Field(ge=4, le=72)]
+
+
+class Rose(_Model):
+    """Wind directions by sector at ``wind.height_m``: sector i is centred on i * 360 / n degrees
+    (0 = north, clockwise; the direction the wind comes from)."""
+
+    frequency: Annotated[list[Annotated[float, Field(ge=0.0, le=1.0)]], Field(min_length=4, max_length=72)]
+    weibull_scale_mps: Annotated[list[Annotated[float, Field(gt=0.0, lt=45.0)]], Field(min_length=4, max_length=72)]
+    weibull_shape: Annotated[list[Annotated[float, Field(ge=0.5, le=10.0)]], Field(min_length=4, max_length=72)]
+
+    @model_validator(mode="after")
+    def _sectors(self) -> "Rose":
+        n = len(self.frequency)
+        for name in ("weibull_scale_mps", "weibull_shape"):
+            if len(getattr(self, name)) != n:
+                raise _Cross(f"wind.rose.{name}", getattr(self, name),
+                             f"has {len(getattr(self, name))} value(s) but wind.rose.frequency has {n}; "
+                             "give one value per sector")
+        total = sum(self.frequency)
+        if abs(total - 1.0) > 0.01:
+            raise _Cross("wind.rose.frequency", self.frequency,
+                         f"must sum to 1 (each sector's share of the time); these sum to {total:.4g}")
+        return self
+
+
+class LongTerm(_Model):
+    """Long-term correction of ``wind.timeseries`` (the site's short measurement) against a long reference."""
+
+    reference: Annotated[str, Field(min_length=1)]
+    method: Literal["variance_ratio", "linear_regression"] = "variance_ratio"
+
+
 class Wind(_Model):
     height_m: Pos
     # no measured site has a long-term mean above 20 m/s (a series in km/h reads as 25-30)
@@ -58,19 +91,33 @@ class Wind(_Model):
     mean_temperature_c: Annotated[float, Field(ge=-60.0, le=60.0)] = 15.0
     air_density_kgm3: Annotated[float, Field(ge=0.5, le=1.6)] | None = None
     max_missing_share: Annotated[float, Field(ge=0.0, lt=1.0)] = 0.2
+    rose: Rose | None = None
+    sectors: Sectors | None = None
+    long_term: LongTerm | None = None
 
     @model_validator(mode="after")
     def _one_source(self) -> "Wind":
-        given = [k for k in ("mean_speed_mps", "weibull_scale_mps", "timeseries")
+        given = [k for k in ("mean_speed_mps", "weibull_scale_mps", "timeseries", "rose")
                  if getattr(self, k) is not None]
         if len(given) == 0:
-            raise _Cross("wind", None, "give exactly one of mean_speed_mps, weibull_scale_mps or timeseries",
+            raise _Cross("wind", None, "give exactly one of mean_speed_mps, weibull_scale_mps, timeseries or rose",
                          has_value=False)
         if len(given) > 1:
-            raise _Cross(f"wind.{given[1]}", getattr(self, given[1]),
-                         f"cannot be given together with wind.{given[0]}; give exactly one of "
-                         "mean_speed_mps, weibull_scale_mps or timeseries")
-        if self.timeseries is None and self.weibull_shape is None:
+            value = getattr(self, given[1])
+            raise _Cross(f"wind.{given[1]}", value, f"cannot be given together with wind.{given[0]}; give exactly "
+                         "one of mean_speed_mps, weibull_scale_mps, timeseries or rose",
+                         has_value=not isinstance(value, BaseModel))
+        if self.rose is not None:
+            if self.weibull_shape is not None:
+                raise _Cross("wind.weibull_shape", self.weibull_shape,
+                             "cannot be given together with wind.rose: each sector has its own weibull_shape")
+            if self.sectors is not None and self.sectors != len(self.rose.frequency):
+                raise _Cross("wind.sectors", self.sectors,
+                             f"differs from the {len(self.rose.frequency)} sectors of wind.rose")
+        if self.long_term is not None and self.timeseries is None:
+            raise _Cross("wind.long_term", None, "needs wind.timeseries: the site's short measurement to correct",
+                         has_value=False)
+        if self.timeseries is None and self.rose is None and self.weibull_shape is None:
             raise _Cross("wind.weibull_shape", None, "is required with a Weibull climate (k > 0)",
                          has_value=False)
         if self.shear_exponent is not None and self.roughness_length_m is not None:
@@ -116,6 +163,48 @@ class Turbine(_Model):
             if cut_out <= cut_in:
                 raise _Cross("turbine.cut_out_mps", cut_out, f"must be above turbine.cut_in_mps = {cut_in}")
         return self
+
+
+class Layout(_Model):
+    """Turbine positions (a CSV, or a regular grid) and the settings of the wake model."""
+
+    positions: Annotated[str, Field(min_length=1)] | None = None
+    rows: Annotated[int, Field(ge=1, le=1000)] | None = None
+    columns: Annotated[int, Field(ge=1, le=1000)] | None = None
+    row_spacing_diameters: Annotated[float, Field(ge=1.0, le=100.0)] | None = None
+    column_spacing_diameters: Annotated[float, Field(ge=1.0, le=100.0)] | None = None
+    row_bearing_deg: Annotated[float, Field(ge=0.0, le=360.0)] = 90.0
+    location: Literal["onshore", "offshore"] = "onshore"
+    wake_decay_constant: Annotated[float, Field(gt=0.0, le=0.2)] | None = None
+    speed_bin_mps: Annotated[float, Field(ge=0.1, le=2.0)] = 1.0
+    direction_step_deg: Annotated[float, Field(ge=0.5, le=30.0)] = 1.0
+
+    @model_validator(mode="after")
+    def _one_layout(self) -> "Layout":
+        grid = {k: getattr(self, k) for k in ("rows", "columns", "row_spacing_diameters",
+                                             "column_spacing_diameters")}
+        given = [k for k, v in grid.items() if v is not None]
+        if self.positions is not None and given:
+            raise _Cross(f"layout.{given[0]}", grid[given[0]],
+                         "cannot be given together with layout.positions; give a positions file or a grid")
+        if self.positions is None:
+            if not given:
+                raise _Cross("layout", None, "give positions (a CSV of x_m, y_m) or a grid (rows, columns, "
+                             "row_spacing_diameters, column_spacing_diameters)", has_value=False)
+            missing = [k for k in grid if grid[k] is None]
+            if missing:
+                raise _Cross(f"layout.{missing[0]}", None, "is required for a grid layout", has_value=False)
+            if self.rows * self.columns > 1000:
+                raise _Cross("layout.rows", self.rows, f"times layout.columns = {self.columns} gives more than "
+                             "1000 turbines")
+        return self
+
+    @property
+    def decay_constant(self) -> float:
+        """The wake decay constant: as given, else 0.075 onshore and 0.04 offshore (common practice)."""
+        if self.wake_decay_constant is not None:
+            return self.wake_decay_constant
+        return 0.04 if self.location == "offshore" else 0.075
 
 
 class Losses(_Model):
@@ -305,6 +394,7 @@ class ScenarioFields(_Model):
     losses: Losses = Losses()
     operations: Operations = Operations()
     maintenance: Maintenance = Maintenance()
+    layout: Layout | None = None
     capex: Capex
     revenue: Revenue
     finance: Finance
@@ -360,6 +450,8 @@ class ScenarioFields(_Model):
                        f"project.lifetime_years = {self.lifetime}; the years past the life are ignored")
         if self.wind.timeseries is not None and self.wind.weibull_shape is not None:
             out.append("wind.weibull_shape is ignored with wind.timeseries (the distribution comes from the series)")
+        if self.wind.sectors is not None and self.wind.timeseries is None and self.wind.rose is None:
+            out.append("wind.sectors is used only for a rose derived from a series; it is ignored here")
         if self.revenue.production_credit_years > self.lifetime and self.revenue.production_credit_per_mwh > 0:
             out.append(f"revenue.production_credit_years = {self.revenue.production_credit_years} is longer than "
                        f"the life; the credit ends with the project")

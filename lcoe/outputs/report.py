@@ -54,6 +54,7 @@ ENERGY_LABELS = {
     "speed_sensitivity": ("AEP sensitivity to speed", "dlnE/dlnv", "{:.3f}"),
     "sigma_1yr": ("Energy uncertainty (1 yr)", "%", "pct"),
     "sigma_10yr": ("Energy uncertainty (10 yr)", "%", "pct"),
+    "wake_loss": ("Wake loss", "%", "pct"),
 }
 
 
@@ -83,7 +84,14 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     lines.append("")
     lines.append("Energy")
     for k, (name, unit, how) in ENERGY_LABELS.items():
-        lines.append(f"  {_label(ENERGY_LABELS, k, cur):<{w}} {fmt(d['energy'][k], how):>14}")
+        label = _label(ENERGY_LABELS, k, cur)
+        if k == "wake_loss":
+            label = label.replace("Wake loss", "Wake loss, from the layout" if "wake" in d else "Wake loss, as given")
+        lines.append(f"  {label:<{w}} {fmt(d['energy'][k], how):>14}")
+    for block, table in (("wind_rose", rose_table), ("wake", wake_table), ("long_term", long_term_table)):
+        if block in d:
+            lines.append("")
+            lines.extend(table(d[block]))
     costs = d["costs"]
     lines.append("")
     lines.append("Costs")
@@ -104,6 +112,91 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
         lines.append("Warnings")
         lines.extend(f"  - {x}" for x in d["warnings"])
     return "\n".join(lines) + "\n"
+
+
+def _f(value, how: str) -> str:
+    return fmt(value, how)
+
+
+def rose_table(rose: dict) -> list[str]:
+    """The sector table: frequency, speeds, gross AEP and (with a layout) wake loss per sector."""
+    wake = "wake_loss" in rose["rows"][0]
+    head = (f"  {'Sector':>6} {'From [deg]':>10} {'Freq [%]':>9} {'Mean [m/s]':>10} {'A [m/s]':>8} {'k':>6} "
+            f"{'Gross [MWh/yr]':>15} {'Share [%]':>9}" + (f" {'Wake [%]':>9}" if wake else ""))
+    out = [f"Wind rose ({rose['sectors']} sectors of {rose['width_deg']:g} deg at hub height, {rose['source']})", head]
+    for r in rose["rows"]:
+        line = (f"  {r['sector']:>6} {r['centre_deg']:>10.0f} {_f(r['frequency'], 'pct'):>9} "
+                f"{_f(r['mean_speed_mps'], '{:.2f}'):>10} {_f(r['weibull_scale_mps'], '{:.2f}'):>8} "
+                f"{_f(r['weibull_shape'], '{:.2f}'):>6} {_f(r['gross_aep_mwh'], '{:,.0f}'):>15} "
+                f"{_f(r['gross_share'], 'pct'):>9}")
+        if wake:
+            line += f" {_f(r['wake_loss'], 'pct'):>9}"
+        out.append(line)
+    return out
+
+
+def wake_table(w: dict) -> list[str]:
+    """The wake loss of every turbine and of the farm."""
+    out = [f"Wake losses (Jensen/Park top hat, root-sum-square; k = {w['wake_decay_constant']:g}, {w['location']})",
+           f"  {w['turbines']} turbine(s) ({w['layout'][:40]}), {spacing_text(w)}",
+           f"  thrust coefficient: {w['thrust']}",
+           f"  {'Turbine':<12} {'x [m]':>11} {'y [m]':>11} {'Gross [MWh/yr]':>15} {'Waked [MWh/yr]':>15} "
+           f"{'Wake loss [%]':>14}"]
+    gross = waked = 0.0
+    for t in w["per_turbine"]:
+        gross += t["gross_aep_mwh"]
+        waked += t["waked_aep_mwh"]
+        out.append(f"  {t['name'][:12]:<12} {t['x_m']:>11,.1f} {t['y_m']:>11,.1f} {t['gross_aep_mwh']:>15,.0f} "
+                   f"{t['waked_aep_mwh']:>15,.0f} {_f(t['wake_loss'], 'pct'):>14}")
+    out.append(f"  {'Farm':<12} {'':>11} {'':>11} {gross:>15,.0f} {waked:>15,.0f} {_f(w['farm_loss'], 'pct'):>14}")
+    out.append(f"  per turbine {_f(w['turbine_loss_min'], 'pct')} to {_f(w['turbine_loss_max'], 'pct')} %; "
+               f"directions every {w['direction_step_deg']:g} deg, speed bins of {w['speed_bin_mps']:g} m/s")
+    return out
+
+
+def spacing_text(w: dict) -> str:
+    """The nearest pair of a layout in words ("one turbine" where there is no pair)."""
+    d = w["nearest_spacing_m"]
+    if d is None or not math.isfinite(d):
+        return "one turbine, no wakes"
+    return f"nearest pair {d:,.0f} m = {w['nearest_spacing_rotor_diameters']:.1f} rotor diameters"
+
+
+def long_term_table(lt: dict) -> list[str]:
+    """The long-term correction: the periods, the concurrent statistics, both methods and the result."""
+    method = lt["method"].replace("_", " ")
+    w = 32
+
+    def row(label, text):
+        return f"  {label:<{w}} {text}"
+
+    ratio = lt["long_term_over_short_term"]
+    return [
+        f"Long-term correction (measure-correlate-predict, {method})",
+        row("Reference file", lt["reference"][:60]),
+        row("Reference", f"{lt['reference_start']} to {lt['reference_end']}, {lt['reference_years']:.1f} years, "
+                         f"every {lt['reference_step_h']:g} h"),
+        row("Site series", f"{lt['site_start']} to {lt['site_end']}"),
+        row("Concurrent records", f"{lt['concurrent_pairs']:,} ({lt['concurrent_years']:.2f} years, "
+                                  f"{100 * lt['coverage']:.1f} % of the site period)"),
+        row("Correlation r", f"{lt['r']:.3f}"),
+        row("Mean, concurrent [m/s]", f"site {lt['site_mean_concurrent_mps']:.2f}, reference "
+                                      f"{lt['reference_mean_concurrent_mps']:.2f}; reference long term "
+                                      f"{lt['reference_mean_long_term_mps']:.2f}"),
+        row("Linear regression", f"slope {lt['regression_slope']:.4f}, offset {lt['regression_offset_mps']:+.3f} m/s"
+                                 f" -> long-term mean {lt['long_term_mean_regression_mps']:.2f} m/s"),
+        row("Variance ratio", f"slope {lt['variance_ratio_slope']:.4f}, offset {lt['variance_ratio_offset_mps']:+.3f}"
+                              f" m/s -> long-term mean {lt['long_term_mean_variance_ratio_mps']:.2f} m/s"),
+        row("Site mean, measured [m/s]", f"{lt['site_mean_short_term_mps']:.2f} (at the measurement height)"),
+        row("Site mean, long term [m/s]", f"{lt['site_mean_long_term_mps']:.2f} ({method}; x "
+                                          f"{'n/a' if ratio is None else f'{ratio:.4f}'} of the measured)"),
+        row("Veer, site - reference [deg]", "n/a" if lt["veer_deg"] is None else f"{lt['veer_deg']:+.1f}"),
+        row("Uncertainty of the long term", f"{100 * lt['uncertainty_speed_sd']:.2f} % of the mean speed "
+                                            f"(term {lt['uncertainty_term']!r})"),
+        row("", f"= {100 * lt['interannual_sd']:.2f} % x sqrt((1 - r^2) / {lt['concurrent_years']:.2f} + r^2 / "
+                f"{lt['reference_years']:.1f})"),
+        row("", f"inter-annual sd from the {lt['interannual_source']}"),
+    ]
 
 
 ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.0f}"),

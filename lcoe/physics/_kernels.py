@@ -1,6 +1,6 @@
 """Compiled inner loop of the energy table lookup (numba): AEP(f)/AEP(1) at speed factors f,
 the cell computed on the evenly spaced grid, the steps of hours crossing cut-out placed exactly.
-The array formula it repeats is :func:`lcoe.physics.energy._table_lookup` (tests/test_kernels.py).
+The array formula it repeats is :func:`lcoe.physics.site._table_lookup` (tests/test_kernels.py).
 """
 
 from __future__ import annotations
@@ -11,7 +11,7 @@ from numba import njit
 
 @njit(cache=True, nogil=True)
 def factor_table(x, grid, ratios, slopes, exact, steps, step_cum, starts, out):
-    """The AEP(f)/AEP(1) table at factors ``x`` (see :func:`lcoe.physics.energy._table_lookup`, its
+    """The AEP(f)/AEP(1) table at factors ``x`` (see :func:`lcoe.physics.site._table_lookup`, its
     array formula): on a grid factor its value; inside cell i, ratios[i] + w slopes[i]
     minus the steps between grid[i] and x; NaN outside the grid or in an exact cell.
     The grid is evenly spaced: the cell is computed, then checked against the grid."""

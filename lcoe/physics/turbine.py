@@ -53,6 +53,30 @@ def wind_power_kw(speed_mps, density_kgm3, area_m2, cp=1.0, efficiency=1.0):
     return 0.5 * density_kgm3 * area_m2 * cp * efficiency * v ** 3 / 1000.0
 
 
+def momentum_thrust_coefficient(cp) -> np.ndarray:
+    """Thrust coefficient of an ideal actuator disc with the given power coefficient. [-]
+
+    Cp = 4 a (1 - a)^2 is solved for the axial induction a in 0..1/3 (bisection), then
+    Ct = 4 a (1 - a). A power coefficient at or above the Betz limit gives a = 1/3,
+    Ct = 8/9; zero power gives Ct = 0. Taken from the electrical power of the curve, this
+    is a lower estimate of the rotor's thrust (drivetrain losses lower the Cp seen).
+
+    References
+    ----------
+    One-dimensional momentum theory of the actuator disc (Betz 1920), e.g. Manwell,
+    McGowan and Rogers, Wind Energy Explained, ch. 3.
+    """
+    c = np.clip(np.nan_to_num(np.asarray(cp, float)), 0.0, BETZ_LIMIT)
+    lo, hi = np.zeros(c.shape), np.full(c.shape, 1.0 / 3.0)
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        below = 4.0 * mid * (1.0 - mid) ** 2 < c
+        lo = np.where(below, mid, lo)
+        hi = np.where(below, hi, mid)
+    a = 0.5 * (lo + hi)
+    return 4.0 * a * (1.0 - a)
+
+
 def normalised_speed(speed_mps, density_kgm3, reference_density_kgm3):
     """Speed normalisation for pitch-regulated turbines, v_n = v (rho / rho_0)^(1/3). [m/s]
 
@@ -111,6 +135,31 @@ class PowerCurve:
     cut_in_mps: float = 3.0
     cut_out_mps: float = 25.0
     drivetrain_efficiency: float = 1.0
+    ct: np.ndarray = None          # table: thrust coefficient at each speed (optional)
+
+    def thrust_coefficient_at(self, speed_mps, density_kgm3) -> np.ndarray:
+        """Thrust coefficient at the site. [-]
+
+        With a ``ct`` column: the table, at the speed normalised as the power is
+        (pitch-regulated; stall-regulated at the speed itself), zero outside it. Without
+        one: :func:`momentum_thrust_coefficient` of the site curve's power coefficient
+        P / (0.5 rho A v^3).
+        """
+        v = np.asarray(speed_mps, float)
+        if self.ct is not None:
+            vn = v if self.regulation == "stall" else normalised_speed(v, density_kgm3, self.reference_density_kgm3)
+            return np.interp(vn, self.speed_mps, self.ct, left=0.0, right=0.0)
+        area = float(swept_area_m2(self.rotor_diameter_m))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            cp = np.where(v > 0, self.power_kw_at(v, density_kgm3) * 1000.0 / (0.5 * density_kgm3 * area * v ** 3),
+                          0.0)
+        return momentum_thrust_coefficient(cp)
+
+    @property
+    def thrust_source(self) -> str:
+        """Where the thrust coefficient comes from, in words."""
+        return "ct column of the power curve" if self.ct is not None else \
+            "momentum theory from the power coefficient (no ct column)"
 
     def power_kw_at(self, speed_mps, density_kgm3) -> np.ndarray:
         """Power at given speeds and (possibly hourly) densities, as :meth:`at_density` defines it. [kW]"""
@@ -208,8 +257,9 @@ def physics_curve(rated_power_kw, rotor_diameter_m, cp_max, cut_in_mps=3.0, cut_
 
 def table_curve(speed_mps, power_kw, rated_power_kw, rotor_diameter_m, *, reference_density_kgm3=1.225,
                 regulation="pitch", source="power curve", key="turbine.power_curve",
-                rated_tolerance=0.02, file: str | None = None, rows=None) -> PowerCurve:
-    """A validated power-curve table (speeds sorted and unique, power >= 0, peak near rated).
+                rated_tolerance=0.02, file: str | None = None, rows=None, ct=None) -> PowerCurve:
+    """A validated power-curve table (speeds sorted and unique, power >= 0, peak near rated,
+    a thrust coefficient ``ct`` where given in 0..1).
 
     ``file`` names the data file the table came from (the error then begins with it);
     ``rows`` gives each point's line number in that file (default: 2, 3, ...).
@@ -268,14 +318,22 @@ def table_curve(speed_mps, power_kw, rated_power_kw, rotor_diameter_m, *, refere
         i = int(np.nonzero(over)[0][0])
         raise fail(f"row {line(i)}: {p[i]:g} kW at {v[i]:g} m/s is more than a {rotor_diameter_m:g} m rotor can take "
                    f"from the wind (the Betz limit 16/27 x 0.5 rho A v^3 is {limit[i]:.0f} kW there)")
+    if ct is not None:
+        c = np.asarray(ct, float)
+        bad = ~np.isfinite(c) | (c < 0) | (c > 1)
+        if np.any(bad):
+            i = int(np.nonzero(bad)[0][0])
+            raise fail(f"row {line(i)}: ct must be a thrust coefficient between 0 and 1", f" (ct = {c[i]:g})")
+        ct = c
     return PowerCurve("table", float(rated_power_kw), float(rotor_diameter_m), speed_mps=v, power_kw=p,
-                      reference_density_kgm3=float(reference_density_kgm3), regulation=regulation)
+                      reference_density_kgm3=float(reference_density_kgm3), regulation=regulation, ct=ct)
 
 
 def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, reference_density_kgm3=1.225,
                    regulation="pitch", key="turbine.power_curve") -> PowerCurve:
-    """Read ``speed_mps, power_kw`` from a CSV file and validate it as a table curve.
+    """Read ``speed_mps, power_kw[, ct]`` from a CSV file and validate it as a table curve.
 
+    The optional third column ``ct`` is the thrust coefficient (for wake losses).
     Errors begin with the file and give the line number of the bad row.
     """
     path = Path(path)
@@ -317,15 +375,20 @@ def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, refere
         elif len(header) == 1 and (";" in header[0] or "\t" in header[0]):
             hint = " (columns separated by commas)"
         raise fail(f"header must be 'speed_mps,power_kw'{hint}, found {excerpt(','.join(header))}")
-    speeds, powers, lines = [], [], []
+    with_ct = len(header) > 2 and header[2].lower() == "ct"
+    width = 3 if with_ct else 2
+    speeds, powers, cts, lines = [], [], [], []
     for i, r in numbered[1:]:
-        if len(r) < 2:
-            raise fail(f"row {i} has {len(r)} column(s), expected 2")
+        if len(r) < width:
+            raise fail(f"row {i} has {len(r)} column(s), expected {width}")
         try:
             speeds.append(parse_number(r[0]))
             powers.append(parse_number(r[1]))
+            if with_ct:
+                cts.append(parse_number(r[2]))
         except ValueError:
             raise fail(f"row {i} is not numeric ({excerpt(','.join(r))})") from None
         lines.append(i)
     return table_curve(speeds, powers, rated_power_kw, rotor_diameter_m, reference_density_kgm3=reference_density_kgm3,
-                       regulation=regulation, source=shown, key=key, file=shown, rows=lines)
+                       regulation=regulation, source=shown, key=key, file=shown, rows=lines,
+                       ct=cts if with_ct else None)

@@ -109,19 +109,21 @@ MONTH_DAYS = np.array([31, 28 + 97 / 400, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31
 
 @dataclass(frozen=True)
 class Series:
-    """A wind series after cleaning. Speeds at the measurement height.
+    """A wind series after cleaning. Speeds at the measurement height; ``hours`` counts the
+    samples kept, ``step_h`` is the time step (the most common time between rows).
 
-    ``step_s`` is its time step (the most common time between rows), ``hours`` the time the
-    kept rows cover, ``month_coverage`` the data in each calendar month counted in months
-    (2.0: two Januaries), and ``weights`` (summing to 1; None unless every calendar month
-    has data) weigh each calendar month by its length, whatever its share of the record.
+    ``month_coverage`` is the data in each calendar month counted in months (2.0: two
+    Januaries), and ``weights`` (summing to 1; None unless every calendar month has data)
+    weigh each calendar month by its length, whatever its share of the record.
     """
 
     speed_mps: np.ndarray
     temperature_c: np.ndarray | None
-    hours: float
+    hours: int
     warnings: tuple[str, ...] = field(default=())
-    step_s: float = 3600.0
+    direction_deg: np.ndarray | None = None   # where the wind comes from, clockwise from north
+    timestamps: np.ndarray | None = None      # datetime64[ns], UTC, in the order of the speeds
+    step_h: float = 1.0                       # the time step of the record [h]
     month_coverage: tuple[float, ...] = field(default=(0.0,) * 12)
     weights: np.ndarray | None = None
     years: float = 0.0
@@ -131,6 +133,10 @@ class Series:
         if self.weights is not None:
             return float(self.weights @ self.speed_mps)
         return float(self.speed_mps.mean())
+
+    @property
+    def step_s(self) -> float:
+        return self.step_h * 3600.0
 
     @property
     def step_text(self) -> str:
@@ -155,14 +161,17 @@ def _count_lines(path: Path, stop: int) -> int:
     return n
 
 
-def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_share: float = 0.2) -> Series:
-    """Load a wind series ``timestamp, speed_mps[, temperature_c]`` at 1-minute to hourly steps.
+def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_share: float = 0.2,
+                step_h: float | None = None, max_step_h: float | None = MAX_STEP_S / 3600.0) -> Series:
+    """Load a wind series ``timestamp, speed_mps[, temperature_c][, direction_deg]``.
 
-    Bad rows (non-numeric, NaN, negative or implausibly high speeds) and duplicate
-    timestamps are dropped and reported. The time step is the most common time between
-    rows; missing time is counted against it, and a series with more than
-    ``max_missing_share`` of its steps missing is refused. Coverage of each calendar
-    month is reported; :func:`require_year` refuses a record that does not cover the year.
+    Bad rows (non-numeric, NaN, negative or implausibly high speeds, directions outside
+    0..360 degrees) and duplicate timestamps are dropped and reported. The time step is
+    ``step_h`` hours, or (None, the default) the most common time between rows, from one
+    minute to ``max_step_h`` (hourly for a site series; None: any, for a reference series);
+    missing time is counted against it, and a series with more than ``max_missing_share``
+    of its steps missing is refused. Coverage of each calendar month is reported;
+    :func:`require_year` refuses a record that does not cover the year.
     """
     import pandas as pd
 
@@ -217,24 +226,31 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
         ts = pd.to_datetime(df["timestamp"].str.strip(), errors="coerce", utc=True)
     speed = pd.to_numeric(df["speed_mps"].str.strip(), errors="coerce")
     temp = pd.to_numeric(df["temperature_c"].str.strip(), errors="coerce") if "temperature_c" in cols else None
+    dirn = pd.to_numeric(df["direction_deg"].str.strip(), errors="coerce") if "direction_deg" in cols else None
     bad_ts = int(ts.isna().sum())
     bad_speed = (speed.isna() | (speed < 0) | (speed > 75)).to_numpy()
     bad_temp = np.zeros(len(df), bool) if temp is None else (temp.isna() | (temp < -60) | (temp > 60)).to_numpy()
-    bad = bad_speed | bad_temp | ts.isna().to_numpy()
+    bad_dir = np.zeros(len(df), bool) if dirn is None else (dirn.isna() | (dirn < 0) | (dirn > 360)).to_numpy()
+    bad = bad_speed | bad_temp | bad_dir | ts.isna().to_numpy()
     if bad_ts:
         warnings.append(f"{shown}: {bad_ts} row(s) with an unreadable timestamp dropped")
     if bad_speed.sum():
         warnings.append(f"{shown}: {int(bad_speed.sum())} row(s) with a missing, negative or non-numeric speed dropped")
     if bad_temp.sum():
         warnings.append(f"{shown}: {int(bad_temp.sum())} row(s) with a bad temperature dropped")
+    if bad_dir.sum():
+        warnings.append(f"{shown}: {int(bad_dir.sum())} row(s) with a missing or out-of-range direction "
+                        "(0..360 degrees) dropped")
     keep = ~bad
     ts, speed = ts[keep], speed[keep]
     temp = temp[keep] if temp is not None else None
+    dirn = dirn[keep] if dirn is not None else None
     dup = ts.duplicated(keep="first").to_numpy()
     if dup.sum():
         warnings.append(f"{shown}: {int(dup.sum())} duplicate timestamp(s); the first of each kept")
         ts, speed = ts[~dup], speed[~dup]
         temp = temp[~dup] if temp is not None else None
+        dirn = dirn[~dup] if dirn is not None else None
     n = len(ts)
     if n == 0:
         raise fail(f"has no usable rows ({bad_ts} unreadable timestamp(s), {int(bad_speed.sum())} bad speed(s), "
@@ -245,16 +261,16 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
                    f"(is the column in km/h or knots? speed_mps is in m/s)")
     seconds = np.sort((ts - ts.min()).dt.total_seconds().to_numpy())
     diffs = np.diff(seconds)
-    step = 3600.0
-    if diffs.size:
-        values, counts = np.unique(diffs, return_counts=True)
-        step = float(values[np.argmax(counts)])
+    step = 3600.0 if step_h is None else float(step_h) * 3600.0
+    if step_h is None and diffs.size:
+        values, counts = np.unique(np.round(diffs[diffs > 0], 3), return_counts=True)
+        step = float(values[np.argmax(counts)]) if values.size else 3600.0
         if step < MIN_STEP_S:
             raise fail(f"rows are {step:g} s apart; a series is read at 1-minute to hourly steps")
-        if step > MAX_STEP_S:
+        if max_step_h is not None and step > max_step_h * 3600.0:
             raise fail(f"rows are {step / 3600:g} h apart (the most common step); the energy needs hourly or finer "
                        "data (a mean over hours hides the speeds the power curve sees)")
-        regular = float(np.mean(diffs == step))
+        regular = float(np.mean(np.round(diffs, 3) == step))
         if regular < 0.5:
             warnings.append(f"{shown}: the time between rows is irregular (only {regular:.0%} of them are "
                             f"{step_name(step)} steps)")
@@ -281,9 +297,9 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
     weights = None
     if np.all(per_month > 0):
         weights = (MONTH_DAYS / MONTH_DAYS.sum() / per_month)[month]
-    v = speed.to_numpy(float)
-    return Series(speed_mps=v, temperature_c=None if temp is None else temp.to_numpy(float),
-                  hours=n * step / 3600.0, warnings=tuple(warnings), step_s=step,
+    return Series(speed_mps=speed.to_numpy(float), temperature_c=None if temp is None else temp.to_numpy(float),
+                  hours=n, warnings=tuple(warnings), direction_deg=None if dirn is None else dirn.to_numpy(float),
+                  timestamps=ts.dt.tz_convert(None).to_numpy(dtype="datetime64[ns]"), step_h=step / 3600.0,
                   month_coverage=tuple(float(c) for c in coverage), weights=weights, years=years)
 
 

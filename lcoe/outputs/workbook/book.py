@@ -28,6 +28,7 @@ from lcoe.outputs.workbook.cells import (
     Timeline,
     absolute,
 )
+from lcoe.outputs.workbook.directions import write_directions
 from lcoe.outputs.workbook.inputs import write_inputs
 from lcoe.outputs.workbook.results import chart_cashflow, chart_dscr, write_montecarlo, write_sensitivity
 from lcoe.outputs.workbook.sheets import write_cashflow_and_debt, write_energy
@@ -306,6 +307,7 @@ def build(report) -> Workbook:
     write_inputs(book, report)
     en = write_energy(book, scn)
     cf, dt = write_cashflow_and_debt(book, scn, en)
+    write_directions(book, en.ws, en.next + 2, case.energy)
     chart_cashflow(cf)
     chart_dscr(dt, scn.finance.debt.tenor_years if scn.finance.debt is not None else 0)
     _write_summary(book, report, summary, cf)

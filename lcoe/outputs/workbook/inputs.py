@@ -144,6 +144,10 @@ def write_inputs(book: Book, report) -> InputSheet:
 
     inp.head("Energy losses (fractions of gross energy, applied multiplicatively)")
     for k in LOSSES:
+        if k == "wake" and e.wake_from_layout:    # the engine's computed loss, open to a flex like any input
+            v("loss_wake", "Loss: wake (computed from the layout)", e.wake_loss, "fraction", "layout", "pct",
+              "lcoe's Jensen/Park wake loss of the layout (Energy sheet); change it to flex", fraction=True)
+            continue
         v(f"loss_{k}", f"Loss: {k.replace('_', ' ')}", getattr(scn.losses, k), "fraction", f"losses.{k}", "pct",
           fraction=True)
 
