@@ -58,11 +58,49 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
         flows.dscr, flows.cfads, flows.debt_service, flows.debt, rate_i, flows.equity_cash_flow)
     if np.any(~np.isfinite(out["lcoe_nominal_per_mwh"])):
         warnings.append("LCOE is null: the discounted energy is zero")
+    never = ~np.isfinite(out["payback_year"])
+    if np.any(never):
+        why = "the cumulative equity cash flow never turns non-negative within the life"
+        warnings.append(f"payback_year is null: {why}" if never.size == 1 else
+                        f"payback_year: none in {int(never.sum())} of {never.size} row(s) ({why})")
+    if f.debt is not None:
+        warnings.extend(_uncovered_tenor_years(flows, inp("finance.debt.tenor_years", f.debt.tenor_years)))
     if f.debt is None:
         warnings.append("DSCR and LLCR are null: the scenario has no [finance.debt] table (all equity)")
     elif np.all(flows.debt <= 0):
         warnings.append("DSCR and LLCR are null: there is no debt")
     return out, warnings
+
+
+def _years_text(years) -> str:
+    """[1, 2, 3, 7] -> '1-3, 7'."""
+    out, run = [], []
+    for y in list(years) + [None]:
+        if run and (y is None or y != run[-1] + 1):
+            out.append(f"{run[0]}-{run[-1]}" if len(run) > 1 else f"{run[0]}")
+            run = []
+        if y is not None:
+            run.append(int(y))
+    return ", ".join(out)
+
+
+def _uncovered_tenor_years(flows: Flows, tenor) -> list[str]:
+    """Tenor years with no debt service but a negative or zero CFADS: the DSCR statistics,
+    taken over the years with debt service, do not see them, so they are named."""
+    L = flows.cfads.shape[1] - 1
+    years = np.arange(1, L + 1)
+    in_tenor = years[None, :] <= np.asarray(tenor, float).reshape(-1, 1)
+    gap = in_tenor & (flows.debt_service[:, 1:] <= 0) & (flows.cfads[:, 1:] <= 0) & (flows.debt > 0)
+    rows = np.nonzero(gap.any(axis=1))[0]
+    if rows.size == 0:
+        return []
+    if gap.shape[0] == 1:
+        t = int(np.asarray(tenor, float).reshape(-1)[0])
+        return [f"min_dscr and avg_dscr cover only the tenor years with debt service: CFADS is negative or zero "
+                f"in year(s) {_years_text(years[gap[0]])} of the {t}-year tenor, where no debt service could be "
+                "sculpted"]
+    return [f"min_dscr and avg_dscr: in {rows.size} of {gap.shape[0]} row(s) CFADS is negative or zero in tenor "
+            "years without debt service, which the DSCR statistics do not cover"]
 
 
 def _metric_rates(scn, inp: Inputs):

@@ -12,6 +12,7 @@ import io
 import subprocess
 import tomllib
 import zipfile
+from pathlib import Path
 from urllib.parse import urlparse
 
 import pytest
@@ -214,7 +215,8 @@ def test_an_invalid_input_shows_the_loaders_message():
     assert not at.exception
     with pytest.raises(ScenarioError) as err:
         sc.load(DEMO).with_overrides({"project.lifetime_years": 10})
-    assert [e.value for e in at.error] == [err.value.line()]
+    # the loader's line, with the server's folders left out (the app names files as a user knows them)
+    assert [e.value for e in at.error] == [err.value.line().replace(str(ROOT) + "/", "")]
     assert "must lie within the operating life 1..10" in at.error[0].value
 
 
@@ -390,12 +392,68 @@ def test_invalid_upload_shows_the_loaders_message(tmp_path, data, match):
     assert match in at.error[0].value.replace("\\", "")
 
 
-def test_upload_with_a_data_file_outside_assumptions_is_refused_clearly():
+def test_upload_naming_a_data_file_not_uploaded_is_refused_clearly():
     data = DEMO.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"my_curve.csv"')
     at = _upload(start(), "site.toml", data)
     assert not at.exception
-    assert at.error[0].value.startswith("site.toml: turbine.power_curve = 'my_curve.csv': not found: an uploaded "
-                                        "scenario's data files are read relative to the assumptions/ folder")
+    assert at.error[0].value == ("site.toml: turbine.power_curve = 'my_curve.csv': is neither among the files "
+                                 "uploaded with the scenario nor a bundled demo file; upload 'my_curve.csv' beside "
+                                 "the scenario (data files are matched by name)")
+
+
+def test_upload_with_its_data_file_uses_the_uploaded_file():
+    """The curve uploaded beside the scenario is the one read (the demo's curve with 2 % less power
+    everywhere: the gross AEP falls by 2 %, the integral being linear in the curve)."""
+    lines = (ROOT / "demo" / "tallowmere_curve.csv").read_text(encoding="utf-8").splitlines()
+    rows = [lines[0]] + [",".join([c[0], str(float(c[1]) * 0.98)] + c[2:]) for c in (r.split(",") for r in lines[1:])]
+    data = DEMO.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"my_curve.csv"')
+    data = data.replace(b"rated_power_kw = 4200", b"rated_power_kw = 4116")
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("site.toml", data, "application/toml"))
+    at.file_uploader(key="upload_data").set_value([("my_curve.csv", "\n".join(rows).encode(), "text/csv")]).run()
+    assert not at.exception and not at.error
+    shown = {m.label: m.value for m in at.metric}
+    base = model.run(sc.load(DEMO))
+    assert shown["Net AEP P50 [MWh/yr]"] != rp.fmt(base.energy.net_aep_p50_mwh, "{:,.0f}")
+
+
+@pytest.mark.parametrize("path", ["/etc/passwd", "../../../../../../etc/passwd", "/proc/self/environ",
+                                  "../../../../../../etc/hostname"])
+def test_upload_naming_a_server_file_is_refused_without_showing_it(path):
+    """A scenario may name any path; the app reads none of them, and says so without the file's content."""
+    secret = Path(path.replace("../", "").lstrip("/"))
+    secret = Path("/") / secret
+    first = secret.read_text(errors="replace").splitlines()[0][:20] if secret.is_file() and \
+        secret.read_text(errors="replace").strip() else None
+    data = DEMO.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', f'"{path}"'.encode())
+    at = _upload(start(), "site.toml", data)
+    assert not at.exception
+    (error,) = [e.value for e in at.error]
+    assert error.startswith("site.toml: turbine.power_curve = ")
+    assert "is neither among the files uploaded with the scenario nor a bundled demo file" in error
+    assert "Traceback" not in error and str(ROOT) not in error
+    if first:
+        assert first not in error
+    # the same through a variant
+    data = DEMO.read_bytes() + f'\n[variants.sneaky]\n"turbine.power_curve" = "{path}"\n'.encode()
+    at = _upload(start(), "site.toml", data)
+    (error,) = [e.value for e in at.error]
+    assert error.startswith("site.toml: variants.sneaky.turbine.power_curve = ")
+    if first:
+        assert first not in error
+
+
+def test_a_bad_uploaded_data_file_is_named_by_its_upload_name_only():
+    data = DEMO.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"my_curve.csv"')
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("site.toml", data, "application/toml"))
+    at.file_uploader(key="upload_data").set_value([("my_curve.csv", b"wind,power\n0,0\n", "text/csv")]).run()
+    assert not at.exception
+    (error,) = [e.value for e in at.error]
+    assert error == ("my_curve.csv: turbine.power_curve = 'my_curve.csv': header must be 'speed_mps,power_kw', "
+                     "found 'wind,power'")
 
 
 def test_upload_with_a_physics_curve_offers_the_turbine_inputs():
@@ -444,7 +502,8 @@ def test_app_command_finds_the_app_and_serves_it_headless():
     assert argv[1:5] == ["-m", "streamlit", "run", str(APP)]
     opts = dict(zip(argv[5::2], argv[6::2]))
     assert opts == {"--server.headless": "true", "--server.port": "8765", "--server.address": "127.0.0.1",
-                    "--browser.gatherUsageStats": "false", "--client.toolbarMode": "minimal"}
+                    "--browser.gatherUsageStats": "false", "--client.toolbarMode": "minimal",
+                    "--client.showErrorDetails": "none"}
 
 
 def test_app_command_without_the_app_says_so(monkeypatch, capsys, tmp_path):
@@ -461,3 +520,47 @@ def test_app_command_without_the_app_says_so(monkeypatch, capsys, tmp_path):
 def test_app_command_refuses_a_bad_port(capsys):
     assert cli.main(["app", "--port", "70000"]) == 2
     assert "must be between 1 and 65535, got 70000" in capsys.readouterr().err
+
+
+# --------------------------------------------------------------------------- failures in the browser
+
+def test_a_failure_inside_a_screen_is_one_message_and_the_page_stays(monkeypatch):
+    """No traceback reaches the browser: an unexpected error is one message, the headline stays."""
+    from lcoe.analysis import lifetime
+
+    import streamlit as st
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("/srv/secret/path exploded")
+    monkeypatch.setattr(lifetime, "study", broken)
+    st.cache_data.clear()             # a study cached by an earlier test would not call it
+    at = start(view="Lifetime")
+    assert not at.exception
+    assert [e.value for e in at.error] == ["Something went wrong (RuntimeError); the inputs are kept. Change an input "
+                                           "or reload the page."]
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))
+
+
+def test_a_monte_carlo_run_refused_for_memory_keeps_nothing(monkeypatch):
+    from lcoe.analysis import montecarlo as unc
+
+    at = start(view="Monte Carlo")
+    at.number_input(key="mc_trials").set_value(2000)
+    at.button(key="mc_run").click().run()
+    assert "mc" in at.session_state
+
+    def too_big(*args, **kwargs):
+        raise MemoryError
+    monkeypatch.setattr(unc, "monte_carlo", too_big)
+    at.button(key="mc_run").click().run()
+    assert not at.exception
+    assert [e.value for e in at.error] == ["Not enough memory for this many trials; the run was dropped. Try fewer "
+                                           "trials."]
+    assert "mc" not in at.session_state          # neither the refused run nor the one before is held
+
+
+def test_the_trials_input_stops_at_the_files_limit():
+    from lcoe.inputs.schema import MAX_TRIALS
+
+    at = start(view="Monte Carlo")
+    assert at.number_input(key="mc_trials").max == MAX_TRIALS == 10_000_000

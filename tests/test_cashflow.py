@@ -235,10 +235,17 @@ def test_all_equity_has_no_debt_lines():
 # --------------------------------------------------------------------------- a hand-worked three-year case
 
 @pytest.fixture
-def three_year(tmp_path):
+def three_year(tmp_path, monkeypatch):
     """One 1,000 kW turbine whose (invented) curve gives 1,000 kW at every speed from 0 to 40 m/s,
-    so the gross energy is 1,000 kW * 8760 h = 8,760 MWh whatever the Weibull climate."""
-    (tmp_path / "flat.csv").write_text("speed_mps,power_kw\n0,1000\n40,1000\n", encoding="utf-8")
+    so the gross energy is 1,000 kW * 8760 h = 8,760 MWh whatever the Weibull climate.
+
+    No rotor takes power from still air (Betz), so a curve file saying this is refused; the
+    curve is handed to the engine directly, past the file checks."""
+    from lcoe.physics import site
+    from lcoe.physics.turbine import PowerCurve
+
+    flat = PowerCurve("table", 1000.0, 60.0, speed_mps=np.array([0.0, 40.0]), power_kw=np.array([1000.0, 1000.0]))
+    monkeypatch.setattr(site, "curve_from", lambda scn: flat)
     raw = {
         "schema_version": 1,
         "project": {"name": "Three years", "lifetime_years": 3, "turbines": 1},

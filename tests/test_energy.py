@@ -49,7 +49,19 @@ def test_capped_curve_integral_matches_scipy_quadrature():
 
 # --------------------------------------------------------------------------- Weibull against a series
 
-N_HOURS = 40 * 8760   # 40 years of hours: sampling sd of the mean power about 0.15 % for this turbine
+N_HOURS = 25 * 8760   # 25 years of hours: sampling sd of the mean power about 0.2 % for this turbine
+
+# mean length of each calendar month over the Gregorian 400-year cycle (97 leap years): the
+# weight of each month in a series' energy, whatever its share of the record
+MONTH_DAYS = np.array([31, 28 + 97 / 400, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
+
+
+def _month_weighted(values, stamps):
+    """sum over calendar months of (days / 365.2425) * the month's mean: each month by its length."""
+    import pandas as pd
+
+    means = pd.Series(np.asarray(values)).groupby(np.asarray(stamps.month) - 1).mean()
+    return float(sum(MONTH_DAYS[m] / MONTH_DAYS.sum() * means[m] for m in range(12)))
 
 
 @pytest.fixture(scope="module")
@@ -65,7 +77,7 @@ def weibull_series(tmp_path_factory):
     path = folder / "wind.csv"
     stamps = pd.date_range("2000-01-01", periods=N_HOURS, freq="h", tz="UTC")
     pd.DataFrame({"timestamp": stamps.strftime("%Y-%m-%dT%H:%M:%SZ"), "speed_mps": v}).to_csv(path, index=False)
-    return path, v
+    return path, v, stamps
 
 
 def _series_scenario(path, **updates):
@@ -79,7 +91,7 @@ def _series_scenario(path, **updates):
 def test_weibull_integral_agrees_with_a_long_sampled_series(weibull_series):
     """Weibull-integral AEP within 0.5 % of the AEP of a long hourly series drawn from the same
     Weibull (the law of large numbers; sampling from scipy.stats.weibull_min)."""
-    path, _ = weibull_series
+    path, _, _ = weibull_series
     weib = en.energy_of(make_scenario())
     series = en.energy_of(_series_scenario(path))
     assert series.gross_aep_mwh == pytest.approx(weib.gross_aep_mwh, rel=0.005)
@@ -87,16 +99,19 @@ def test_weibull_integral_agrees_with_a_long_sampled_series(weibull_series):
 
 
 def test_series_reproduces_its_own_mean_power(weibull_series):
-    """Gross AEP of a series = turbines * 8760 h * mean of P(v_i), P evaluated here from the
-    physics formula min(rated, 0.5 rho A Cp eta v^3) inside cut-in..cut-out (kinetic energy flux)."""
-    path, v = weibull_series
+    """Gross AEP of a series = turbines * 8760 h * mean of P(v_i), each calendar month weighed by
+    its length (days / 365.2425, Gregorian calendar); P evaluated here from the physics formula
+    min(rated, 0.5 rho A Cp eta v^3) inside cut-in..cut-out (kinetic energy flux)."""
+    path, v, stamps = weibull_series
     scn = _series_scenario(path)
     e = en.energy_of(scn)
     rho = e.air_density_kgm3
     p = np.minimum(0.5 * rho * math.pi * 55.0 ** 2 * 0.45 * 0.95 * v ** 3 / 1000.0, 3000.0)
     p = np.where((v >= 3.0) & (v < 25.0), p, 0.0)
-    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * p.mean() / 1000.0, rel=1e-12)
-    assert e.hub_mean_speed_mps == pytest.approx(v.mean(), rel=1e-12)
+    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * _month_weighted(p, stamps) / 1000.0, rel=1e-12)
+    assert e.hub_mean_speed_mps == pytest.approx(_month_weighted(v, stamps), rel=1e-12)
+    # 25 whole years less the leap days: the weighting moves the plain mean by little
+    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * p.mean() / 1000.0, rel=1e-4)
 
 
 def test_series_with_temperature_uses_hourly_density(tmp_path):
@@ -104,11 +119,12 @@ def test_series_with_temperature_uses_hourly_density(tmp_path):
     (ISO 2533 pressure; IEC 61400-12-1 gas constant): the mean of P(v_i, rho_i)."""
     import pandas as pd
 
-    n = 24 * 40
+    n = 8760
     rng = np.random.default_rng(5)
     v = np.round(rng.uniform(2.0, 14.0, n), 2)
     t_c = np.round(rng.uniform(-10.0, 30.0, n), 1)
-    stamps = pd.date_range("2020-01-01", periods=n, freq="h", tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+    when = pd.date_range("2021-01-01", periods=n, freq="h", tz="UTC")
+    stamps = when.strftime("%Y-%m-%dT%H:%M:%SZ")
     path = tmp_path / "w.csv"
     pd.DataFrame({"timestamp": stamps, "speed_mps": v, "temperature_c": t_c}).to_csv(path, index=False)
     e = en.energy_of(_series_scenario(path, wind__elevation_m=300.0))
@@ -116,8 +132,8 @@ def test_series_with_temperature_uses_hourly_density(tmp_path):
     rho = pressure / (287.05 * (t_c + 273.15))
     p = np.minimum(0.5 * rho * math.pi * 55.0 ** 2 * 0.45 * 0.95 * v ** 3 / 1000.0, 3000.0)
     p = np.where((v >= 3.0) & (v < 25.0), p, 0.0)
-    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * p.mean() / 1000.0, rel=1e-12)
-    assert e.air_density_kgm3 == pytest.approx(rho.mean(), rel=1e-12)
+    assert e.gross_aep_mwh == pytest.approx(10 * 8760.0 * _month_weighted(p, when) / 1000.0, rel=1e-12)
+    assert e.air_density_kgm3 == pytest.approx(_month_weighted(rho, when), rel=1e-12)
 
 
 # --------------------------------------------------------------------------- gross to net
@@ -253,7 +269,7 @@ def _hourly_scenario(kind):
 @pytest.mark.parametrize("kind", ["pitch", "stall", "physics"])
 def test_series_factor_table_within_its_bound_of_the_direct_hourly_energy(kind):
     """The table of AEP(f) against AEP computed here hour by hour at f times every hub-height
-    speed (mean power x 8760 h), at random factors over the whole table, around 1, and just
+    speed (mean power x 8760 h, each calendar month weighed by its length), at random factors over the whole table, around 1, and just
     either side (1e-12 and 1e-9 of f) of the factors where hours cross the cut-in or cut-out:
     the worst error is at most 1e-5 of the AEP at that factor (zero where there is no energy).
     Exactly at a crossing the hour is decided by how the speed product rounds, so that single
@@ -267,7 +283,9 @@ def test_series_factor_table_within_its_bound_of_the_direct_hourly_energy(kind):
     f = np.concatenate([rng.uniform(0.1, 2.5, 1500), rng.uniform(0.8, 1.25, 1000), steps * (1 - 1e-12),
                         steps * (1 + 1e-12), steps * (1 - 1e-9), steps * (1 + 1e-9), site.factors[::7]])
     f = f[(f >= 0.1) & (f <= 2.5)]
-    direct = np.array([_hourly_power_kw(kind, c.speeds_mps * x, rho).mean() for x in f])
+    import pandas as pd
+    stamps = pd.DatetimeIndex(pd.read_csv(ROOT / "demo" / "tallowmere_wind_hourly.csv")["timestamp"])
+    direct = np.array([_month_weighted(_hourly_power_kw(kind, c.speeds_mps * x, rho), stamps) for x in f])
     direct *= scn.project.turbines * 8760.0 / 1000.0
     table = site.gross_at_factor(f)
     assert site.step_factors.size >= c.speeds_mps.size * 0.99      # a step for (nearly) every hour
@@ -295,3 +313,45 @@ def test_weibull_factor_table_within_its_bound_of_scipy_quadrature():
         ref *= scn.project.turbines * 8760.0 / 1000.0
         assert float(site.gross_at_factor(np.array([f]))[0]) == pytest.approx(ref, rel=1e-5), f
     assert not site.cell_exact[(site.factors[:-1] >= 0.75) & (site.factors[:-1] < 1.5)].any()
+
+
+@pytest.mark.parametrize("fixed", ["mean", "scale"])
+def test_weibull_shape_table_within_its_bound_of_scipy_quadrature(fixed):
+    """The table of AEP(k) that Monte Carlo reads when it draws the Weibull shape, against
+    scipy.integrate.quad of P(v) f(v; k, A) (scipy.stats.weibull_min), with A = mean / Gamma(1 + 1/k)
+    (the scenario holds the mean) or A fixed (it holds the scale): within 1e-5, at shapes off the grid."""
+    from conftest import DEMO
+    from scipy.integrate import quad
+    from scipy.special import gamma as gamma_fn
+
+    from lcoe.inputs import scenario
+    site = en.site_for(scenario.load(DEMO))
+    c, sc_ = site.climate, site.site_curve
+    pts = list(sc_.breaks_mps)
+    shapes = np.array([0.5031, 1.1234, 1.7777, 2.0987, 2.3456, 3.0101, 4.4444, 7.3331, 9.9977])
+    gross, _ = en.gross_at_shape(site, fixed, shapes)
+    for k, table in zip(shapes, gross):
+        a = c.mean_speed_mps / gamma_fn(1.0 + 1.0 / k) if fixed == "mean" else c.scale_mps
+        ref, _ = quad(lambda v, a=a, k=k: float(sc_.power_kw(v)) * weibull_min.pdf(v, k, scale=a), 0.0,
+                      float(max(pts)), points=pts, limit=500, epsabs=0, epsrel=1e-11)
+        ref *= site.turbines * 8760.0 / 1000.0
+        assert table == pytest.approx(ref, rel=1e-5), k
+
+
+def test_monte_carlo_drawing_the_shape_matches_one_integration_per_trial():
+    """Trials that draw the shape read the table; the same trials run one scenario each (the
+    integral evaluated afresh) give the same energy to 1e-5 (the table's bound)."""
+    from conftest import DEMO
+
+    from lcoe import engine as model
+    from lcoe.finance.cashflow import Sample
+    from lcoe.inputs import scenario
+    scn = scenario.load(DEMO)
+    case = model.run(scn, breakeven=False)
+    ks = np.array([1.55, 1.9, 2.1, 2.35, 2.8])
+    fast, _, _ = model.evaluate(scn, overrides={"wind.weibull_shape": ks}, sample=Sample(), schedule=case.schedule,
+                                energy=case.energy, lean=True)
+    for i, k in enumerate(ks):
+        one = en.site_for(scn.with_overrides({"wind.weibull_shape": float(k)}))
+        assert fast.energy_mwh[i, 1] / case.flows.energy_mwh[0, 1] == pytest.approx(
+            one.gross_aep_mwh / case.energy.gross_aep_mwh, rel=1e-5)

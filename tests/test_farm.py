@@ -191,8 +191,8 @@ def test_the_rules_of_a_rose():
 
 
 def test_a_layout_over_a_series_without_directions_is_refused(tmp_path):
-    stamps = np.datetime64("2024-01-01T00:00") + np.arange(24 * 40).astype("timedelta64[h]")
-    lines = ["timestamp,speed_mps"] + [f"{s}Z,{7 + math.sin(i):.2f}" for i, s in enumerate(stamps)]
+    stamps = np.datetime64("2024-01-01T00:00") + np.arange(24 * 366).astype("timedelta64[h]")
+    lines = ["timestamp,speed_mps"] + [f"{s}Z,{7 + 4 * math.sin(0.3 * i):.2f}" for i, s in enumerate(stamps)]
     (tmp_path / "w.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     raw = _grid_raw()
     del raw["wind"]["rose"]

@@ -16,6 +16,9 @@ import json
 import math
 import os
 
+import numpy as np
+import pytest
+
 from conftest import make_raw
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
@@ -25,6 +28,7 @@ from lcoe import engine as model
 from lcoe.analysis import study
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.keys import is_integer_key
 from lcoe.outputs import report
 from lcoe.physics import turbine
 from lcoe.physics import wind as resource
@@ -59,6 +63,9 @@ SCALARS = st.one_of(
     st.sampled_from([0, -1, 1, 0.0, -0.0, 1e-300, 1e308, -1e308, 2**63, 0.5, 1.0, 1.5, 60, 61, 10**6]),
     st.text(max_size=12), st.sampled_from(["", "p50", "macrs_5", "normal", "7.4", "gearbox"]),
     st.dates(), st.datetimes(), st.times(),
+    # hostile values: huge integers, overflowing floats, terminal escapes, line separators, server paths
+    st.sampled_from([10 ** 400, -10 ** 40, 2 ** 53 + 1, 1e308 * 10, 5e-324, "\x1b[2J\x1b[31m", "a\u2028b",
+                     "../../../../etc/passwd", "/dev/zero", "x" * 5000, "\x00"]),
 )
 VALUES = st.recursive(SCALARS, lambda inner: st.lists(inner, max_size=3) |
                       st.dictionaries(st.text(max_size=8), inner, max_size=3), max_leaves=6)
@@ -144,6 +151,8 @@ def _assert_one_line(exc: ScenarioError):
     text = str(exc)
     assert len(text.splitlines()) == 1, text
     assert exc.line() == text
+    assert len(text) < 700, len(text)                  # parts are cut: no screenful from one mistake
+    assert all(ch.isprintable() for ch in text), text  # no control character reaches the terminal
 
 
 def _strict_json(case_or_report):
@@ -227,7 +236,8 @@ def test_fuzz_toml_text_through_the_command_line(text, tmp_path_factory):
 
 
 CURVE_LINES = ["speed_mps,power_kw"] + [f"{v},{min(3000.0, 2.9 * v ** 3) if v >= 3 else 0.0:.1f}" for v in range(0, 26)]
-CELLS = st.sampled_from(["", "nan", "inf", "-1", "1e9", "abc", "3000", "0", "12.5", "1,2", '"', "3000000", "3"])
+CELLS = st.sampled_from(["", "nan", "inf", "-1", "1e9", "abc", "3000", "0", "12.5", "1,2", '"', "3000000", "3",
+                         "3_000", "1e300", "25000", "\u0663", "0x10", "1e-400", " 7 ", "+5", "61"])
 
 
 @st.composite
@@ -268,6 +278,10 @@ def test_fuzz_power_curve_files(text, tmp_path_factory):
         return
     site = curve.at_density(1.18)
     assert all(math.isfinite(x) for x in site.power_kw([0.0, 5.0, 12.0, 30.0]))
+    # what was accepted is physical and bounded: speeds 0..60 m/s, no power beyond Betz (1920)
+    assert curve.speed_mps.size <= turbine.MAX_CURVE_ROWS and 0 <= curve.speed_mps.min() <= curve.speed_mps.max() <= 60
+    betz = turbine.BETZ_LIMIT * turbine.wind_power_kw(curve.speed_mps, 1.225, float(turbine.swept_area_m2(120.0)))
+    assert np.all(curve.power_kw <= 1.01 * betz + 1.0)
 
 
 @st.composite
@@ -275,8 +289,9 @@ def series_files(draw):
     rows = ["timestamp,speed_mps,temperature_c"]
     start = dt.datetime(2025, 3, 1, tzinfo=dt.timezone.utc)
     n = draw(st.integers(0, 60))
+    step = draw(st.sampled_from([60, 60, 10, 30, 180, 1440]))        # minutes: hourly most often
     for h in range(n):
-        rows.append(f"{(start + dt.timedelta(hours=h)).isoformat()},{5 + h % 7},{10 + h % 5}")
+        rows.append(f"{(start + dt.timedelta(minutes=step * h)).isoformat()},{5 + h % 7},{10 + h % 5}")
     for _ in range(draw(st.integers(0, 5))):
         if len(rows) < 2:
             break
@@ -311,9 +326,12 @@ def test_fuzz_hourly_series_files(text, share, tmp_path_factory):
         _assert_one_line(exc)
         assert str(exc).startswith(f"{path}: wind.timeseries = 'wind.csv': ")
         return
-    assert series.hours == series.speed_mps.size > 0
+    assert series.hours == series.speed_mps.size > 0           # the samples kept
+    assert 60 <= series.step_s <= 3600                    # hourly or finer, whatever the rows say
     assert all(math.isfinite(x) and 0 <= x <= 75 for x in series.speed_mps)
     assert all("\n" not in w for w in series.warnings)
+    with pytest.raises(ScenarioError, match=r"covers \d+ of the 12 calendar months well enough"):
+        resource.require_year(series, path)               # never a year: refused for energy, not averaged
 
 
 @FUZZ
@@ -339,3 +357,69 @@ def test_fuzz_variants_through_the_engine(overrides):
     case = model.run(scn.variant("v"))
     for key, value in case.metrics.items():
         assert value is None or math.isfinite(value), key
+
+
+FRAGMENTS = st.one_of(
+    st.integers(20, 60).map(lambda d: "deep = " + "[" * d + "1" + "]" * d),
+    st.integers(20, 60).map(lambda d: "deep = " + "{a = " * d + "1" + "}" * d),
+    st.integers(25, 60).map(lambda n: "big = " + "9" * n),
+    st.integers(25, 60).map(lambda n: "big = 0." + "1" * n),
+    st.sampled_from(["huge = 1e99999", "k" * 3000 + " = 1", 'name = "a\\u0000b"', 'name = "\\u001b[2J"',
+                     'power_curve = "/dev/zero"', 'timeseries = "../../../../etc/passwd"', "seed = 9" * 3,
+                     "trials = 100000000", "grid_connection = 1e308", 'x = """' + "[" * 50 + '"""']),
+)
+
+
+@FUZZ
+@given(fragment=FRAGMENTS, at=st.floats(0.0, 1.0), bom=st.booleans())
+def test_fuzz_hostile_toml_text(fragment, at, bom, tmp_path_factory):
+    """Target 7: the demo text with a hostile fragment (deep nesting, huge numbers, huge keys, control
+    characters, device and server paths) on some line: exit 0 or 2, one line, never a traceback."""
+    lines = DEMO_TEXT.splitlines()
+    i = int(at * len(lines))
+    text = "\n".join(lines[:i] + [fragment] + lines[i:]) + "\n"
+    folder = tmp_path_factory.mktemp("hostile")
+    path = folder / "fuzz.toml"
+    path.write_bytes((b"\xef\xbb\xbf" if bom else b"") + text.encode("utf-8"))
+    so, se = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(so), contextlib.redirect_stderr(se):
+        code = cli.main(["check", str(path)])
+    event(f"exit {code}")
+    assert code in (0, 2)
+    if code == 2:
+        assert se.getvalue().count("\n") == 1 and se.getvalue().startswith("error: ")
+        assert len(se.getvalue()) < 700 and all(ch.isprintable() for ch in se.getvalue().rstrip("\n"))
+    assert sorted(p.name for p in folder.iterdir()) == ["fuzz.toml"]
+
+
+VARY_KEYS = sorted(set(sc.numeric_keys(sc.from_dict(BASE))) | {"wind.weibull_shape", "montecarlo.seed",
+                                                                 "uncertainty.interannual_speed_sd"})
+SPECS = st.one_of(
+    st.builds(lambda sd: {"distribution": "normal", "sd": sd}, st.sampled_from([0.0, 1e-3, 0.05, 1.0, 50.0, 1e12])),
+    st.builds(lambda lo, w: {"distribution": "uniform", "low": lo, "high": lo + w},
+              st.floats(-5.0, 2000.0), st.sampled_from([0.0, 0.01, 1.0, 10.0])),
+    st.builds(lambda sd: {"distribution": "lognormal", "sd": sd}, st.sampled_from([0.01, 1.0, 1e6])),
+)
+
+
+@FUZZ
+@given(vary=st.dictionaries(st.sampled_from(VARY_KEYS), SPECS, min_size=1, max_size=3))
+def test_fuzz_monte_carlo_keys(vary):
+    """Target 8: Monte Carlo on any numeric key with any spread. Whole-number keys, debt terms and the
+    file's settings are refused at load; a run that goes ahead moves some result with each key."""
+    from lcoe.analysis import montecarlo
+
+    raw = copy.deepcopy(BASE)
+    raw["montecarlo"] = {"trials": 64, "vary": vary}
+    try:
+        scn = sc.from_dict(raw, source="fuzz.toml")
+        res = montecarlo.monte_carlo(scn, trials=64)
+    except ScenarioError as exc:
+        _assert_one_line(exc)
+        event("refused")
+        return
+    event("ran")
+    for key in vary:
+        assert not key.startswith(("finance.debt.", "montecarlo.", "uncertainty.", "project."))
+        assert not is_integer_key(key)
+    assert res.samples["lcoe_nominal_per_mwh"].size == 64

@@ -125,15 +125,16 @@ def test_failure_kernel_counts_like_the_plain_inversion():
 # --------------------------------------------------------------------------- the fused trial kernel
 
 def _wide_vary(scn) -> dict:
-    """A uniform spread of +-15 % on every input a trial may vary without re-integrating the
+    """A uniform spread of +-15 % on every input a trial may draw without re-integrating the
     curve (the hub speed through the mean speed; other wind and turbine keys integrate
     each row afresh and are covered by the array path alone)."""
-    from lcoe.inputs.keys import is_integer_key, numeric_keys, numeric_value
+    from lcoe.inputs.keys import numeric_keys, numeric_value
+    from lcoe.inputs.scenario import vary_refusal
     vary = {}
     for key in numeric_keys(scn):
         if key.startswith(("project.", "turbine.")) or (key.startswith("wind.") and key != "wind.mean_speed_mps"):
             continue
-        if is_integer_key(key) or key.startswith("finance.debt."):   # whole numbers only; the debt is fixed at close
+        if vary_refusal(scn, key):      # whole numbers, debt terms, uncertainty: refused by the loader
             continue
         base = numeric_value(scn, key)
         lo, hi = (0.85 * base, 1.15 * base) if base else (0.0, 0.02)

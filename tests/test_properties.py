@@ -279,3 +279,94 @@ def test_formula_characters_are_neutralised_in_csv_cells():
         assert files.safe_cell(lead + "1+1") == "'" + lead + "1+1"
     assert files.safe_cell("Tallowmere Ridge") == "Tallowmere Ridge"
     assert files.safe_cell(12.5) == 12.5
+
+
+# --------------------------------------------------------------------------- every null has a reason
+
+# The words a warning uses for a metric that is null (JSON contract: "NaN as null with a reason in warnings")
+NULL_WORDS = {"lcoe_nominal_per_mwh": "LCOE", "lcoe_real_per_mwh": "LCOE", "project_irr": "project irr",
+              "equity_irr": "equity irr", "min_dscr": "DSCR", "avg_dscr": "DSCR", "llcr": "LLCR",
+              "payback_year": "payback_year", "breakeven_ppa_price_per_mwh": "break-even PPA price"}
+
+
+@st.composite
+def any_accepted(draw):
+    """Scenarios across the edges: no price, no debt, a calm site, a one-year life, a tenor as long as
+    the life, costly overhauls, variants and a small Monte Carlo."""
+    life = draw(st.integers(1, 30))
+    raw = make_raw(**{
+        "project.lifetime_years": life,
+        "wind.mean_speed_mps": draw(st.sampled_from([1.0, 2.5, 4.0]) | st.floats(4.0, 11.0)),
+        "revenue.ppa_price_per_mwh": draw(st.sampled_from([0.0, 5.0]) | st.floats(0.0, 150.0)),
+        "capex.turbine_per_kw": draw(st.floats(0.0, 3000.0)),
+        "maintenance.fixed_per_kw_year": draw(st.floats(0.0, 200.0)),
+        "finance.tax_rate": draw(st.floats(0.0, 0.5)),
+        "finance.debt.tenor_years": draw(st.integers(1, life)),
+        "finance.debt.max_gearing": draw(st.sampled_from([0.0, 0.8, 1.0])),
+        "capex.decommissioning_per_kw": draw(st.sampled_from([0.0, 40.0, 2000.0])),
+    })
+    if draw(st.booleans()):
+        del raw["finance"]["debt"]
+    if draw(st.booleans()):
+        raw["maintenance"]["overhaul"] = [{"name": "works", "year": draw(st.integers(1, life)),
+                                           "cost_per_turbine": draw(st.floats(0.0, 5e6))}]
+    raw["variants"] = {"cheap": {"capex.turbine_per_kw": draw(st.floats(0.0, 3000.0))},
+                       "calm": {"wind.mean_speed_mps": draw(st.floats(1.0, 6.0))}}
+    raw["montecarlo"] = {"trials": draw(st.sampled_from([0, 5, 64])), "seed": 3}
+    return raw
+
+
+def _numbers(node, path=()):
+    """(path, value) of every number or null in a report."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield from _numbers(v, path + (k,))
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            yield from _numbers(v, path + (i,))
+    elif node is None or (isinstance(node, (int, float)) and not isinstance(node, bool)):
+        yield path, node
+
+
+def _has_reason(path, report) -> bool:
+    warnings = report["warnings"]
+    head = path[0]
+    if head == "annual":
+        row = report["annual"][path[1]]
+        # a year without debt service has no coverage ratio: the row's own zero says why
+        return path[2] == "dscr" and not row["debt_service"]
+    if head in ("metrics", "energy"):
+        word = NULL_WORDS.get(path[1], path[1]) if head == "metrics" else f"energy.{path[1]} is null"
+        return any(word in w for w in warnings)
+    if head == "variants":
+        name, block, key = path[1], path[2], path[3]
+        word = NULL_WORDS.get(key, key) if block == "metrics" else f"energy.{key} is null"
+        return any(w.startswith(f"variant {name}: ") and word in w for w in warnings) or \
+            any(word in w for w in warnings if not w.startswith("variant "))
+    if head == "montecarlo":
+        key = path[2] if path[1] == "p90_standard_error" else path[1]
+        return any(f"montecarlo.{key} is null" in w or f"montecarlo: {key} undefined" in w or
+                   f"montecarlo.p90_standard_error.{key} is null" in w for w in warnings)
+    return False
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(raw=any_accepted())
+def test_every_reported_number_is_finite_or_null_with_a_reason(raw):
+    """For any scenario the loader accepts, the JSON report (RFC 8259: no NaN or infinity) holds
+    finite numbers, and every null has its reason among the warnings."""
+    import json
+    import math
+
+    from lcoe.analysis import study
+    from lcoe.outputs import report as rp
+    try:
+        scn = sc.from_dict(raw, source="property.toml")
+        rep = json.loads(rp.to_json(study.build(scn)))
+    except ScenarioError:
+        return                                  # refused, in one line (the fuzz targets check how)
+    for path, value in _numbers(rep):
+        if value is None:
+            assert _has_reason(path, rep), (path, rep["warnings"])
+        else:
+            assert math.isfinite(value), path

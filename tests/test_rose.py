@@ -99,7 +99,7 @@ def test_the_sector_table_sums_to_the_gross_aep():
 def test_a_series_with_directions_gets_a_rose_whose_sectors_sum_to_the_series_gross(tmp_path):
     """The series' gross AEP (mean power x 8760) split by the direction of each hour sums back to it."""
     rng = np.random.default_rng(3)
-    n = 24 * 200
+    n = 24 * 366     # a full year: a series must cover every calendar month
     stamps = np.datetime64("2024-01-01T00:00") + np.arange(n).astype("timedelta64[h]")
     speed = weibull_min.rvs(2.0, scale=8.0, size=n, random_state=rng)
     direction = rng.uniform(0, 360, n)

@@ -26,8 +26,6 @@ def test_zero_spread_every_trial_equals_the_deterministic_case():
     raw = _quiet()
     raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": 0.03,
                                         "replacement_cost": 300000.0, "downtime_days": 20.0}]
-    raw["montecarlo"]["vary"] = {"capex.turbine_per_kw": {"distribution": "uniform", "low": 1100.0,
-                                                          "high": 1100.0}}
     scn = make_scenario(raw)
     case = model.run(scn)
     mc = uncertainty.monte_carlo(scn, case, trials=300)

@@ -292,14 +292,36 @@ def test_an_output_folder_that_does_not_exist_is_one_line(tmp_path, monkeypatch)
     assert list(tmp_path.iterdir()) == []
 
 
+def _failing_rename(monkeypatch, name):
+    """The final rename onto ``name`` fails (as on a full or vanished disk), after the data was written."""
+    import errno
+    import os
+
+    from lcoe.outputs import files
+    real = os.replace
+
+    def replace(src, dst):
+        if os.path.basename(dst) == name:
+            raise OSError(errno.EIO, os.strerror(errno.EIO))
+        return real(src, dst)
+    monkeypatch.setattr(files.os, "replace", replace)
+
+
 def test_a_failed_rename_leaves_neither_the_file_nor_a_temporary(tmp_path, monkeypatch):
-    """The target is a folder, so the final rename fails after the data was written."""
+    monkeypatch.chdir(tmp_path)
+    _failing_rename(monkeypatch, "yearly.csv")
+    code, _, stderr = _run(["run", str(VALID), "--csv", "yearly.csv", "--brief"])
+    assert code == 2
+    assert re.fullmatch(r"error: --csv = 'yearly\.csv': cannot write the file \([^\n]+\)\n", stderr)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_folder_in_the_way_of_an_output_is_refused_before_any_work(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     target = tmp_path / "yearly.csv"
     target.mkdir()
     code, _, stderr = _run(["run", str(VALID), "--csv", "yearly.csv", "--brief"])
-    assert code == 2
-    assert re.fullmatch(r"error: --csv = 'yearly\.csv': cannot write the file \([^\n]+\)\n", stderr)
+    assert (code, stderr) == (2, "error: --csv = 'yearly.csv': is a folder; give a file name\n")
     assert [p.name for p in tmp_path.iterdir()] == ["yearly.csv"] and target.is_dir()
     assert list(target.iterdir()) == []
 
@@ -361,9 +383,11 @@ def test_no_sign_change_gives_a_null_irr_and_zero_debt(tmp_path):
 
 
 def test_zero_energy_gives_no_lcoe(tmp_path):
-    """A calm site (every hour below cut-in): zero energy, so LCOE = cost / 0 is null, not infinite."""
-    calm = "timestamp,speed_mps\n" + "".join(
-        f"2025-01-{1 + h // 24:02d}T{h % 24:02d}:00:00Z,1.5\n" for h in range(24 * 31))
+    """A calm site (a year with every hour below cut-in): zero energy, so LCOE = cost / 0 is null, not infinite."""
+    import pandas as pd
+
+    stamps = pd.date_range("2025-01-01", periods=8760, freq="h", tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+    calm = "timestamp,speed_mps\n" + "".join(f"{t},{0.5 + (h % 25) / 10:.1f}\n" for h, t in enumerate(stamps))
     rep = _edge(tmp_path, ("mean_speed_mps = 7.2\nweibull_shape = 2.0\n", 'timeseries = "calm.csv"\n'),
                 extra_files=[("calm.csv", calm)])
     assert rep["energy"]["gross_aep_mwh"] == 0.0
@@ -425,12 +449,12 @@ def test_ppa_term_longer_than_life_is_only_a_warning(tmp_path):
 def test_when_the_second_output_fails_the_first_is_removed(tmp_path, monkeypatch):
     """--workbook is written first; a --csv that cannot be written takes it away again."""
     monkeypatch.chdir(tmp_path)
-    (tmp_path / "yearly.csv").mkdir()
+    _failing_rename(monkeypatch, "yearly.csv")
     code, _, stderr = _run(["run", str(VALID), "--workbook", "lenders.xlsx", "--csv", "yearly.csv", "--brief",
                             "--trials", "0"])
     assert code == 2
     assert re.fullmatch(r"error: --csv = 'yearly\.csv': cannot write the file \([^\n]+\)\n", stderr)
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["yearly.csv"]     # the folder in the way, nothing else
+    assert list(tmp_path.iterdir()) == []          # the workbook went again, and no temporary file is left
 
 
 def test_a_missing_output_folder_is_refused_before_any_work(tmp_path, monkeypatch):

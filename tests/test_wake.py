@@ -214,15 +214,15 @@ def test_a_curve_without_ct_gets_the_momentum_default(tmp_path):
     assert float(curve.thrust_coefficient_at(6.0, 1.2)) == pytest.approx(4 * a * (1 - a), rel=1e-9)
     assert "momentum theory" in curve.thrust_source
     path = tmp_path / "curve.csv"
-    path.write_text("speed_mps,power_kw,ct\n0,0,0\n3,50,0.8\n10,3000,0.6\n25,3000,0.1\n", encoding="utf-8")
+    path.write_text("speed_mps,power_kw,ct\n0,0,0\n3,50,0.8\n12,3000,0.6\n25,3000,0.1\n", encoding="utf-8")
     table = tb.read_curve_csv(path, 3000.0, 100.0)
-    assert float(table.thrust_coefficient_at(6.5, 1.225)) == pytest.approx(0.7)
+    assert float(table.thrust_coefficient_at(7.5, 1.225)) == pytest.approx(0.7)
     assert table.thrust_source == "ct column of the power curve"
 
 
 def test_a_ct_outside_0_to_1_is_refused(tmp_path):
     path = tmp_path / "curve.csv"
-    path.write_text("speed_mps,power_kw,ct\n0,0,0\n3,50,1.2\n10,3000,0.6\n", encoding="utf-8")
+    path.write_text("speed_mps,power_kw,ct\n0,0,0\n3,50,1.2\n12,3000,0.6\n", encoding="utf-8")
     with pytest.raises(ScenarioError) as e:
         tb.read_curve_csv(path, 3000.0, 100.0)
     assert str(e.value) == (f"{path}: turbine.power_curve = 'curve.csv': row 3: ct must be a thrust coefficient "

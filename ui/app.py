@@ -8,6 +8,7 @@ inputs into scenario overrides and results into tables and charts, nothing more.
 
 from __future__ import annotations
 
+import gc
 import hashlib
 import tempfile
 import time
@@ -17,7 +18,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import streamlit as st
-from lcoe.ui import charts, inputs
+from lcoe.ui import charts, inputs, uploads
 
 from lcoe import engine as model
 from lcoe.analysis import lifetime, study
@@ -27,6 +28,7 @@ from lcoe.demo_files import assumptions_dir
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.about import CAUTION
 from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.schema import MAX_TRIALS
 from lcoe.outputs import report as rp
 from lcoe.outputs import workbook
 from lcoe.physics import energy as en
@@ -58,27 +60,18 @@ def load_file(path: str, mtime_ns: int) -> sc.Scenario:
     return sc.load(path)
 
 
-def load_upload(name: str, data: bytes) -> sc.Scenario:
-    """An uploaded scenario; its relative data paths are read from assumptions/."""
-    shown = Path(name).name or "upload.toml"
-    with tempfile.TemporaryDirectory() as tmp:
-        p = Path(tmp) / "upload.toml"
-        p.write_bytes(data)
-        try:
-            raw = sc.parse_toml(p)
-        except ScenarioError as exc:
-            raise ScenarioError(exc.message, key=exc.key, value=exc.value, file=shown,
-                                has_value=exc.has_value) from None
-    scn = sc.from_dict(raw, source=shown, base_dir=ASSUMPTIONS)
-    files = (("turbine.power_curve", scn.turbine.power_curve), ("wind.timeseries", scn.wind.timeseries),
-             ("wind.long_term.reference", scn.wind.long_term.reference if scn.wind.long_term else None),
-             ("layout.positions", scn.layout.positions if scn.layout else None))
-    for key, rel in files:
-        if rel is not None and not scn.resolve(rel).is_file():
-            raise ScenarioError(f"not found: an uploaded scenario's data files are read relative to the "
-                                f"assumptions/ folder ({ASSUMPTIONS}); put the file there or give an absolute path",
-                                key=key, value=rel, file=shown)
-    return scn
+def upload_folder() -> Path:
+    """This session's folder for the data files uploaded with a scenario."""
+    folder = st.session_state.get("upload_dir")
+    if folder is None or not Path(folder).is_dir():
+        folder = str(uploads.new_folder())
+        st.session_state["upload_dir"] = folder
+    return Path(folder)
+
+
+def say(exc) -> str:
+    """An error for the browser: one line, naming uploaded files, never a server path."""
+    return uploads.public(exc, st.session_state.get("upload_dir"))
 
 
 @st.cache_resource(max_entries=64, show_spinner=False)
@@ -187,15 +180,26 @@ def pick_scenario() -> tuple[sc.Scenario | None, str]:
     try:
         if choice == UPLOAD:
             up = st.sidebar.file_uploader("Scenario file (TOML)", type=["toml"], key="upload")
+            extra = st.sidebar.file_uploader("Data files it names (power curve, wind series; CSV)", type=["csv"],
+                                             accept_multiple_files=True, key="upload_data")
             if up is None:
                 return None, ""
             data = up.getvalue()
-            return load_upload(up.name, data), "upload:" + hashlib.sha256(data).hexdigest()[:12]
+            files = {f.name: f.getvalue() for f in extra or []}
+            digest = hashlib.sha256(data)
+            for name in sorted(files):
+                digest.update(name.encode() + b"\0" + hashlib.sha256(files[name]).digest())
+            ident = "upload:" + digest.hexdigest()[:12]
+            if st.session_state.get("upload_ident") != ident or not st.session_state.get("upload_scn"):
+                st.session_state["upload_scn"] = uploads.load_upload(up.name, data, files, upload_folder())
+                st.session_state["upload_ident"] = ident
+            return st.session_state["upload_scn"], ident
         path = ASSUMPTIONS / choice
         scn = load_file(str(path), path.stat().st_mtime_ns)
         return scn, "file:" + hashlib.sha256(path.read_bytes()).hexdigest()[:12]
     except ScenarioError as exc:
-        st.error(exc.line())
+        st.session_state.pop("upload_scn", None)
+        st.error(say(exc))
         return None, ""
 
 
@@ -206,8 +210,9 @@ def main() -> None:
     base, ident = pick_scenario()
     if base is None:
         if st.session_state.get("scenario_file") == UPLOAD:
-            st.write("Upload a scenario file (TOML) in the sidebar, or pick one from assumptions/. Data files "
-                     "named in an uploaded scenario (power curve, wind series) are read relative to assumptions/.")
+            st.write("Upload a scenario file (TOML) in the sidebar, or pick one from assumptions/. Upload the data "
+                     "files it names (power curve, wind series) with it; they are matched by file name. The "
+                     "bundled demo files need no upload.")
         return
     resets = st.session_state.setdefault("resets", {})
     token = hashlib.sha256(f"{ident}:{resets.get(ident, 0)}".encode()).hexdigest()[:10]
@@ -224,7 +229,7 @@ def main() -> None:
         text = sc.to_toml(scn.raw)
         case = case_of(text, base_dir, source)
     except ScenarioError as exc:
-        st.error(exc.line())
+        st.error(say(exc))
         return
     pin = st.session_state.get("pinned")
     pinned = None
@@ -232,7 +237,7 @@ def main() -> None:
         try:
             pinned = case_of(pin["text"], pin["base_dir"], pin["source"])
         except ScenarioError as exc:
-            st.warning(f"The pinned case no longer runs: {exc.line()}")
+            st.warning(f"The pinned case no longer runs: {say(exc)}")
 
     st.subheader(f"{base.project.name}: {base.project.turbines} x {base.turbine.rated_power_kw:,.0f} kW, "
                  f"{scn.lifetime} years")
@@ -244,7 +249,7 @@ def main() -> None:
     if case.warnings:
         with st.expander(f"Warnings ({len(case.warnings)})"):
             for w in case.warnings:
-                st.write(f"- {w}")
+                st.write(f"- {say(w)}")
 
     tabs = st.tabs(TABS, key="view", on_change="rerun")
     views = [lambda: tab_energy(scn, case), lambda: tab_cash(scn, case, cur),
@@ -401,7 +406,7 @@ def tab_lifetime(scn, text, base_dir, source, cur) -> None:
         with st.spinner("Running 42 lives..."):
             df = lifetime_study(text, base_dir, source, int(year), float(cost_k) * 1e3)
     except ScenarioError as exc:
-        st.error(exc.line())
+        st.error(say(exc))
         return
     df["npv"] = df["npv"] * SHOW_SCALE["m"]
     left, right = st.columns(2)
@@ -430,7 +435,7 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
         with st.spinner("Sweeping the wind speed..."):
             rows = speed_study(text, base_dir, source, key, values)
     except ScenarioError as exc:
-        st.error(exc.line())
+        st.error(say(exc))
         return
     aep = pd.DataFrame([{"speed": r["value"], "what": what, "aep": r["energy"][k]} for r in rows
                         for k, what in (("gross_aep_mwh", "gross AEP"), ("net_aep_p50_mwh", "net AEP P50"))])
@@ -455,8 +460,8 @@ def current_mc(text: str):
 def tab_montecarlo(scn, case, text, cur) -> None:
     unc = unc_mod
     a, b, _ = st.columns([1, 1, 2])
-    trials = a.number_input("Trials [-]", value=int(scn.montecarlo.trials or 10000), min_value=100, step=1000,
-                            format="%d", key="mc_trials")
+    trials = a.number_input("Trials [-]", value=int(min(scn.montecarlo.trials or 10000, MAX_TRIALS)), min_value=100,
+                            max_value=MAX_TRIALS, step=1000, format="%d", key="mc_trials")
     b.markdown("&nbsp;")
     if b.button("Run the Monte Carlo", key="mc_run", type="primary"):
         bar = st.progress(0.0, text="Monte Carlo: starting")
@@ -464,10 +469,17 @@ def tab_montecarlo(scn, case, text, cur) -> None:
         def tick(fraction):
             f = min(max(float(fraction), 0.0), 1.0)
             bar.progress(f, text=f"Monte Carlo: {100 * f:.0f} % of {int(trials):,} trials")
+        st.session_state.pop("mc", None)     # the last result goes before a new one is made
+        gc.collect()
         try:
             res = unc.monte_carlo(scn, case, trials=int(trials), progress=tick)
-        except ScenarioError as exc:
-            st.error(exc.line())
+        except (ScenarioError, MemoryError) as exc:
+            res = None
+            bar.empty()
+            st.error(say(exc) if isinstance(exc, ScenarioError) else
+                     "Not enough memory for this many trials; the run was dropped. Try fewer trials.")
+            del exc
+            gc.collect()                     # a refused run keeps nothing
             return
         bar.empty()
         st.session_state["mc"] = {"text": text, "result": res}
@@ -500,7 +512,7 @@ def tab_montecarlo(scn, case, text, cur) -> None:
     st.caption(f"{res.trials:,} trials, seed {res.seed}. P90 is the conservative side: the 10th percentile of NPV, "
                "IRR and DSCR, the 90th of LCOE. The deterministic figures above are the P50 case.")
     for w in res.warnings:
-        st.caption(f"warning: {w}")
+        st.caption(f"warning: {say(w)}")
 
 
 def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
@@ -512,7 +524,7 @@ def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
         with st.spinner("Moving each input in turn..."):
             rows = tornado_of(text, base_dir, source, pick)
     except ScenarioError as exc:
-        st.error(exc.line())
+        st.error(say(exc))
         return
     name, unit, how = names[pick]
     scale = SHOW_SCALE.get(how, 1.0)
@@ -551,7 +563,7 @@ def tab_compare(base, text, base_dir, source, pin, cur) -> None:
     try:
         pinned = case_of(pin["text"], pin["base_dir"], pin["source"], breakeven=True)
     except ScenarioError as exc:
-        st.error(exc.line())
+        st.error(say(exc))
         return
     case = case_of(text, base_dir, source, breakeven=True)
     st.markdown(f"**Pinned: {pin['label']}.** Current: the inputs in the sidebar.")
@@ -595,4 +607,20 @@ def tab_yearly(case, cur) -> None:
                "The same table as the CSV download and `lcoe run --csv`.")
 
 
-main()
+def page() -> None:
+    """The page, with every failure shown as one message and the page kept (never a traceback)."""
+    try:
+        main()
+    except ScenarioError as exc:
+        st.error(say(exc))
+    except MemoryError:
+        gc.collect()
+        st.error("Not enough memory for this request; it was dropped. Try fewer trials or a shorter series.")
+    except Exception as exc:   # noqa: BLE001 - a bug must not show server internals in the browser
+        # (Streamlit's rerun and stop signals are BaseExceptions and pass through)
+        st.error(f"Something went wrong ({type(exc).__name__}); the inputs are kept. Change an input or reload the "
+                 "page.")
+        gc.collect()
+
+
+page()

@@ -40,6 +40,8 @@ from lcoe.inputs import keys
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.keys import numeric_value
 from lcoe.physics import energy as en
+from lcoe.inputs.scenario import vary_refusal
+from lcoe.inputs.schema import MAX_TRIALS
 
 BLOCK = 8192  # trials per random-number block
 HIST_BINS = 40
@@ -375,6 +377,43 @@ def poisson(rng: np.random.Generator, lam) -> np.ndarray:
     return rng.poisson(lam).astype(float)
 
 
+def refuse_idle_inputs(scn, case=None) -> None:
+    """Refuse a ``[montecarlo.vary]`` key whose draws would change no result.
+
+    Each key is set to the P10 and the P90 of its distribution (everything else as in the
+    file, the debt as sized at close) in one batch through the engine; a key that moves no
+    figure between the two is not used by this scenario, and drawing it would be a silent
+    no-op. (The loader refuses the kinds of key it can tell from the file alone.)
+    """
+    vary = scn.montecarlo.vary
+    if not vary:
+        return
+    for key in vary:
+        why = vary_refusal(scn, key)
+        if why:
+            raise ScenarioError(why, key=f"montecarlo.vary.{key}", has_value=False)
+    case = case if case is not None else model.run(scn, breakeven=False)
+    names = list(vary)
+    rows = 2 * len(names)
+    over = {}
+    for j, key in enumerate(names):
+        base = numeric_value(scn, key)
+        lo, hi = _bounds(scn, key)
+        column = np.full(rows, base)
+        column[2 * j:2 * j + 2] = np.clip(quantile(vary[key], base, np.array([0.1, 0.9])), lo, hi)
+        over[key] = column
+    res = run_trials(scn, case, over, Sample(), fused=False)
+    for j, key in enumerate(names):
+        a = np.array([np.asarray(res[k], float).reshape(-1)[2 * j] for k in res])
+        b = np.array([np.asarray(res[k], float).reshape(-1)[2 * j + 1] for k in res])
+        same = (a == b) | (np.isnan(a) & np.isnan(b)) | (np.abs(a - b) <= 1e-12 * np.maximum(np.abs(a), np.abs(b)))
+        if np.all(same):
+            p10, p90 = over[key][2 * j:2 * j + 2]
+            raise ScenarioError(f"its draws change no result (every figure is the same at its P10 {p10:g} and its "
+                                f"P90 {p90:g}): this scenario does not use it", key=f"montecarlo.vary.{key}",
+                                has_value=False)
+
+
 def _clip_inputs(scn, inputs: dict, clipped: list) -> dict:
     """Each drawn input clipped to its key's valid range; ``clipped`` receives
     (key, number of draws clipped, low, high) for each key with draws outside it."""
@@ -427,6 +466,10 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     seed = scn.montecarlo.seed if seed is None else int(seed)
     if n < 0:
         raise ScenarioError("must be >= 0", key="montecarlo.trials", value=n)
+    if n > MAX_TRIALS:
+        raise ScenarioError(f"must be at most {MAX_TRIALS:,} (as in the file)", key="montecarlo.trials", value=n)
+    if n:
+        refuse_idle_inputs(scn, case)
     chunk = scn.montecarlo.chunk_size if chunk_size is None else int(chunk_size)
     chunk = max(BLOCK, (chunk // BLOCK) * BLOCK)
     L = scn.lifetime

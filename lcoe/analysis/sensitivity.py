@@ -328,6 +328,53 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None) -> list[d
     return rows
 
 
+def null_reasons(scn, rows: list[dict], metrics) -> list[str]:
+    """A reason for every null in sweep or tornado rows (``metrics``: the columns shown).
+
+    A metric null in the base case has the base case's own reason (no debt, no sign change
+    in the cash flows, ...); one null only at some values is named with those values.
+    """
+    case = model.run(scn, breakeven=BREAKEVEN in metrics)
+    out: list[str] = []
+    for metric in metrics:
+        nulls = [r for r in rows if _row_metric(r, metric, "low") is None or _row_metric(r, metric, "high") is None]
+        if not nulls:
+            continue
+        if case.metrics.get(metric) is None:
+            why = [w for w in case.warnings if _names(w, metric)]
+            out.append(f"{metric} is null in the base case and so in every row" +
+                       (f": {why[0]}" if why else ""))
+            continue
+        where = ", ".join(_where(r, metric) for r in nulls[:3]) + (" and more" if len(nulls) > 3 else "")
+        out.append(f"{metric} is null at {where}: it does not exist there (no sign change in the cash flows, "
+                   "no debt or no energy at that value)")
+    if any(r.get("elasticity", 0) is None for r in rows) and "elasticity" not in metrics:
+        out.append("elasticity is null where a row has no neighbour, or a value or its energy is not positive")
+    return out
+
+
+_NULL_NAMES = {"lcoe_nominal_per_mwh": "LCOE", "lcoe_real_per_mwh": "LCOE", "project_irr": "project irr",
+               "equity_irr": "equity irr", "min_dscr": "DSCR", "avg_dscr": "DSCR", "llcr": "LLCR",
+               "payback_year": "payback_year", BREAKEVEN: "break-even"}
+
+
+def _names(warning: str, metric: str) -> bool:
+    return metric in warning or _NULL_NAMES.get(metric, metric) in warning
+
+
+def _row_metric(r: dict, metric: str, side: str):
+    if "metrics" in r:
+        return r["metrics"].get(metric)
+    return r.get(f"metric_at_{side}")
+
+
+def _where(r: dict, metric: str) -> str:
+    if "metrics" in r:
+        return f"{r['value']:g}"
+    sides = [s for s in ("low", "high") if r.get(f"metric_at_{s}") is None]
+    return f"{r['key']} " + " and ".join(f"{s} {r[f'{s}_value']:g}" for s in sides)
+
+
 # --------------------------------------------------------------------------- solve
 
 def _bracket(scn, key, base, low, high) -> tuple[float, float, bool]:

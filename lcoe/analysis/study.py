@@ -7,9 +7,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from lcoe.analysis import montecarlo
 from lcoe.analysis import sensitivity as sens
 from lcoe.engine import Case, run
+from lcoe.physics import energy as en
+from lcoe.physics import wind as resource
 
 
 @dataclass
@@ -31,17 +35,49 @@ class Report:
             "metrics": dict(c.metrics),
             "annual": c.annual(),
         }
+        series = en.site_for(c.scenario).climate.series
+        if series is not None:
+            out["series"] = series_block(series)
         if self.montecarlo is not None:
             out["montecarlo"] = self.montecarlo.report()
             warnings.extend(w for w in self.montecarlo.warnings if w not in warnings)
+            warnings.extend(w for w in montecarlo_null_reasons(self.montecarlo, out["montecarlo"])
+                            if w not in warnings)
         out["variants"] = {}
         for name, v in self.variants.items():
             out["variants"][name] = {"metrics": dict(v.metrics), "energy": v.energy.report()}
             warnings.extend(f"variant {name}: {w}" for w in v.warnings if w not in c.warnings)
+            for key, value in out["variants"][name]["energy"].items():
+                if value is None or (isinstance(value, float) and not math.isfinite(value)):
+                    warnings.append(f"variant {name}: energy.{key} is null: not defined for this scenario")
         for key, value in out["energy"].items():
             if value is None or (isinstance(value, float) and not math.isfinite(value)):
                 warnings.append(f"energy.{key} is null: not defined for this scenario")
         return clean(out)
+
+
+def series_block(series) -> dict:
+    """How a wind series was read: its time step, span, missing share and data in each calendar month."""
+    return {"step_minutes": series.step_s / 60.0, "years": series.years, "hours": series.hours * series.step_h,
+            "coverage_by_month": {m[:3].lower(): c for m, c in zip(resource.MONTHS, series.month_coverage)},
+            "weighting": "each calendar month by its length (days / 365.2425), whatever its share of the record"}
+
+
+def montecarlo_null_reasons(mc, block: dict) -> list[str]:
+    """A reason for every null and every partly undefined figure in the Monte Carlo block."""
+    out = []
+    for key, values in mc.samples.items():
+        bad = int(np.sum(~np.isfinite(values))) if values.size else 0
+        if not bad or any(w.startswith(f"montecarlo: {key} undefined") for w in mc.warnings):
+            continue
+        if bad == values.size:
+            out.append(f"montecarlo.{key} is null: it is undefined in every trial")
+        else:
+            out.append(f"montecarlo: {key} undefined in {bad} of {values.size} trial(s); percentiles use the rest")
+    for key, se in (block.get("p90_standard_error") or {}).items():
+        if se is None and block.get(key, {}).get("p50") is not None:
+            out.append(f"montecarlo.p90_standard_error.{key} is null: fewer than 10 trials define {key}")
+    return out
 
 
 def directions_blocks(energy) -> dict:

@@ -36,6 +36,8 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--workbook", metavar="PATH", help="write the lender workbook (.xlsx)")
     r.add_argument("--csv", metavar="PATH", help="write the yearly table as CSV")
     r.add_argument("--brief", action="store_true", help="table output without the yearly rows")
+    r.add_argument("--force", action="store_true",
+                   help="replace a read-only output file or a symbolic link (never an input, a folder or a device)")
     _command(r, "lcoe.cli.run:cmd_run")
 
     s = sub.add_parser("sweep", help="the model over a range of one input (with the AEP elasticity)",
@@ -107,6 +109,9 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
+    except MemoryError:      # a backstop: the limits on inputs keep every run far below it
+        print("error: not enough memory for this run; use fewer trials or a shorter series", file=sys.stderr)
+        return 2
     except BrokenPipeError:
         return 0
 

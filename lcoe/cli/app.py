@@ -28,7 +28,9 @@ def streamlit_argv(app: Path, port: int, address: str) -> list[str]:
     """The command line that serves the app without opening a browser."""
     return [sys.executable, "-m", "streamlit", "run", str(app),
             "--server.headless", "true", "--server.port", str(port), "--server.address", address,
-            "--browser.gatherUsageStats", "false", "--client.toolbarMode", "minimal"]
+            "--browser.gatherUsageStats", "false", "--client.toolbarMode", "minimal",
+            # the app shows every failure as one message; should one escape, no traceback reaches the browser
+            "--client.showErrorDetails", "none"]
 
 
 def cmd_app(args) -> int:

@@ -202,6 +202,23 @@ def loop_trials(scn, case, inputs: dict, sample, rows) -> dict:
     return {k: np.asarray(v, float) for k, v in out.items()}
 
 
+def _shape_vary_s(scn, trials: int) -> float | None:
+    """One Monte Carlo run (after one untimed) with the Weibull shape drawn as well (normal, sd 5 % of k),
+    which reads its own AEP table; None for a series climate (no shape to draw)."""
+    if scn.wind.timeseries is not None or trials <= 0:
+        return None
+    raw = scn.raw
+    vary = raw.setdefault("montecarlo", {}).setdefault("vary", {})
+    vary["wind.weibull_shape"] = {"distribution": "normal", "sd": 0.05 * scn.wind.weibull_shape}
+    raw["montecarlo"]["correlation"] = []
+    shaped = scenario.from_dict(raw, source=scn.source, base_dir=scn.base_dir)
+    case = model.run(shaped, breakeven=False)
+    uncertainty.monte_carlo(shaped, case, trials=min(trials, uncertainty.BLOCK))
+    t0 = time.perf_counter()
+    uncertainty.monte_carlo(shaped, case, trials=trials)
+    return time.perf_counter() - t0
+
+
 def wake_case(site):
     """The wake benchmark's inputs on the scenario's turbine: (x, y, D, k, probabilities, edges, power, thrust)."""
     d = site.curve.rotor_diameter_m
@@ -257,6 +274,7 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
     if worst > 1e-8:
         raise AssertionError(f"bench: loop and engine differ by {worst:.3g} (relative) on the subsample")
 
+    shape_s = _shape_vary_s(scn, trials)
     deterministic_ms = 1000.0 * _median_time(lambda: model.run(scn), 15)
     site = en.site_for(scn)
     c = site.climate
@@ -276,6 +294,7 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
         "loop_vs_engine_max_rel_diff": worst,
         "deterministic_ms": deterministic_ms,
         "aep_ms": aep_ms,
+        "shape_vary_s": shape_s,
         "wake_ms": wake_ms,
         "wake_case": f"{WAKE_ROWS * WAKE_COLUMNS} turbines, {WAKE_SECTORS} sectors, {WAKE_BIN_MPS:g} m/s bins, "
                      "1 degree directions",
@@ -285,6 +304,13 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
 
 
 def cmd_bench(args) -> int:
+    from lcoe.inputs.errors import ScenarioError
+    from lcoe.inputs.schema import MAX_TRIALS
+    if args.trials > MAX_TRIALS:
+        raise ScenarioError(f"must be at most {MAX_TRIALS:,} (the limit montecarlo.trials has in the file)",
+                            key="--trials", value=args.trials)
+    if args.repeat > 100:
+        raise ScenarioError("must be at most 100", key="--repeat", value=args.repeat)
     res = run_bench(args.file or DEMO, trials=args.trials, loop_sample=args.loop_sample, repeat=args.repeat)
     if args.json:
         print(json.dumps(res, indent=2))
@@ -296,6 +322,8 @@ def cmd_bench(args) -> int:
           f"(timed on {res['loop_subsample']} trials, scaled to {res['loop_estimate_s']:.1f} s)")
     print(f"  Speed-up of the engine over the loop:           {res['speedup_vs_loop']:.0f}x "
           f"(same numbers to {res['loop_vs_engine_max_rel_diff']:.1e})")
+    if res["shape_vary_s"] is not None:
+        print(f"  The same with the Weibull shape drawn too:      {res['shape_vary_s']:.3f} s (one run)")
     print(f"  One deterministic run (site cached):            {res['deterministic_ms']:.2f} ms")
     print(f"  Weibull AEP integral:                           {res['aep_ms']:.3f} ms")
     print(f"  Wake losses ({res['wake_case']}): {res['wake_ms']:.1f} ms")

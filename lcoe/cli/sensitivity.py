@@ -15,6 +15,7 @@ from lcoe.analysis.sensitivity import (
     ENERGY_KEYS,
     check_metric,
     is_integer_key,
+    null_reasons,
     solve,
     sweep,
     tornado,
@@ -80,12 +81,18 @@ def _metric_list(text: str | None, default) -> list[str]:
 
 def cmd_sweep(args) -> int:
     scn = sc.load(args.file)
+    with sc.naming_the_file(scn):
+        return _cmd_sweep(args, scn)
+
+
+def _cmd_sweep(args, scn) -> int:
     cols = _metric_list(args.metrics, SWEEP_COLUMNS + ((BREAKEVEN,) if args.breakeven else ()))
     be = args.breakeven or BREAKEVEN in cols
     values = np.linspace(args.start, args.stop, args.steps)
     rows = sweep(scn, args.key, values, breakeven=be)
+    notes = null_reasons(scn, rows, cols)
     if args.json:
-        _print_json({"scenario": scn.project.name, "key": args.key, "rows": rows})
+        _print_json({"scenario": scn.project.name, "key": args.key, "rows": rows, "warnings": notes})
         return 0
     cur = scn.project.currency
     integer = is_integer_key(scn, args.key)
@@ -105,26 +112,34 @@ def cmd_sweep(args) -> int:
         cells += ["n/a" if r["elasticity"] is None else f"{r['elasticity']:.3f}"]
         cells += [fmt(r["metrics"][k], METRIC_LABELS[k][2]) for k in cols]
         lines.append("  " + "  ".join(f"{c:>{w}}" for c, w in zip(cells, widths)))
+    lines.extend(f"warning: {w}" for w in notes)
     print("\n".join(lines))
     return 0
 
 
 def cmd_tornado(args) -> int:
     scn = sc.load(args.file)
+    with sc.naming_the_file(scn):
+        return _cmd_tornado(args, scn)
+
+
+def _cmd_tornado(args, scn) -> int:
     metric = check_metric(args.metric, label="--metric")
     inputs = [k.strip() for k in args.inputs.split(",") if k.strip()] if args.inputs else None
     rows = tornado(scn, metric=metric, inputs=inputs)
+    notes = null_reasons(scn, rows, [metric])
     if args.json:
         _print_json({"scenario": scn.project.name, "metric": metric,
-                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows})
+                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes})
         return 0
     cur = scn.project.currency
     name, unit, how = METRIC_LABELS[metric]
     label = f"{name} [{unit.format(cur=cur)}]"
     base = run(scn, breakeven=metric == BREAKEVEN).metrics[metric] if not rows else rows[0]["metric_base"]
     lines = _head(scn)
+    debt = "debt re-sized" if scn.finance.debt is not None else "all equity (no debt)"
     lines.append(f"Tornado on {label}: base case {fmt(base, how)}; one input at a time from its low to its high "
-                 "value, debt re-sized")
+                 f"value, {debt}")
     w = max([len(key_label(r["key"], cur)) for r in rows] + [5])
     wb = max([len(r["basis"]) for r in rows] + [5])
     lines.append(f"  {'Input':<{w}}  {'basis':<{wb}} {'low':>10} {'base':>10} {'high':>10}  {'at low':>10} "
@@ -139,6 +154,7 @@ def cmd_tornado(args) -> int:
                      f"{_fmt_value(r['high_value'], integer):>10}  {fmt(r['metric_at_low'], how):>10} "
                      f"{fmt(r['metric_at_high'], how):>10} {swing:>10}  {bar}")
     lines.append(f"  (at low / at high / swing in {unit.format(cur=cur)}; swing = at high - at low)")
+    lines.extend(f"warning: {w}" for w in notes)
     print("\n".join(lines))
     return 0
 
@@ -164,6 +180,11 @@ def parse_target(text: str) -> tuple[str, float]:
 
 def cmd_solve(args) -> int:
     scn = sc.load(args.file)
+    with sc.naming_the_file(scn):
+        return _cmd_solve(args, scn)
+
+
+def _cmd_solve(args, scn) -> int:
     metric, value = parse_target(args.target)
     if (args.low is None) != (args.high is None):
         raise ScenarioError("give both --low and --high, or neither", key="--low" if args.low is None else "--high",

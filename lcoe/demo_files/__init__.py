@@ -32,3 +32,8 @@ def assumptions_dir() -> Path:
 def demo_scenario(name: str = "tallowmere_ridge.toml") -> Path:
     """The path of one demo scenario."""
     return assumptions_dir() / name
+
+
+def demo_dir() -> Path:
+    """The folder of the invented demo data (power curve, hourly wind)."""
+    return _folder("lcoe.demo_files.demo", "demo")

@@ -115,12 +115,13 @@ def _speed_factor(scn, inp: Inputs, site: en.Site):
     return factor
 
 
-def _gross(scn, inp: Inputs, site: en.Site):
+def _gross(scn, inp: Inputs, site: en.Site, trials: bool = False):
     """Gross AEP per row (n, 1), the hub-speed factor of overridden speed keys, the speed
     sensitivity per row, and the wake loss of the layout per row (None without a layout).
 
     The wake loss is a fraction computed for the long-term climate: it follows the rows
-    whose climate, turbine or layout is changed, and stays as it is under a speed factor."""
+    whose climate, turbine or layout is changed, and stays as it is under a speed factor.
+    ``trials``: the rows are Monte Carlo trials (a drawn Weibull shape reads its table)."""
     others = [k for k in inp.over if k.split(".")[0] in ("wind", "turbine", "layout") and k not in SPEED_KEYS]
     inp.read.update(others)     # read by integrating the changed curve or climate
     wake = en.wake_loss_of(scn, site)
@@ -133,6 +134,24 @@ def _gross(scn, inp: Inputs, site: en.Site):
         with np.errstate(divide="ignore", invalid="ignore"):
             sens = np.log(hi / lo) / np.log(1.01 / 0.99)
         return gross, factor, sens, wake
+    if others == ["wind.weibull_shape"] and trials and scn.wind.timeseries is None and scn.wind.rose is None \
+            and scn.layout is None:
+        # Monte Carlo trials drawing the shape read its table, as trials drawing the speed read theirs
+        factor = _speed_factor(scn, inp, site)
+        fixed = "mean" if scn.wind.mean_speed_mps is not None else "scale"
+        k = np.broadcast_to(inp.over["wind.weibull_shape"], (inp.n, 1))
+        if np.ndim(factor) == 0:
+            gross, sens = en.gross_at_shape(site, fixed, k)
+            return gross, 1.0, sens, wake
+        # the speed drawn too: one integration per trial, all trials in one array operation
+        c = site.climate
+        a = (resource.weibull_scale_from_mean(c.mean_speed_mps, k) if fixed == "mean"
+             else np.full(k.shape, c.scale_mps)) * factor
+        rows = lambda f: en.aep_weibull_rows(site.site_curve, a * f, k, site.turbines)  # noqa: E731
+        gross, lo, hi = rows(1.0), rows(0.99), rows(1.01)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sens = np.where((lo > 0) & (hi > 0), np.log(hi / lo) / np.log(1.01 / 0.99), np.nan)
+        return gross, 1.0, sens, wake
     # other climate or turbine keys change the curve or the distribution: integrate each distinct row
     others += [k for k in SPEED_KEYS if inp.has(k)]
     stack = np.hstack([np.broadcast_to(inp.over[k], (inp.n, 1)) for k in others])
@@ -210,7 +229,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     n_turb = scn.project.turbines
     years = np.arange(1, L + 1)
     site = en.site_for(scn)
-    gross, key_factor, sens, wake = _gross(scn, inp, site)
+    gross, key_factor, sens, wake = _gross(scn, inp, site, trials=sample is not None)
     speed_ratio = speed_gross = None
     if sample is not None and sample.speed_factor is not None:
         # the trial's speed factors apply on top of any overridden mean speed

@@ -6,6 +6,9 @@ from typing import Any
 
 
 def _show(value: Any) -> str:
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) >= 10 ** 30:
+        # repr() of a huge integer is slow, and refused beyond 4300 digits
+        return f"<an integer of about {int(abs(value).bit_length() * 0.30103) + 1} digits>"
     if isinstance(value, str):
         text = repr(value)
     elif isinstance(value, float):
@@ -19,6 +22,30 @@ def _show(value: Any) -> str:
 
 # every character str.splitlines() breaks on becomes a space: the message stays one line
 _LINE_BREAKS = {ord(c): " " for c in "\n\r\v\f\x1c\x1d\x1e\x85\u2028\u2029"}
+
+# the parts of a message are cut to these lengths, so a huge key or file name (or a binary
+# header quoted from a data file) cannot turn one line into a screenful
+MAX_KEY = 160
+MAX_FILE = 160
+MAX_MESSAGE = 200
+
+
+def printable(text: str) -> str:
+    """One line of printable text: line breaks become spaces, other control characters '?'
+    (a terminal escape sequence quoted from a file is shown, not obeyed)."""
+    text = str(text).translate(_LINE_BREAKS)
+    return "".join(ch if ch.isprintable() or ch == " " else "?" for ch in text)
+
+
+def cut(text: str, limit: int, *, middle: bool = False) -> str:
+    """``text`` at most ``limit`` characters, the cut marked by '...' (in the middle for paths)."""
+    text = printable(text)
+    if len(text) <= limit:
+        return text
+    if middle:
+        half = (limit - 3) // 2
+        return text[:half] + "..." + text[len(text) - (limit - 3 - half):]
+    return text[:limit - 3] + "..."
 
 
 class ScenarioError(Exception):
@@ -40,14 +67,14 @@ class ScenarioError(Exception):
     def line(self) -> str:
         parts = []
         if self.file:
-            parts.append(f"{self.file}: ")
+            parts.append(f"{cut(self.file, MAX_FILE, middle=True)}: ")
         if self.key:
-            parts.append(self.key)
+            parts.append(cut(self.key, MAX_KEY, middle=True))
             if self.has_value:
                 parts.append(f" = {_show(self.value)}")
             parts.append(": ")
-        parts.append(self.message)
-        return "".join(parts).translate(_LINE_BREAKS)
+        parts.append(cut(self.message, MAX_MESSAGE))
+        return printable("".join(parts))
 
     def with_file(self, file: str) -> "ScenarioError":
         if self.file is None:

@@ -8,6 +8,7 @@ applies overrides and variants, and loads a file.
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import math
 import re
@@ -17,10 +18,21 @@ from typing import Any
 from pydantic import PrivateAttr, ValidationError
 
 from lcoe.inputs.errors import ScenarioError, _show
-from lcoe.inputs.keys import _inner_model, _model_at, get_dotted, numeric_keys, numeric_value, set_dotted, suggest  # noqa: F401
+from lcoe.inputs.keys import (  # noqa: F401
+    FILE_SETTINGS,
+    _inner_model,
+    _model_at,
+    get_dotted,
+    is_integer_key,
+    numeric_keys,
+    numeric_value,
+    set_dotted,
+    suggest,
+)
 from lcoe.inputs.schema import (  # noqa: F401
     DEPRECIATION_METHODS,
     LOSS_CATEGORIES,
+    MAX_VARIANTS,
     SCHEMA_VERSION,
     SIZING_CASES,
     ScenarioFields,
@@ -56,11 +68,22 @@ class Scenario(ScenarioFields):
         return p if p.is_absolute() else self._base_dir / p
 
     def with_overrides(self, overrides: dict[str, Any], *, label: str = "override") -> "Scenario":
-        """A new scenario with dotted keys replaced (same validation as the file)."""
-        raw = self.raw
+        """A new scenario with dotted keys replaced (same validation as the file).
+
+        The variants come along as they are, without being copied or validated again (they
+        were checked with the file): so applying each of many variants costs the same
+        whatever their number."""
+        raw = {k: copy.deepcopy(v) for k, v in self._raw.items() if k != "variants"}
         for key, value in overrides.items():
+            if isinstance(key, str) and key.split(".")[0] == "variants":
+                raise ScenarioError("an override cannot change the variants", key=f"{label}.{key}" if label else key,
+                                    has_value=False)
             set_dotted(raw, key, value, label=label)
-        return from_dict(raw, source=self._source, base_dir=self._base_dir, check_variants=False)
+        scn = from_dict(raw, source=self._source, base_dir=self._base_dir, check_variants=False)
+        if "variants" in self._raw:
+            scn = scn.model_copy(update={"variants": self.variants})
+            scn._raw = {**scn._raw, "variants": self._raw["variants"]}
+        return scn
 
     def variant(self, name: str) -> "Scenario":
         if name not in self.variants:
@@ -143,13 +166,22 @@ def _convert(err: ValidationError, raw: dict) -> ScenarioError:
     if typ == "literal_error":
         expected = e.get("ctx", {}).get("expected", "")
         return ScenarioError(f"must be one of {expected}", key=key, value=value)
+    if typ == "float_type" and isinstance(value, int) and not isinstance(value, bool):
+        return ScenarioError("is too large to be a number here", key=key, value=value)
     if typ in _MESSAGES:
         try:
-            msg = _MESSAGES[typ].format(**e.get("ctx", {}))
+            msg = _MESSAGES[typ].format(**{k: _bound_text(v) for k, v in (e.get("ctx") or {}).items()})
         except (KeyError, IndexError):
             msg = e["msg"]
         return ScenarioError(msg, key=key, value=value)
     return ScenarioError(e["msg"].rstrip(".").lower(), key=key, value=value)
+
+
+def _bound_text(v: Any) -> Any:
+    """A limit as written in a message: 1e+12 rather than 1000000000000.0."""
+    if isinstance(v, float) and v.is_integer() and abs(v) >= 1e5:
+        return f"{v:g}"
+    return v
 
 
 def _check_finite(raw: Any, path: str = "") -> None:
@@ -170,6 +202,10 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
         if not isinstance(raw, dict):
             raise ScenarioError("a scenario must be a table of sections", has_value=False)
         _check_finite(raw)
+        variants = raw.get("variants")
+        if isinstance(variants, dict) and len(variants) > MAX_VARIANTS:
+            raise ScenarioError(f"{len(variants)} variants; a scenario compares at most {MAX_VARIANTS}",
+                                key="variants", has_value=False)
         version = raw.get("schema_version")
         if version is None:
             raise ScenarioError(f"is required (this program reads version {SCHEMA_VERSION})", key="schema_version",
@@ -186,6 +222,12 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
         scn._raw = copy.deepcopy(raw)
         _cross_checks(scn)
         if check_variants:
+            # the file's own Monte Carlo keys (a scenario derived from it, with a shorter life say,
+            # is not refused for them: its Monte Carlo run checks them again, by their effect)
+            for name in scn.montecarlo.vary:
+                why = vary_refusal(scn, name)
+                if why:
+                    raise ScenarioError(why, key=f"montecarlo.vary.{name}", has_value=False)
             for name, overrides in scn.variants.items():
                 if not isinstance(overrides, dict):
                     raise ScenarioError("must be a table of dotted keys and values", key=f"variants.{name}",
@@ -293,6 +335,16 @@ def _check_text(scn: Scenario) -> None:
                                 key=key, value=text)
     if not scn.project.name.strip():
         raise ScenarioError("must not be blank", key="project.name", value=scn.project.name)
+    for name in scn.variants:
+        if _CONTROL.search(name) or not name.strip() or len(name) > MAX_NAME:
+            raise ScenarioError(f"a variant's name must be one line of at most {MAX_NAME} printable characters",
+                                key="variants", value=name)
+    for key, rel in (("turbine.power_curve", scn.turbine.power_curve), ("wind.timeseries", scn.wind.timeseries)):
+        if rel is not None and (not rel.strip() or _CONTROL.search(rel)):
+            raise ScenarioError("must name a file (not blank, without control characters)", key=key, value=rel)
+
+
+MAX_NAME = 60
 
 
 def _cross_checks(scn: Scenario) -> None:
@@ -315,16 +367,6 @@ def _cross_checks(scn: Scenario) -> None:
         raise ScenarioError(f"must not be longer than project.lifetime_years = {L}",
                             key="finance.debt.tenor_years", value=debt.tenor_years)
     mc = scn.montecarlo
-    for name in mc.vary:
-        try:
-            numeric_value(scn, name)
-        except ScenarioError as exc:
-            msg = exc.message if exc.message.startswith("unknown key") else \
-                f"does not name a numeric scenario value ({exc.message})"
-            raise ScenarioError(msg, key=f"montecarlo.vary.{name}", has_value=False) from None
-        if name in ("project.lifetime_years", "project.turbines"):
-            raise ScenarioError("cannot vary between trials (it changes the shape of the model); use variants",
-                                key=f"montecarlo.vary.{name}", has_value=False)
     for i, c in enumerate(mc.correlation):
         for n in c.between:
             if n not in mc.vary:
@@ -362,8 +404,107 @@ def _layout_checks(scn: Scenario) -> None:
                                 has_value=False)
 
 
+def vary_refusal(scn: Scenario, key: str) -> str | None:
+    """Why ``[montecarlo.vary."KEY"]`` cannot be drawn in this scenario, or None.
+
+    A Monte Carlo trial draws a continuous value for each key and runs the model with the
+    debt as sized at close, so a key is refused where a draw would not be honoured or
+    would change nothing: whole numbers (a year of 11.6 matches no year), the debt's
+    terms (the schedule is fixed at close), settings of the file and of the uncertainty
+    itself, and inputs this scenario does not use.
+    """
+    try:
+        base = numeric_value(scn, key)
+    except ScenarioError as exc:
+        return exc.message if exc.message.startswith("unknown key") else \
+            f"does not name a numeric scenario value ({exc.message})"
+    head = key.split(".")[0]
+    if head in FILE_SETTINGS:
+        return "is a setting of the file, not a model input"
+    if key in ("project.lifetime_years", "project.turbines"):
+        return "cannot vary between trials (it changes the shape of the model); use variants"
+    if is_integer_key(key):
+        return ("is a whole number (a year or a count): a trial's draw of, say, 11.6 would match no year, so it "
+                "cannot be drawn; compare whole values with variants or `lcoe sweep`")
+    if key.startswith("finance.debt."):
+        return ("is a term of the debt, which is sized once at financial close; every trial meets that schedule, "
+                "so its draws would change nothing; compare values with variants or `lcoe sweep` "
+                "(which re-size the debt)")
+    if head == "uncertainty":
+        return "sets the spread of the wind and energy draws; it is not itself drawn"
+    w, t, r, o = scn.wind, scn.turbine, scn.revenue, scn.operations
+    unused = {
+        "wind.weibull_shape": (w.timeseries is not None and "the distribution comes from wind.timeseries") or
+        (getattr(w, "rose", None) is not None and "the wind rose gives each sector's shape"),
+        "wind.max_missing_share": "it only decides whether the series is accepted",
+        "wind.shear_exponent": w.roughness_length_m is not None and "the log law (wind.roughness_length_m) "
+                                                                    "sets the shear",
+        "wind.elevation_m": w.air_density_kgm3 is not None and "wind.air_density_kgm3 is given",
+        "wind.mean_temperature_c": w.air_density_kgm3 is not None and "wind.air_density_kgm3 is given",
+        "turbine.curve_air_density_kgm3": t.power_curve is None and "the power curve is built from physics",
+        "revenue.merchant_price_per_mwh": scn.ppa_term_years >= scn.lifetime and "the PPA covers the whole life",
+        "revenue.merchant_escalation": scn.ppa_term_years >= scn.lifetime and "the PPA covers the whole life",
+        "revenue.ppa_price_per_mwh": scn.ppa_term_years == 0 and r.merchant_price_per_mwh is not None
+        and "revenue.ppa_term_years = 0",
+        "revenue.ppa_escalation": scn.ppa_term_years == 0 and "revenue.ppa_term_years = 0",
+        "revenue.production_credit_per_mwh": r.production_credit_years == 0 and "revenue.production_credit_years = 0",
+        "operations.availability_ageing_per_year": o.ageing_starts_year >= scn.lifetime and
+        f"operations.ageing_starts_year = {o.ageing_starts_year} is not before the end of the life",
+    }
+    for c in scn.maintenance.component:
+        prefix = f"maintenance.component.{c.name}."
+        rate_varied = prefix + "failure_rate_per_turbine_year" in scn.montecarlo.vary
+        if c.failure_rate_per_turbine_year == 0 and not rate_varied:
+            for field in ("replacement_cost", "downtime_days"):
+                unused[prefix + field] = f"the component never fails ({prefix}failure_rate_per_turbine_year = 0)"
+    if unused.get(key):
+        return f"is not used in this scenario ({unused[key]}), so its draws would change nothing"
+    spec = scn.montecarlo.vary[key] if key in scn.montecarlo.vary else None
+    if spec is not None and spec.distribution == "lognormal":
+        mean = base if spec.mean is None else spec.mean
+        if mean <= 0:
+            return f"a lognormal input needs a mean > 0 (the scenario's value {mean:g} is used when mean is omitted)"
+        if spec.sd > 1000.0 * mean:
+            return f"sd = {spec.sd:g} is more than 1000 times the mean {mean:g}; no lognormal input is that wide"
+    return None
+
+
+def input_files(scn: Scenario) -> list[tuple[str, Path]]:
+    """(label, path) of every file a run of the scenario reads: the scenario and the data files
+    it names, its variants' included."""
+    out: list[tuple[str, Path]] = []
+    if scn.source and not scn.source.startswith("<"):
+        out.append(("the scenario", Path(scn.source)))
+    tables = [(None, scn)] + [(name, None) for name in scn.variants]
+    for name, one in tables:
+        if one is None:
+            try:
+                one = scn.variant(name)
+            except ScenarioError:
+                continue
+        for key in ("turbine.power_curve", "wind.timeseries", "wind.long_term.reference", "layout.positions"):
+            rel: Any = one
+            for part in key.split("."):
+                rel = getattr(rel, part, None) if rel is not None else None
+            if isinstance(rel, str):
+                label = f"{key} of variant {name}" if name else key
+                out.append((label, one.resolve(rel)))
+    return out
+
+
+@contextlib.contextmanager
+def naming_the_file(scn: Scenario):
+    """A ScenarioError raised while a scenario runs names its file (unless it names a data file already)."""
+    try:
+        yield
+    except ScenarioError as exc:
+        raise exc.with_file(scn.source) from None
+
+
 def load(path: str | Path) -> Scenario:
     """Load and validate a scenario file. Raises :class:`ScenarioError`."""
+    if not str(path).strip():
+        raise ScenarioError("no scenario file given (the path is blank)")
     path = Path(path)
     raw = parse_toml(path)
     return from_dict(raw, source=str(path), base_dir=path.parent)

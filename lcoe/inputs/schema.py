@@ -19,6 +19,19 @@ LossFrac = Annotated[float, Field(ge=0.0, lt=1.0)]
 Pos = Annotated[float, Field(gt=0.0)]
 NonNeg = Annotated[float, Field(ge=0.0)]
 Rate = Annotated[float, Field(gt=-1.0, le=1.0)]
+# Money bounds: no single cost item reaches 1e12 (a trillion); rates per kW or per MWh are held to
+# about a hundred times anything built (a turbine costs some 1,000 per kW), so no sum can overflow
+Money = Annotated[float, Field(ge=0.0, le=1e12)]
+PerKw = Annotated[float, Field(ge=0.0, le=1e5)]
+PerKwYear = Annotated[float, Field(ge=0.0, le=1e4)]
+PerMwh = Annotated[float, Field(ge=0.0, le=1e4)]
+
+#: the most Monte Carlo trials a run takes (the file, the command line and the app alike)
+MAX_TRIALS = 10_000_000
+#: the largest seed: a whole number a spreadsheet cell holds exactly (2^53 - 1)
+MAX_SEED = 2 ** 53 - 1
+#: the most variants a scenario compares
+MAX_VARIANTS = 200
 
 
 class _Model(BaseModel):
@@ -67,7 +80,8 @@ class LongTerm(_Model):
 
 class Wind(_Model):
     height_m: Pos
-    mean_speed_mps: Annotated[float, Field(gt=0.0, lt=40.0)] | None = None
+    # no measured site has a long-term mean above 20 m/s (a series in km/h reads as 25-30)
+    mean_speed_mps: Annotated[float, Field(gt=0.0, le=20.0)] | None = None
     weibull_scale_mps: Annotated[float, Field(gt=0.0, lt=45.0)] | None = None
     timeseries: Annotated[str, Field(min_length=1)] | None = None
     weibull_shape: Annotated[float, Field(ge=0.5, le=10.0)] | None = None
@@ -216,20 +230,20 @@ class Operations(_Model):
 class Component(_Model):
     name: Annotated[str, Field(min_length=1)]
     failure_rate_per_turbine_year: Annotated[float, Field(ge=0.0, le=20.0)]
-    replacement_cost: NonNeg = 0.0
+    replacement_cost: Money = 0.0
     downtime_days: Annotated[float, Field(ge=0.0, le=365.0)] = 0.0
 
 
 class Overhaul(_Model):
     name: Annotated[str, Field(min_length=1)]
     year: Annotated[int, Field(ge=1, le=60)]
-    cost_per_turbine: NonNeg
+    cost_per_turbine: Money
 
 
 class Maintenance(_Model):
-    fixed_per_kw_year: NonNeg = 0.0
-    variable_per_mwh: NonNeg = 0.0
-    insurance_per_kw_year: NonNeg = 0.0
+    fixed_per_kw_year: PerKwYear = 0.0
+    variable_per_mwh: PerMwh = 0.0
+    insurance_per_kw_year: PerKwYear = 0.0
     land_lease_share_of_revenue: Annotated[float, Field(ge=0.0, lt=1.0)] = 0.0
     escalation: Rate | None = None
     component: list[Component] = []
@@ -247,13 +261,13 @@ class Maintenance(_Model):
 
 
 class Capex(_Model):
-    turbine_per_kw: NonNeg
-    balance_of_plant_per_kw: NonNeg = 0.0
-    grid_connection: NonNeg = 0.0
-    development: NonNeg = 0.0
+    turbine_per_kw: PerKw
+    balance_of_plant_per_kw: PerKw = 0.0
+    grid_connection: Money = 0.0
+    development: Money = 0.0
     contingency: Annotated[float, Field(ge=0.0, le=1.0)] = 0.0
-    decommissioning_per_kw: NonNeg = 0.0
-    salvage_per_kw: NonNeg = 0.0
+    decommissioning_per_kw: PerKw = 0.0
+    salvage_per_kw: PerKw = 0.0
 
 
 class Revenue(_Model):
@@ -301,13 +315,16 @@ class Uncertainty(_Model):
     energy: list[SpeedTerm] = []
 
 
+VaryNumber = Annotated[float, Field(ge=-1e12, le=1e12)]
+
+
 class Vary(_Model):
     distribution: Literal["normal", "triangular", "lognormal", "uniform"]
-    mean: float | None = None
-    sd: NonNeg | None = None
-    low: float | None = None
-    mode: float | None = None
-    high: float | None = None
+    mean: VaryNumber | None = None
+    sd: Annotated[float, Field(ge=0.0, le=1e12)] | None = None
+    low: VaryNumber | None = None
+    mode: VaryNumber | None = None
+    high: VaryNumber | None = None
 
     @model_validator(mode="after")
     def _params(self) -> "Vary":
@@ -317,12 +334,17 @@ class Vary(_Model):
                 raise _Cross("sd", None, f"is required for a {d} distribution", has_value=False)
             if d == "lognormal" and self.mean is not None and self.mean <= 0:
                 raise _Cross("mean", self.mean, "must be > 0 for a lognormal distribution")
+            if self.sd == 0:
+                raise _Cross("sd", self.sd, "must be > 0: with no spread every trial draws the same value")
         else:
             for k in ("low", "high"):
                 if getattr(self, k) is None:
                     raise _Cross(k, None, f"is required for a {d} distribution", has_value=False)
             if self.high < self.low:
                 raise _Cross("high", self.high, f"must be >= low = {self.low}")
+            if self.high == self.low:
+                raise _Cross("high", self.high, f"must be above low = {self.low}: with no spread every trial "
+                                                "draws the same value")
             if d == "triangular" and self.mode is not None and not (self.low <= self.mode <= self.high):
                 raise _Cross("mode", self.mode, f"must lie between low = {self.low} and high = {self.high}")
         return self
@@ -334,8 +356,8 @@ class Correlation(_Model):
 
 
 class MonteCarlo(_Model):
-    trials: Annotated[int, Field(ge=0, le=10_000_000)] = 0
-    seed: Annotated[int, Field(ge=0)] = 0
+    trials: Annotated[int, Field(ge=0, le=MAX_TRIALS)] = 0
+    seed: Annotated[int, Field(ge=0, le=MAX_SEED)] = 0
     sampling: Literal["random", "latin_hypercube"] = "random"
     failures: Literal["sampled", "expected"] = "sampled"
     chunk_size: Annotated[int, Field(ge=1000, le=1_000_000)] = 8192

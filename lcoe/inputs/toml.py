@@ -10,23 +10,115 @@ from pathlib import Path
 from typing import Any
 
 from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.paths import MAX_SCENARIO_BYTES, check_input_file
+
+#: tables and arrays nest at most this deep (the format itself needs 3)
+MAX_DEPTH = 32
+#: a number in a scenario has at most this many digits (a float has 17 significant ones)
+MAX_DIGITS = 30
 
 
 def parse_toml(path: Path) -> dict:
+    shown = str(path)
+    check_input_file(path, lambda msg: ScenarioError(msg, file=shown), what="a scenario file",
+                     max_bytes=MAX_SCENARIO_BYTES)
     try:
-        text = path.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise ScenarioError("file not found", file=str(path)) from None
-    except IsADirectoryError:
-        raise ScenarioError("is a folder, not a scenario file", file=str(path)) from None
+        # utf-8-sig: a byte-order mark, as some editors write, is not part of the text
+        text = path.read_bytes().decode("utf-8-sig")
     except UnicodeDecodeError:
-        raise ScenarioError("is not UTF-8 text", file=str(path)) from None
+        raise ScenarioError("is not UTF-8 text", file=shown) from None
     except OSError as exc:
-        raise ScenarioError(f"cannot be read ({exc.strerror})", file=str(path)) from None
+        raise ScenarioError(f"cannot be read ({exc.strerror})", file=shown) from None
+    return parse_toml_text(text, shown)
+
+
+def parse_toml_text(text: str, shown: str) -> dict:
+    """TOML text to data, bounded: nesting and number lengths are checked before the parser
+    sees them (a parser recursing 5,000 levels deep, or turning a 100,000-digit number into
+    an integer, would fail or take minutes), and the result's depth after."""
+    problem = _prescan(text)
+    if problem:
+        raise ScenarioError(problem, file=shown)
     try:
-        return tomllib.loads(text)
+        raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise ScenarioError(_syntax_message(str(exc), text), file=str(path)) from None
+        raise ScenarioError(_syntax_message(str(exc), text), file=shown) from None
+    except (RecursionError, ValueError, MemoryError) as exc:
+        raise ScenarioError(f"cannot be read as TOML ({type(exc).__name__})", file=shown) from None
+    if _depth(raw) > MAX_DEPTH:
+        raise ScenarioError(f"tables nest more than {MAX_DEPTH} levels deep; a scenario needs 3", file=shown)
+    return raw
+
+
+_LONG_NUMBER = re.compile(r"[0-9_]{%d,}" % (MAX_DIGITS + 1))
+
+
+def _prescan(text: str) -> str | None:
+    """The first nesting or number-size problem outside strings and comments, or None.
+
+    A quick look first: most files have neither many brackets nor long digit runs.
+    """
+    if text.count("[") + text.count("{") <= MAX_DEPTH and not _LONG_NUMBER.search(text):
+        return None
+    depth, line, i, n = 0, 1, 0, len(text)
+    run = 0
+    while i < n:
+        ch = text[i]
+        if ch == "\n":
+            line += 1
+        if ch.isdigit() or (ch == "_" and run):
+            run += ch.isdigit()
+            if run > MAX_DIGITS:
+                return (f"line {line}: a number with more than {MAX_DIGITS} digits; numbers in a scenario are "
+                        f"written with at most {MAX_DIGITS} (use an exponent, e.g. 1.5e9)")
+            i += 1
+            continue
+        run = 0
+        if ch == "#":
+            j = text.find("\n", i)
+            i = n if j < 0 else j
+            continue
+        if ch in "\"'":
+            quote = ch * 3 if text.startswith(ch * 3, i) else ch
+            i += len(quote)
+            while i < n and not text.startswith(quote, i):
+                if text[i] == "\n":
+                    if len(quote) == 1:
+                        break                  # an unclosed string: the parser reports it
+                    line += 1
+                if text[i] == "\\" and quote[0] == '"':
+                    i += 1
+                    line += i < n and text[i] == "\n"
+                i += 1
+            if text.startswith(quote, i):
+                i += len(quote)
+            continue
+        if ch in "[{":
+            depth += 1
+            if depth > MAX_DEPTH:
+                return f"line {line}: arrays or tables nest more than {MAX_DEPTH} levels deep; a scenario needs 3"
+        elif ch in "]}":
+            depth = max(0, depth - 1)
+        i += 1
+    return None
+
+
+def _depth(node) -> int:
+    """How deeply tables and arrays nest in parsed data (without recursion)."""
+    deepest, stack = 0, [(node, 1)]
+    while stack:
+        item, d = stack.pop()
+        if isinstance(item, dict):
+            children = item.values()
+        elif isinstance(item, list):
+            children = item
+        else:
+            continue
+        deepest = max(deepest, d)
+        if d > MAX_DEPTH:
+            return d
+        stack.extend((c, d + 1) for c in children)
+    return deepest
 
 
 _TOML_HINTS = {

@@ -16,9 +16,12 @@ from lcoe.physics.site import (  # noqa: F401  (the site's names, as the energy 
     Climate,
     Site,
     aep_weibull_mwh,
+    aep_weibull_rows,
     climate_from,
     curve_from,
+    gross_at_shape,
     mean_power_weibull_kw,
+    shape_table,
     site_for,
 )
 from lcoe.physics.wind import Z_90, Z_99
@@ -190,6 +193,10 @@ class EnergyResult:
         return {k: float(getattr(self, k)) for k in keys}
 
 
+#: a net capacity factor above this is not seen in wind farms (common practice) [-]
+HIGH_CAPACITY_FACTOR = 0.6
+
+
 def energy_of(scn) -> EnergyResult:
     """Gross and net energy, the yearly profile and the P-values of a scenario."""
     site = site_for(scn)
@@ -224,6 +231,9 @@ def energy_of(scn) -> EnergyResult:
             warns.append(f"wind_rose: sector(s) {', '.join(map(str, unfit))} have too few samples for a Weibull fit "
                          "(their weibull_scale_mps and weibull_shape are null; their energy is counted)")
     cf = p50 / (scn.plant_kw * HOURS_PER_YEAR / 1000.0)
+    if cf > HIGH_CAPACITY_FACTOR:
+        warns.append(f"the net capacity factor is {cf:.0%}: no wind farm runs that steadily (common practice: "
+                     "25-50 %); check the power curve and the wind input")
     return EnergyResult(
         air_density_kgm3=c.density_kgm3, hub_mean_speed_mps=c.mean_speed_mps, weibull_scale_mps=c.scale_mps,
         weibull_shape=c.shape, gross_aep_mwh=gross, loss_factor=lf, downtime_fraction=d,

@@ -168,7 +168,7 @@ def load_reference(path, *, key: str = "wind.long_term.reference", max_missing_s
                    ) -> resource.Series:
     """A reference series ``timestamp, speed_mps[, direction_deg]`` at its own regular time step."""
     check_data_file(path, key=key, max_bytes=MAX_REFERENCE_BYTES)
-    return resource.load_series(path, key=key, max_missing_share=max_missing_share, step_h=None)
+    return resource.load_series(path, key=key, max_missing_share=max_missing_share, step_h=None, max_step_h=None)
 
 
 def _interannual_sd(stamps, speeds, step_h) -> tuple[float, int]:

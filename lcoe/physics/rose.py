@@ -109,6 +109,8 @@ class Rose:
     source: str                      # "table" | "series"
     speeds_mps: np.ndarray | None = None
     directions_deg: np.ndarray | None = None
+    weights: np.ndarray | None = None        # series: each sample's weight (sum 1; None: equal)
+
 
     @property
     def sectors(self) -> int:
@@ -125,7 +127,7 @@ class Rose:
     def scaled(self, factor: float) -> "Rose":
         """The rose with every speed multiplied by ``factor`` (shear to hub height; the shapes stay)."""
         return Rose(self.frequency, self.scale_mps * factor, self.shape, self.source,
-                    None if self.speeds_mps is None else self.speeds_mps * factor, self.directions_deg)
+                    None if self.speeds_mps is None else self.speeds_mps * factor, self.directions_deg, self.weights)
 
     def sector_mean_mps(self) -> np.ndarray:
         """Mean speed of each sector (the series' own where derived from one). [m/s]"""
@@ -163,7 +165,7 @@ class Rose:
         less the share beyond the last edge. [-]
 
         Table: f_s (F_s(hi) - F_s(lo)) with the Weibull distribution function
-        F(v) = 1 - exp(-(v/A)^k). Series: the share of the samples in each cell.
+        F(v) = 1 - exp(-(v/A)^k). Series: the share of the samples in each cell (by their weights).
         """
         e = np.asarray(edges_mps, float)
         n = self.sectors
@@ -171,8 +173,11 @@ class Rose:
             idx = sector_of(self.directions_deg, n)
             b = np.searchsorted(e, self.speeds_mps, side="right") - 1
             inside = (b >= 0) & (b < e.size - 1)
-            counts = np.bincount(idx[inside] * (e.size - 1) + b[inside], minlength=n * (e.size - 1))
-            return counts.reshape(n, e.size - 1) / float(self.speeds_mps.size)
+            cell = idx[inside] * (e.size - 1) + b[inside]
+            if self.weights is None:
+                counts = np.bincount(cell, minlength=n * (e.size - 1))
+                return counts.reshape(n, e.size - 1) / float(self.speeds_mps.size)
+            return np.bincount(cell, weights=self.weights[inside], minlength=n * (e.size - 1)).reshape(n, e.size - 1)
         a = self.scale_mps[:, None]
         k = self.shape[:, None]
         cdf = 1.0 - np.exp(-np.power(np.maximum(e[None, :], 0.0) / a, k))
@@ -185,16 +190,21 @@ def rose_from_table(frequency, scale_mps, shape) -> Rose:
     return Rose(f / f.sum(), np.asarray(scale_mps, float).copy(), np.asarray(shape, float).copy(), "table")
 
 
-def rose_from_series(speed_mps, direction_deg, sectors: int = 12) -> Rose:
-    """A rose from paired speeds and directions: each sector's share of the samples and its
-    maximum-likelihood Weibull (:func:`weibull_fit_mle`)."""
+def rose_from_series(speed_mps, direction_deg, sectors: int = 12, weights=None) -> Rose:
+    """A rose from paired speeds and directions: each sector's share of the samples (each sample
+    weighed by ``weights``, summing to 1, as the series mean weighs it) and its maximum-likelihood
+    Weibull (:func:`weibull_fit_mle`)."""
     v = np.asarray(speed_mps, float)
     d = np.asarray(direction_deg, float)
     idx = sector_of(d, sectors)
-    counts = np.bincount(idx, minlength=sectors)
+    if weights is None:
+        share = np.bincount(idx, minlength=sectors) / float(v.size)
+    else:
+        weights = np.asarray(weights, float)
+        share = np.bincount(idx, weights=weights, minlength=sectors)
     fits = [weibull_fit_mle(v[idx == s]) for s in range(sectors)]
-    return Rose(counts / float(v.size), np.array([f[1] for f in fits]), np.array([f[0] for f in fits]), "series",
-                v, d)
+    return Rose(share, np.array([f[1] for f in fits]), np.array([f[0] for f in fits]), "series",
+                v, d, weights)
 
 
 def sector_mean_power_kw(rose: Rose, *, sample_power_kw=None, weibull_mean_power_kw=None) -> np.ndarray:
@@ -203,12 +213,15 @@ def sector_mean_power_kw(rose: Rose, *, sample_power_kw=None, weibull_mean_power
 
     Table: f_s times the Weibull integral of the sector (``weibull_mean_power_kw(A, k)``).
     Series: the sum of the samples' power (``sample_power_kw``, one value per sample, as the
-    gross energy takes it) in the sector, divided by the number of all samples.
+    gross energy takes it) in the sector, divided by the number of all samples (or weighed as
+    the series mean weighs them).
     """
     if rose.source == "series":
         idx = sector_of(rose.directions_deg, rose.sectors)
         p = np.asarray(sample_power_kw, float)
-        return np.bincount(idx, weights=p, minlength=rose.sectors) / p.size
+        if rose.weights is None:
+            return np.bincount(idx, weights=p, minlength=rose.sectors) / p.size
+        return np.bincount(idx, weights=p * rose.weights, minlength=rose.sectors)
     out = np.zeros(rose.sectors)
     for s, (f, a, k) in enumerate(zip(rose.frequency, rose.scale_mps, rose.shape)):
         if f > 0:

@@ -93,6 +93,18 @@ class Climate:
     warnings: tuple[str, ...] = field(default=())
     rose: rs.Rose | None = None               # directions at hub height (a rose, or derived from the series)
     long_term: mcp.LongTerm | None = None     # the long-term correction that made the series
+    weights: np.ndarray | None = None         # series: weight of each row (sum 1; None: equal weights)
+    series: object = None                     # series: the wind.Series it came from (without a long-term correction)
+
+    def series_mean(self, values):
+        """The mean over the series' rows (the last axis), each calendar month weighed by its length."""
+        v = np.asarray(values, float)
+        return v @ self.weights if self.weights is not None else v.mean(axis=-1)
+
+    def row_weights(self) -> np.ndarray:
+        """The weight of each row of the series in its mean (summing to 1)."""
+        n = self.speeds_mps.size
+        return self.weights if self.weights is not None else np.full(n, 1.0 / n)
 
     def pdf(self, speed_mps) -> np.ndarray:
         """Speed density at hub height: the rose's sector mixture, else the (fitted) Weibull. [1/(m/s)]"""
@@ -180,8 +192,58 @@ class Site:
         rows = max(1, _BATCH // c.speeds_mps.size)
         for i in range(0, f.size, rows):
             part = f[i:i + rows]
-            out[i:i + rows] = self.curve.power_kw_at(part[:, None] * c.speeds_mps[None, :], rho).mean(axis=1)
+            out[i:i + rows] = c.series_mean(self.curve.power_kw_at(part[:, None] * c.speeds_mps[None, :], rho))
         return self.turbines * HOURS_PER_YEAR * out / 1000.0
+
+
+# shape grid of the tabulated AEP(Weibull k): the whole range wind.weibull_shape accepts
+_SHAPES = np.round(np.arange(0.5, 10.0 + 1e-9, 0.005), 6)
+
+
+def shape_table(site: Site, fixed: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(shapes, AEP(k) / AEP(base), d ln AEP / d ln v at k) over the shape grid, built once per site.
+
+    ``fixed`` says what the scenario holds as the shape moves: ``"mean"`` (the scale follows,
+    A = mean / Gamma(1 + 1/k)) or ``"scale"``. Monte Carlo trials that draw the shape read
+    their energy here, as trials that draw the speed read the speed-factor table: one
+    interpolation instead of one integration per trial. Linear interpolation on the
+    0.005 grid is within 1e-5 of the integral (tests/test_energy.py).
+    """
+    memo = site.__dict__.setdefault("_shape_tables", {})
+    if fixed in memo:
+        return memo[fixed]
+    c = site.climate
+    k = _SHAPES.reshape(-1, 1)
+    if fixed == "mean":
+        scale = resource.weibull_scale_from_mean(c.mean_speed_mps, k)
+    else:
+        scale = np.full_like(k, c.scale_mps)
+    aep = lambda f: aep_weibull_rows(site.site_curve, scale * f, k, site.turbines)  # noqa: E731
+    gross, lo, hi = aep(1.0), aep(0.99), aep(1.01)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = gross / site.gross_aep_mwh if site.gross_aep_mwh > 0 else np.ones_like(gross)
+        sens = np.where((lo > 0) & (hi > 0), np.log(hi / lo) / math.log(1.01 / 0.99), np.nan)
+    memo[fixed] = (_SHAPES, np.ascontiguousarray(ratio.ravel()), np.ascontiguousarray(sens.ravel()))
+    return memo[fixed]
+
+
+def aep_weibull_rows(curve: SiteCurve, scale_mps, shape, turbines=1) -> np.ndarray:
+    """Gross AEP of one Weibull climate per row: ``scale_mps`` and ``shape`` both (n, 1). [MWh/yr]"""
+    nodes, weights = _quadrature_nodes(curve.breaks_mps)
+    p = curve.power_kw(nodes) * weights
+    a = np.asarray(scale_mps, float).reshape(-1, 1)
+    pdf = resource.weibull_pdf(nodes[None, :], a, np.asarray(shape, float).reshape(-1, 1))
+    # a sum along each row (as mean_power_weibull_kw): a row's value does not depend on the others
+    return turbines * HOURS_PER_YEAR * np.sum(pdf * p, axis=1, keepdims=True) / 1000.0
+
+
+def gross_at_shape(site: Site, fixed: str, shape) -> tuple[np.ndarray, np.ndarray]:
+    """Gross AEP and speed sensitivity at Weibull shapes ``shape`` (any shape of array), from the table."""
+    ks, ratio, sens = shape_table(site, fixed)
+    k = np.asarray(shape, dtype=float)
+    flat = k.reshape(-1)
+    return (site.gross_aep_mwh * np.interp(flat, ks, ratio).reshape(k.shape),
+            np.interp(flat, ks, sens).reshape(k.shape))
 
 
 def _table_lookup(f: np.ndarray, site: Site) -> np.ndarray:
@@ -210,19 +272,20 @@ def _series_steps(site: Site, gross: float) -> tuple[np.ndarray, np.ndarray]:
     """The steps of a series' AEP(f)/AEP(1): (factor, fall) for each hour and curve end, sorted.
 
     An hour with speed v and a curve step at speed s (power change dP) steps at f = s / v;
-    its fall in the ratio is -dP turbines 8760 h / (1000 hours gross). A step that lands on
-    a grid factor (a round speed at a round factor) is placed just below it when the direct
+    its fall in the ratio is -dP turbines 8760 h w / (1000 gross), w the hour's weight in the
+    series mean. A step that lands on a grid factor (a round speed at a round factor) is placed just below it when the direct
     evaluation at that factor already includes it, else on it, so that the two agree there.
     """
     c = site.climate
     v = c.speeds_mps
     rho = np.broadcast_to(c.densities_kgm3 if c.densities_kgm3 is not None else c.density_kgm3, v.shape)
-    scale = site.turbines * HOURS_PER_YEAR / (1000.0 * v.size * gross)
+    # each hour weighs as in the series mean (its calendar month by the month's length)
+    scale = site.turbines * HOURS_PER_YEAR / (1000.0 * gross) * c.row_weights()
     where, fall, hour = [], [], []
     for speed, change in site.curve.steps_kw_at(rho):
         ok = np.nonzero((v > 0) & (change != 0))[0]
         where.append(speed[ok] / v[ok])
-        fall.append(-change[ok] * scale)
+        fall.append(-change[ok] * scale[ok])
         hour.append(ok)
     thr, fall, hour = np.concatenate(where), np.concatenate(fall), np.concatenate(hour)
     grid = site.factors
@@ -299,11 +362,16 @@ def climate_from(scn) -> Climate:
         a_ref = w.weibull_scale_mps if w.weibull_scale_mps is not None else \
             float(resource.weibull_scale_from_mean(w.mean_speed_mps, k))
         a = a_ref * shear
-        return Climate("weibull", rho, a, k, float(resource.weibull_mean(a, k)))
-    series = resource.load_series(scn.resolve(w.timeseries), max_missing_share=w.max_missing_share)
+        mean = float(resource.weibull_mean(a, k))
+        _check_hub_mean(mean, "wind.mean_speed_mps" if w.mean_speed_mps is not None else "wind.weibull_scale_mps",
+                        w.mean_speed_mps if w.mean_speed_mps is not None else w.weibull_scale_mps)
+        return Climate("weibull", rho, a, k, mean, warnings=tuple(_low_mean_note(mean)))
+    path = scn.resolve(w.timeseries)
+    series = resource.load_series(path, max_missing_share=w.max_missing_share)
     warns = list(series.warnings)
     dens = None
     lt = None
+    weights = None
     if w.long_term is not None:
         site_path, ref_path = scn.resolve(w.timeseries), scn.resolve(w.long_term.reference)
         ref = mcp.load_reference(ref_path, max_missing_share=w.max_missing_share)
@@ -315,18 +383,51 @@ def climate_from(scn) -> Climate:
             warns.append("the site series' temperature_c is not used with a long-term correction: the air density "
                          "comes from wind.elevation_m and wind.mean_temperature_c")
     else:
+        # the record itself must cover the year (with a long-term correction the reference does)
+        warns += resource.require_year(series, path)
+        weights = series.weights
         v, directions = series.speed_mps * shear, series.direction_deg
         if series.temperature_c is not None and w.air_density_kgm3 is None:
             dens = resource.air_density(w.elevation_m, series.temperature_c)
-            rho = float(dens.mean())
-    rose = None if directions is None else rs.rose_from_series(v, directions, w.sectors or 12)
+            rho = float(weights @ dens)
+    if np.ptp(v) == 0:
+        raise ScenarioError(f"every speed in the series is {v[0]:g} m/s; a constant record is not wind",
+                            key="wind.timeseries", value=path.name, file=str(path))
+    mean = float(weights @ v) if weights is not None else float(v.mean())
+    _check_hub_mean(mean, "wind.timeseries", w.timeseries, file=str(path), series=True)
+    warns += _low_mean_note(mean)
+    rose = None if directions is None else rs.rose_from_series(v, directions, w.sectors or 12, weights=weights)
     try:
         k, a = resource.fit_weibull(v)
     except ScenarioError:
         k, a = float("nan"), float("nan")
         warns.append("too few positive speeds in the series to fit a Weibull distribution")
-    return Climate("series", rho, a, k, float(v.mean()), speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns),
-                   rose=rose, long_term=lt)
+    if math.isfinite(k) and not 0.5 <= k <= 10.0:
+        raise ScenarioError(f"the speeds fit a Weibull shape k = {k:.3g}, outside 0.5..10 (the range "
+                            "wind.weibull_shape takes): the record is nearly constant, or nearly all calm",
+                            key="wind.timeseries", value=path.name, file=str(path))
+    return Climate("series", rho, a, k, mean, speeds_mps=v, densities_kgm3=dens, warnings=tuple(warns),
+                   rose=rose, long_term=lt, weights=weights, series=series if lt is None else None)
+
+
+#: below this hub-height mean the turbines would hardly turn (common practice: sites
+#: worth building have 6 m/s or more) [m/s]
+LOW_MEAN_SPEED_MPS = 3.0
+
+
+def _check_hub_mean(mean: float, key: str, value, *, file: str | None = None, series: bool = False) -> None:
+    """No measured site has a long-term hub-height mean above 20 m/s: refuse one."""
+    if mean > resource.MAX_MEAN_SPEED_MPS:
+        hint = " (is the series in km/h or knots? speed_mps is in m/s)" if series else ""
+        raise ScenarioError(f"gives a hub-height mean speed of {mean:.1f} m/s; no site has a mean above "
+                            f"{resource.MAX_MEAN_SPEED_MPS:g} m/s{hint}", key=key, value=value, file=file)
+
+
+def _low_mean_note(mean: float) -> list[str]:
+    if mean < LOW_MEAN_SPEED_MPS:
+        return [f"the hub-height mean wind speed is {mean:.2f} m/s: below {LOW_MEAN_SPEED_MPS:g} m/s the turbines "
+                "hardly turn (common practice: sites worth building have 6 m/s or more); check the wind input"]
+    return []
 
 
 def curve_from(scn) -> PowerCurve:
@@ -353,11 +454,11 @@ def _site_key(scn) -> str:
     for rel in files:
         if rel is not None:
             p = scn.resolve(rel)
-            h.update(str(p.resolve()).encode())
             try:
+                h.update(str(p.resolve()).encode())
                 st = p.stat()
                 h.update(f"{st.st_mtime_ns}:{st.st_size}".encode())
-            except OSError:
+            except (OSError, RuntimeError, ValueError):      # missing, a loop of links, a NUL: refused on reading
                 h.update(b"missing")
     return h.hexdigest()
 

@@ -4,14 +4,37 @@ from __future__ import annotations
 
 import csv
 import math
+import re
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.paths import check_input_file
 
 BETZ_LIMIT = 16.0 / 27.0
+#: a power curve has at most this many rows (one every 0.1 m/s up to 60 m/s needs 601)
+MAX_CURVE_ROWS = 1000
+#: the fastest speed a curve may name: beyond any cut-out, so no table is sized by a speed [m/s]
+MAX_CURVE_SPEED_MPS = 60.0
+# a plain decimal number as spreadsheets write it (Python's float() also takes '4_200' and
+# non-ASCII digits, which no spreadsheet writes); nan and inf get their own message later
+_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?|[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
+
+
+def excerpt(text: str, limit: int = 40) -> str:
+    """A short, quoted piece of a data file for a message (never more than ``limit`` characters of it)."""
+    text = str(text)
+    return repr(text if len(text) <= limit else text[:limit] + "...")
+
+
+def parse_number(text: str) -> float:
+    """A number cell of a data file; ValueError for anything but a plain decimal number."""
+    t = text.strip()
+    if not _NUMBER.fullmatch(t):
+        raise ValueError(text)
+    return float(t)
 
 
 def swept_area_m2(rotor_diameter_m):
@@ -262,6 +285,10 @@ def table_curve(speed_mps, power_kw, rated_power_kw, rotor_diameter_m, *, refere
     if np.any(v < 0):
         i = int(np.nonzero(v < 0)[0][0])
         raise fail(f"row {line(i)}: speed must be >= 0", f" (speed_mps = {v[i]:g})")
+    if np.any(v > MAX_CURVE_SPEED_MPS):
+        i = int(np.nonzero(v > MAX_CURVE_SPEED_MPS)[0][0])
+        raise fail(f"row {line(i)}: speed must be <= {MAX_CURVE_SPEED_MPS:g} m/s",
+                   f" (speed_mps = {v[i]:g}); a power curve ends at its cut-out speed")
     d = np.diff(v)
     if np.any(d == 0):
         i = int(np.nonzero(d == 0)[0][0]) + 1
@@ -284,6 +311,13 @@ def table_curve(speed_mps, power_kw, rated_power_kw, rotor_diameter_m, *, refere
         off = (peak - rated_power_kw) / rated_power_kw
         raise fail(f"peak power {peak:g} kW differs from turbine.rated_power_kw = {rated_power_kw:g} "
                    f"by more than {rated_tolerance:.0%}", f" ({off:+.1%})")
+    # Betz (1920): a rotor takes at most 16/27 of the power 0.5 rho A v^3 the wind carries through it
+    limit = BETZ_LIMIT * wind_power_kw(v, reference_density_kgm3, float(swept_area_m2(rotor_diameter_m)))
+    over = p > 1.01 * limit + 1.0
+    if np.any(over):
+        i = int(np.nonzero(over)[0][0])
+        raise fail(f"row {line(i)}: {p[i]:g} kW at {v[i]:g} m/s is more than a {rotor_diameter_m:g} m rotor can take "
+                   f"from the wind (the Betz limit 16/27 x 0.5 rho A v^3 is {limit[i]:.0f} kW there)")
     if ct is not None:
         c = np.asarray(ct, float)
         bad = ~np.isfinite(c) | (c < 0) | (c > 1)
@@ -309,10 +343,17 @@ def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, refere
     def fail(msg):
         return ScenarioError(msg, key=key, value=name, file=shown)
 
+    check_input_file(path, fail, what="a CSV file")
     try:
         # utf-8-sig: a byte-order mark, as some spreadsheets write, is not part of the header
         with path.open(newline="", encoding="utf-8-sig") as fh:
-            rows = list(csv.reader(fh))
+            rows, filled = [], 0
+            for row in csv.reader(fh):     # read no further than the row cap (a file may hold millions)
+                rows.append(row)
+                filled += bool(row and any(c.strip() for c in row))
+                if filled > MAX_CURVE_ROWS + 1:
+                    raise fail(f"has more than {MAX_CURVE_ROWS:,} rows; a power curve has at most "
+                               f"{MAX_CURVE_ROWS:,} (one every 0.5 m/s to {MAX_CURVE_SPEED_MPS:g} m/s needs 121)")
     except FileNotFoundError:
         raise fail("file not found") from None
     except IsADirectoryError:
@@ -333,7 +374,7 @@ def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, refere
             hint = " (power in kW, named power_kw)"
         elif len(header) == 1 and (";" in header[0] or "\t" in header[0]):
             hint = " (columns separated by commas)"
-        raise fail(f"header must be 'speed_mps,power_kw'{hint}, found {','.join(header)!r}")
+        raise fail(f"header must be 'speed_mps,power_kw'{hint}, found {excerpt(','.join(header))}")
     with_ct = len(header) > 2 and header[2].lower() == "ct"
     width = 3 if with_ct else 2
     speeds, powers, cts, lines = [], [], [], []
@@ -341,12 +382,12 @@ def read_curve_csv(path: Path | str, rated_power_kw, rotor_diameter_m, *, refere
         if len(r) < width:
             raise fail(f"row {i} has {len(r)} column(s), expected {width}")
         try:
-            speeds.append(float(r[0]))
-            powers.append(float(r[1]))
+            speeds.append(parse_number(r[0]))
+            powers.append(parse_number(r[1]))
             if with_ct:
-                cts.append(float(r[2]))
+                cts.append(parse_number(r[2]))
         except ValueError:
-            raise fail(f"row {i} is not numeric ({','.join(r)!r})") from None
+            raise fail(f"row {i} is not numeric ({excerpt(','.join(r))})") from None
         lines.append(i)
     return table_curve(speeds, powers, rated_power_kw, rotor_diameter_m, reference_density_kgm3=reference_density_kgm3,
                        regulation=regulation, source=shown, key=key, file=shown, rows=lines,

@@ -91,10 +91,31 @@ def isa_density(elevation_m):
     return isa_pressure_pa(elevation_m) / (R_DRY_AIR * t_k)
 
 
+#: a series is read up to this many years of record, whatever its time step
+MAX_SERIES_YEARS = 30
+#: rows read at most, before parsing: 30 years of 10-minute data
+MAX_SERIES_ROWS = int(MAX_SERIES_YEARS * 365.25 * 24 * 6)
+#: the time step of a series: from one minute to one hour [s]
+MIN_STEP_S, MAX_STEP_S = 60.0, 3600.0
+#: mean speed above which a record cannot be wind in m/s: no measured site comes near it [m/s]
+MAX_MEAN_SPEED_MPS = 20.0
+#: each calendar month needs at least this much of a month's data for an annual energy
+MIN_MONTH_COVERAGE = 0.5
+MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
+          "November", "December")
+#: mean length of each calendar month over the 400-year Gregorian cycle [days]
+MONTH_DAYS = np.array([31, 28 + 97 / 400, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31], float)
+
+
 @dataclass(frozen=True)
 class Series:
-    """A wind series after cleaning (hourly unless ``step_h`` says otherwise). Speeds at the
-    measurement height; ``hours`` counts the samples kept."""
+    """A wind series after cleaning. Speeds at the measurement height; ``hours`` counts the
+    samples kept, ``step_h`` is the time step (the most common time between rows).
+
+    ``month_coverage`` is the data in each calendar month counted in months (2.0: two
+    Januaries), and ``weights`` (summing to 1; None unless every calendar month has data)
+    weigh each calendar month by its length, whatever its share of the record.
+    """
 
     speed_mps: np.ndarray
     temperature_c: np.ndarray | None
@@ -103,24 +124,59 @@ class Series:
     direction_deg: np.ndarray | None = None   # where the wind comes from, clockwise from north
     timestamps: np.ndarray | None = None      # datetime64[ns], UTC, in the order of the speeds
     step_h: float = 1.0                       # the time step of the record [h]
+    month_coverage: tuple[float, ...] = field(default=(0.0,) * 12)
+    weights: np.ndarray | None = None
+    years: float = 0.0
 
     @property
     def mean_speed_mps(self) -> float:
+        if self.weights is not None:
+            return float(self.weights @ self.speed_mps)
         return float(self.speed_mps.mean())
+
+    @property
+    def step_s(self) -> float:
+        return self.step_h * 3600.0
+
+    @property
+    def step_text(self) -> str:
+        return step_name(self.step_s)
+
+
+def step_name(step_s: float) -> str:
+    if step_s == 3600:
+        return "hourly"
+    return f"{step_s / 60:g}-minute" if step_s < 3600 else f"{step_s / 3600:g}-hour"
+
+
+def _count_lines(path: Path, stop: int) -> int:
+    """Lines in a file, counted in blocks and no further than ``stop``."""
+    n = 0
+    with open(path, "rb") as fh:
+        while n <= stop:
+            block = fh.read(1 << 20)
+            if not block:
+                break
+            n += block.count(b"\n")
+    return n
 
 
 def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_share: float = 0.2,
-                step_h: float | None = 1.0) -> Series:
-    """Load an hourly series ``timestamp, speed_mps[, temperature_c][, direction_deg]``.
+                step_h: float | None = None, max_step_h: float | None = MAX_STEP_S / 3600.0) -> Series:
+    """Load a wind series ``timestamp, speed_mps[, temperature_c][, direction_deg]``.
 
     Bad rows (non-numeric, NaN, negative or implausibly high speeds, directions outside
-    0..360 degrees) and duplicate timestamps are dropped and reported; gaps in the hourly
-    record are counted. A series with more than ``max_missing_share`` of its hours
-    missing is refused. ``step_h`` is the record's time step in hours (None: the most
-    common step between consecutive timestamps, for a reference series); gaps and
-    missing records are counted against it.
+    0..360 degrees) and duplicate timestamps are dropped and reported. The time step is
+    ``step_h`` hours, or (None, the default) the most common time between rows, from one
+    minute to ``max_step_h`` (hourly for a site series; None: any, for a reference series);
+    missing time is counted against it, and a series with more than ``max_missing_share``
+    of its steps missing is refused. Coverage of each calendar month is reported;
+    :func:`require_year` refuses a record that does not cover the year.
     """
     import pandas as pd
+
+    from lcoe.inputs.paths import check_input_file
+    from lcoe.physics.turbine import excerpt
 
     path = Path(path)
     shown = str(path)
@@ -129,6 +185,14 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
     def fail(msg):
         return ScenarioError(msg, key=key, value=name, file=shown)
 
+    check_input_file(path, fail, what="a CSV file")
+    try:
+        lines = _count_lines(path, MAX_SERIES_ROWS + 1)
+    except OSError as exc:
+        raise fail(f"cannot be read ({exc.strerror or type(exc).__name__})") from None
+    if lines > MAX_SERIES_ROWS + 1:
+        raise fail(f"has more than {MAX_SERIES_ROWS:,} rows; a series is read up to {MAX_SERIES_ROWS:,} "
+                   f"({MAX_SERIES_YEARS} years of 10-minute data)")
     try:
         # utf-8-sig: a byte-order mark, as some spreadsheets write, is not part of the header
         df = pd.read_csv(path, dtype=str, keep_default_na=False, encoding="utf-8-sig")
@@ -143,12 +207,12 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
         raise fail(f"cannot be read as CSV (ParserError: {detail})") from None
     except UnicodeDecodeError:
         raise fail("cannot be read as CSV (UnicodeDecodeError): not UTF-8 text") from None
-    except (OSError, ValueError) as exc:
+    except (OSError, ValueError, MemoryError) as exc:
         raise fail(f"cannot be read as CSV ({type(exc).__name__})") from None
     cols = [str(c).strip() for c in df.columns]
     df.columns = cols
     if "timestamp" not in cols or "speed_mps" not in cols:
-        raise fail(f"header must be 'timestamp,speed_mps[,temperature_c]', found {','.join(cols)!r}")
+        raise fail(f"header must be 'timestamp,speed_mps[,temperature_c]', found {excerpt(','.join(cols))}")
     # pandas renames a repeated column 'speed_mps' to 'speed_mps.1'; which one is meant is unclear
     repeated = [c.rsplit(".", 1)[0] for c in cols if "." in c and c.rsplit(".", 1)[1].isdigit()
                 and c.rsplit(".", 1)[0] in cols]
@@ -191,29 +255,79 @@ def load_series(path: Path | str, *, key: str = "wind.timeseries", max_missing_s
     if n == 0:
         raise fail(f"has no usable rows ({bad_ts} unreadable timestamp(s), {int(bad_speed.sum())} bad speed(s), "
                    f"{int(bad_temp.sum())} bad temperature(s) of {len(df)})")
-    offsets_h = np.sort((ts - ts.min()).dt.total_seconds().to_numpy()) / 3600.0
-    if step_h is None:
-        diffs = np.round(np.diff(offsets_h), 6)
-        diffs = diffs[diffs > 0]
-        step_h = float(pd.Series(diffs).mode().iloc[0]) if diffs.size else 1.0
-    span_h = int(round(offsets_h[-1] / step_h)) + 1
-    expected = max(span_h, n, len(df))
+    mean = float(speed.mean())
+    if mean > MAX_MEAN_SPEED_MPS:
+        raise fail(f"the mean speed is {mean:.1f} m/s; no site has a mean above {MAX_MEAN_SPEED_MPS:g} m/s "
+                   f"(is the column in km/h or knots? speed_mps is in m/s)")
+    seconds = np.sort((ts - ts.min()).dt.total_seconds().to_numpy())
+    diffs = np.diff(seconds)
+    step = 3600.0 if step_h is None else float(step_h) * 3600.0
+    if step_h is None and diffs.size:
+        values, counts = np.unique(np.round(diffs[diffs > 0], 3), return_counts=True)
+        step = float(values[np.argmax(counts)]) if values.size else 3600.0
+        if step < MIN_STEP_S:
+            raise fail(f"rows are {step:g} s apart; a series is read at 1-minute to hourly steps")
+        if max_step_h is not None and step > max_step_h * 3600.0:
+            raise fail(f"rows are {step / 3600:g} h apart (the most common step); the energy needs hourly or finer "
+                       "data (a mean over hours hides the speeds the power curve sees)")
+        regular = float(np.mean(np.round(diffs, 3) == step))
+        if regular < 0.5:
+            warnings.append(f"{shown}: the time between rows is irregular (only {regular:.0%} of them are "
+                            f"{step_name(step)} steps)")
+    span_s = float(seconds[-1]) if seconds.size else 0.0
+    years = (span_s + step) / (365.25 * 86400.0)
+    if years > MAX_SERIES_YEARS + 0.01:
+        raise fail(f"covers {years:.1f} years; a series is read up to {MAX_SERIES_YEARS} years")
+    hourly = step == 3600.0
+    unit = "hour(s)" if hourly else f"{step_name(step)} step(s)"
+    expected = max(int(round(span_s / step)) + 1, n, len(df))
     missing = expected - n
-    unit = "hour(s)" if step_h == 1.0 else f"record(s) of {step_h:g} h"
     if missing > 0:
-        steps_h = np.diff(offsets_h)
-        holes = steps_h[steps_h > 1.5 * step_h]
-        gaps = f"; {holes.size} gap(s) in the record, the longest {holes.max() - step_h:.0f} h" if holes.size else ""
+        holes = diffs[diffs > 1.5 * step]
+        gaps = f"; {holes.size} gap(s) in the record, the longest {(holes.max() - step) / 3600:.0f} h" \
+            if holes.size else ""
         warnings.append(f"{shown}: {missing} of {expected} {unit} missing ({missing / expected:.1%}){gaps}")
     if missing / expected > max_missing_share:
-        what = "hours" if step_h == 1.0 else "records"
+        what = "hours" if hourly else "time steps"
         raise fail(f"{missing / expected:.1%} of the {what} are missing or bad, more than "
                    f"wind.max_missing_share = {max_missing_share:g} ({missing} of {expected} {unit})")
-    if n * step_h < 24 * 30:
-        warnings.append(f"{shown}: only {n * step_h:g} hour(s); a long-term energy estimate needs at least a year")
+    month = ts.dt.month.to_numpy() - 1
+    per_month = np.bincount(month, minlength=12).astype(float)
+    coverage = per_month * step / (MONTH_DAYS * 86400.0)
+    weights = None
+    if np.all(per_month > 0):
+        weights = (MONTH_DAYS / MONTH_DAYS.sum() / per_month)[month]
     return Series(speed_mps=speed.to_numpy(float), temperature_c=None if temp is None else temp.to_numpy(float),
                   hours=n, warnings=tuple(warnings), direction_deg=None if dirn is None else dirn.to_numpy(float),
-                  timestamps=ts.dt.tz_convert(None).to_numpy(dtype="datetime64[ns]"), step_h=float(step_h))
+                  timestamps=ts.dt.tz_convert(None).to_numpy(dtype="datetime64[ns]"), step_h=step / 3600.0,
+                  month_coverage=tuple(float(c) for c in coverage), weights=weights, years=years)
+
+
+def require_year(series: Series, path: Path | str, *, key: str = "wind.timeseries") -> list[str]:
+    """Refuse a series that cannot give an annual energy; return the notes on how it is weighted.
+
+    Every calendar month needs at least half a month of data (a year or more of record):
+    a summer alone, or one January, says nothing of the year. Months covered unequally (a
+    record of 18 months) are weighted by their length, not by their share of the record.
+    """
+    path = Path(path)
+    cov = np.asarray(series.month_coverage)
+    thin = [MONTHS[m] for m in range(12) if cov[m] < MIN_MONTH_COVERAGE]
+    if thin:
+        have = 12 - len(thin)
+        listed = ", ".join(thin[:3]) + (f" and {len(thin) - 3} more" if len(thin) > 3 else "")
+        raise ScenarioError(f"covers {have} of the 12 calendar months well enough: too little data in {listed}; "
+                            f"an annual energy needs at least half of every calendar month (a year or more of "
+                            f"record)", key=key, value=path.name, file=str(path))
+    notes = []
+    if cov.max() > 1.25 * cov.min():
+        notes.append(f"{path}: calendar months are covered unequally ({coverage_text(cov)} months of data); each "
+                     "month weighs by its length in the energy, not by its share of the record")
+    return notes
+
+
+def coverage_text(coverage) -> str:
+    return ", ".join(f"{MONTHS[m][:3]} {c:.1f}" for m, c in enumerate(coverage))
 
 
 def fit_weibull(speed_mps: np.ndarray) -> tuple[float, float]:
@@ -227,6 +341,8 @@ def fit_weibull(speed_mps: np.ndarray) -> tuple[float, float]:
 
     v = np.asarray(speed_mps, float)
     v = v[v > 0]
+    if v.size > 200_000:        # the fit's time grows with the rows; evenly spaced ones tell the same
+        v = v[:: int(math.ceil(v.size / 200_000))]
     if v.size < 10:
         raise ScenarioError("too few positive speeds to fit a Weibull distribution", key="wind.timeseries",
                             has_value=False)
