@@ -10,7 +10,7 @@ and the command line start quickly::
 The package is layered, each layer importing only those below it: ``lcoe.inputs``
 (scenario schema, keys, TOML) -> ``lcoe.physics`` (wind, turbine, energy) ->
 ``lcoe.finance`` (costs, tax, debt, cash flow, metrics) -> ``lcoe.engine`` ->
-``lcoe.analysis`` (Monte Carlo, sensitivity, lifetime, lender cases) -> ``lcoe.outputs``
+``lcoe.analysis`` (Monte Carlo, sensitivity, lifetime, lender cases, portfolio) -> ``lcoe.outputs``
 (report, CSV, workbook) -> ``lcoe.cli`` and the app (``lcoe.ui``).
 """
 
@@ -30,9 +30,12 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors
         RunResult,
         Solution,
         evaluate,
+        PortfolioRun,
         lender_cases,
         load,
+        load_portfolio,
         monte_carlo,
+        portfolio,
         run,
         solve,
         sweep,
@@ -41,7 +44,8 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors
     )
 
 _API = ("load", "run", "evaluate", "monte_carlo", "sweep", "tornado", "solve", "lender_cases", "write_workbook",
-        "RunResult", "BatchResult", "MonteCarlo", "Rows", "Solution", "LenderCases")
+        "load_portfolio", "portfolio", "RunResult", "BatchResult", "MonteCarlo", "Rows", "Solution", "LenderCases",
+        "PortfolioRun")
 
 __all__ = ["ScenarioError", "CAUTION", "__version__", *_API]
 

@@ -1,4 +1,5 @@
-"""The public Python API: load a scenario, run it, vary it, and write the lender workbook.
+"""The public Python API: load a scenario, run it, vary it, write the lender workbook, and run a
+portfolio of sites.
 
 Every function takes a :class:`~lcoe.inputs.scenario.Scenario` (from :func:`load`) or a
 path to a scenario file, and returns a small dataclass with ``to_dict()`` (plain,
@@ -25,7 +26,11 @@ import numpy as np
 import pandas as pd
 
 from lcoe import engine
+from lcoe.analysis import cluster as _cluster
 from lcoe.analysis import lender, montecarlo, sensitivity, study
+from lcoe.analysis import portfolio as _portfolio
+from lcoe.analysis.portfolio_results import LINE_KEYS, PortfolioResult
+from lcoe.inputs import portfolio as _portfolio_file
 from lcoe.inputs import scenario as _scenario
 from lcoe.inputs.scenario import Scenario
 from lcoe.outputs import workbook as _workbook
@@ -225,3 +230,46 @@ def write_workbook(scenario: ScenarioLike, path: str | PathLike, *, trials: int 
     defaults to the scenario's own (0 leaves the Monte Carlo sheet out)."""
     rep = study.build(_scenario_of(scenario), trials=trials, variants=variants, sensitivity=sensitivity)
     return _workbook.write(rep, path)
+
+
+@dataclass(frozen=True)
+class PortfolioRun:
+    """A portfolio Monte Carlo: the report (``to_dict``, as ``lcoe portfolio --json``) and the
+    yearly P-values (``to_frame``); ``result`` holds every trial's yearly lines and site figures."""
+    result: PortfolioResult
+
+    def to_dict(self) -> dict:
+        return self.result.report()
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per year t = 0..horizon: P50, P90, P99 and mean of each yearly line."""
+        rows = []
+        for r in self.result.annual():
+            row = {"year": r["year"]}
+            for k in LINE_KEYS:
+                row.update({f"{k}_{st}": r[k][st] for st in ("p50", "p90", "p99", "mean")})
+            row["debt_service"] = r["debt_service"]
+            rows.append(row)
+        return pd.DataFrame(rows).set_index("year")
+
+
+def load_portfolio(path: str | PathLike) -> _portfolio_file.Portfolio:
+    """Load and validate a portfolio file and every scenario it lists."""
+    return _portfolio_file.load(path)
+
+
+def portfolio(pf: _portfolio_file.Portfolio | str | PathLike, *, trials: int | None = None,
+              scheduler: str | None = None, workers: int | None = None) -> PortfolioRun:
+    """The portfolio Monte Carlo of a portfolio file (or :func:`load_portfolio`'s result): on the
+    Dask scheduler at ``scheduler``, else on a Dask cluster in this process with ``workers``
+    workers (default one per core; 0: a plain loop without Dask). The result is the same bit
+    for bit wherever it runs."""
+    pf = pf if isinstance(pf, _portfolio_file.Portfolio) else _portfolio_file.load(pf)
+    if scheduler is not None:
+        runner = _cluster.remote(scheduler)
+    elif workers == 0:
+        runner = _cluster.Plain()
+    else:
+        runner = _cluster.local(workers)
+    with runner:
+        return PortfolioRun(_portfolio.run(pf, trials=trials, runner=runner))

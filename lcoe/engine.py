@@ -28,12 +28,14 @@ ANNUAL_KEYS = ("year", "energy_mwh", "availability", "price_per_mwh", "revenue",
 PRICE_KEY = "revenue.ppa_price_per_mwh"
 
 
-def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: dict | None = None
-                  ) -> tuple[dict, list[str]]:
+def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: dict | None = None,
+                  irr: bool = True) -> tuple[dict, list[str]]:
     """All metrics but the break-even price, one value per row.
 
     ``irr_guess`` (metric -> rate) starts the IRR iteration near a known answer, such
-    as the base case for Monte Carlo trials; it changes the work, not the result."""
+    as the base case for Monte Carlo trials; it changes the work, not the result.
+    ``irr=False`` leaves out the two IRRs (the costliest metrics) for callers that do not
+    show them."""
     inp = Inputs(scn, overrides)
     f = scn.finance
     r, infl, eq, rate_i = _metric_rates(scn, inp)
@@ -46,7 +48,7 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
         "debt_amount": flows.debt.ravel().copy(),
     }
     warnings: list[str] = []
-    for key, cf in (("project_irr", flows.project_cash_flow), ("equity_irr", flows.equity_cash_flow)):
+    for key, cf in (("project_irr", flows.project_cash_flow), ("equity_irr", flows.equity_cash_flow))[:2 * irr]:
         rates, reasons = mt.irr(cf, guess=_irr_start(irr_guess, key))
         out[key] = rates
         if reasons:
@@ -198,13 +200,15 @@ def _num(v):
 
 
 def evaluate(scn, *, overrides=None, sample: Sample | None = None, schedule: Schedule | None = None,
-             energy: en.EnergyResult | None = None, lean: bool = False, irr_guess: dict | None = None
-             ) -> tuple[Flows, dict, list[str]]:
-    """Flows and metrics (without break-even) for a batch of rows (``lean``: see cashflow.evaluate)."""
+             energy: en.EnergyResult | None = None, lean: bool = False, irr_guess: dict | None = None,
+             site: en.Site | None = None, irr: bool = True) -> tuple[Flows, dict, list[str]]:
+    """Flows and metrics (without break-even) for a batch of rows (``lean`` and ``site``: see
+    cashflow.evaluate; ``irr``: see batch_metrics)."""
     overrides = check_overrides(scn, overrides) or None
-    energy = energy if energy is not None else en.energy_of(scn)
-    flows = cashflow.evaluate(scn, energy, overrides=overrides, sample=sample, schedule=schedule, lean=lean)
-    m, w = batch_metrics(scn, flows, overrides, irr_guess)
+    energy = energy if energy is not None else en.energy_of(scn, site)
+    flows = cashflow.evaluate(scn, energy, overrides=overrides, sample=sample, schedule=schedule, lean=lean,
+                              site=site)
+    m, w = batch_metrics(scn, flows, overrides, irr_guess, irr)
     if overrides:
         rates = Inputs(scn, overrides)
         _metric_rates(scn, rates)
@@ -262,10 +266,11 @@ def breakeven_price(scn, energy=None, row_overrides: dict | None = None, *, samp
     return float(brentq(g, lo, hi, xtol=1e-9, rtol=1e-13, maxiter=200)), None
 
 
-def run(scn, *, breakeven: bool = True) -> Case:
-    """The deterministic case of a scenario, every metric filled."""
-    energy = en.energy_of(scn)
-    flows, m, warnings = evaluate(scn, energy=energy)
+def run(scn, *, breakeven: bool = True, site: en.Site | None = None) -> Case:
+    """The deterministic case of a scenario, every metric filled (``site``: its
+    :class:`~lcoe.physics.energy.Site` when already built; the break-even search looks it up)."""
+    energy = en.energy_of(scn, site)
+    flows, m, warnings = evaluate(scn, energy=energy, site=site)
     metrics = {k: _num(v[0]) for k, v in m.items()}
     if breakeven:
         price, why = breakeven_price(scn, energy)

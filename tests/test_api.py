@@ -78,3 +78,17 @@ def test_sweep_tornado_solve_and_evaluate_return_the_analysis_rows():
     sol = lcoe.solve(scn, target_metric="equity_irr", target_value=0.12, vary_key="revenue.ppa_price_per_mwh")
     check = engine.run(scn.with_overrides({"revenue.ppa_price_per_mwh": sol.value}), breakeven=False)
     assert check.metrics["equity_irr"] == pytest.approx(0.12, abs=1e-6)
+
+
+def test_portfolio_gives_the_command_line_report():
+    from lcoe.analysis import portfolio as ap
+    from lcoe.inputs import portfolio as ip
+    path = ROOT / "assumptions" / "portfolio_demo.toml"
+    got = lcoe.portfolio(path, trials=1100, workers=0)
+    ref = ap.run(ip.load(path), trials=1100).report()
+    a, b = got.to_dict(), ref
+    assert a.pop("execution")["mode"] == b.pop("execution")["mode"] == "plain"
+    assert a == b
+    frame = got.to_frame()
+    assert len(frame) == lcoe.load_portfolio(path).horizon + 1
+    assert frame.loc[1, "energy_mwh_p90"] == b["annual"][1]["energy_mwh"]["p90"]

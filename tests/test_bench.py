@@ -44,3 +44,13 @@ def test_bench_reports_the_contract_keys():
     assert res["trials"] == 3000
     assert res["loop_vs_engine_max_rel_diff"] < 1e-8
     assert en.site_for(scenario.load(DEMO)).gross_aep_mwh > 0
+
+
+def test_bench_reports_the_portfolio_figures():
+    res = bench.run_bench(DEMO, trials=1000, loop_sample=10, repeat=1, portfolio_sites=3, portfolio_trials=300)
+    for key in ("portfolio_site_trials_per_s", "portfolio_s_1_worker", "portfolio_s_2_workers",
+                "portfolio_speedup_1_to_2_workers"):
+        assert res[key] > 0
+    assert (res["portfolio_sites"], res["portfolio_trials"]) == (3, 300)
+    pf = bench.synthetic_portfolio(3, 300)
+    assert len({s.scenario.wind.mean_speed_mps for s in pf.sites}) == 3      # each site its own climate

@@ -223,3 +223,18 @@ def test_irr_two_rows_at_a_time_equals_one_row_at_a_time(flows):
     alone = [mt.irr(row[None, :]) for row in odd]
     np.testing.assert_array_equal(batch, np.concatenate([a for a, _ in alone]))
     assert why == [(i, w[0][1]) for i, (_, w) in enumerate(alone) if w]
+
+
+def test_copula_kernel_equals_the_matrix_product(monkeypatch):
+    """The portfolio's compiled copula product against numpy's (BLAS) chol @ z."""
+    from lcoe.analysis import portfolio
+    rng = np.random.default_rng(21)
+    a = rng.normal(size=(40, 40))
+    cov = a @ a.T + 40 * np.eye(40)
+    chol = np.linalg.cholesky(cov / np.sqrt(np.outer(np.diag(cov), np.diag(cov))))
+    z = rng.standard_normal((40, 3001))            # not a whole number of tiles
+    fast = portfolio.correlate(chol, z.copy())
+    monkeypatch.setattr(portfolio, "_kernels", None)
+    slow = portfolio.correlate(chol, z.copy())
+    np.testing.assert_allclose(fast, slow, rtol=0, atol=1e-13)
+    np.testing.assert_allclose(fast, chol @ z, rtol=0, atol=1e-13)

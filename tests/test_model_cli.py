@@ -12,7 +12,7 @@ import numpy_financial as npf
 import pytest
 from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, make_raw
 
-from lcoe import cli
+from lcoe import CAUTION, cli
 from lcoe import engine as model
 from lcoe.inputs import scenario as sc
 
@@ -204,3 +204,14 @@ def test_broken_curve_file(tmp_path, capsys, command):
 def test_missing_file(tmp_path, capsys):
     missing = tmp_path / "nope.toml"
     _fails(capsys, ["run", str(missing)], rf"error: {re.escape(str(missing))}: file not found")
+
+
+def test_a_long_path_moves_to_its_own_line_and_the_caution_wraps():
+    # every table fits a 100-column terminal, whatever the folder the scenario sits in
+    from lcoe.outputs.report import WIDTH, heading
+    long = "/very/deep/folder/" * 6 + "tallowmere_ridge.toml"
+    lines = heading("Tallowmere Ridge", long)
+    assert lines[0] == "Tallowmere Ridge" and lines[1] == f"  ({long})"
+    assert all(len(x) <= WIDTH for x in lines[2:])
+    assert " ".join(lines[2:]).strip() == CAUTION
+    assert heading("Tallowmere Ridge", "a.toml")[0] == "Tallowmere Ridge  (a.toml)"

@@ -29,11 +29,13 @@ from lcoe.inputs import scenario as sc
 from lcoe.inputs.about import CAUTION
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.schema import MAX_TRIALS
+from lcoe.inputs.portfolio import is_portfolio_file
 from lcoe.outputs import report as rp
 from lcoe.outputs import workbook
 from lcoe.physics import energy as en
 
 ASSUMPTIONS = assumptions_dir()
+DEMO_FILE = "tallowmere_ridge.toml"
 
 UPLOAD = "Upload a scenario file..."
 TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Monte Carlo", "Tornado", "Compare",
@@ -174,9 +176,11 @@ def _slug(name: str) -> str:
 # --------------------------------------------------------------------------- the page
 
 def pick_scenario() -> tuple[sc.Scenario | None, str]:
-    files = sorted(p.name for p in ASSUMPTIONS.glob("*.toml"))
+    files = sorted(p.name for p in ASSUMPTIONS.glob("*.toml") if not is_portfolio_file(p))
+    first = files.index(DEMO_FILE) if DEMO_FILE in files else 0     # the demo site, not a portfolio's site
     st.sidebar.header("Scenario")
-    choice = st.sidebar.selectbox("Scenario file from assumptions/", files + [UPLOAD], key="scenario_file")
+    choice = st.sidebar.selectbox("Scenario file from assumptions/", files + [UPLOAD], index=first,
+                                  key="scenario_file")
     try:
         if choice == UPLOAD:
             up = st.sidebar.file_uploader("Scenario file (TOML)", type=["toml"], key="upload")

@@ -291,18 +291,49 @@ class MonteCarloResult:
         return out
 
 
+def p_stats(x, better_high: bool, keys=("p50", "p75", "p90", "p99", "mean", "sd")) -> dict:
+    """P-values on the conservative side (P90 = the 10th percentile where a higher value is
+    better, else the 90th), mean and sd (ddof 1) of the finite values of ``x``; ``keys``
+    chooses which. Percentiles are numpy's linear interpolation between order statistics."""
+    x = np.asarray(x, float)
+    x = x[np.isfinite(x)]
+    if x.size == 0:
+        return {k: None for k in keys}
+    level = {"p50": 50.0, "p75": 25.0 if better_high else 75.0, "p90": 10.0 if better_high else 90.0,
+             "p99": 1.0 if better_high else 99.0}
+    q = {k: level[k] for k in keys if k in level}
+    vals = np.percentile(x, list(q.values())) if q else []
+    out = {k: float(v) for k, v in zip(q, vals)}
+    if "mean" in keys:
+        out["mean"] = float(x.mean())
+    if "sd" in keys:
+        out["sd"] = float(x.std(ddof=1)) if x.size > 1 else 0.0
+    return {k: out[k] for k in keys}
+
+
+def block_rng(seed: int, *key: int) -> np.random.Generator:
+    """The random generator of one block, keyed by ``(seed, key...)`` alone: what a block draws
+    never depends on which blocks run before it, where, or how many run at once."""
+    return np.random.default_rng(np.random.SeedSequence(entropy=seed, spawn_key=tuple(key)))
+
+
 def _block_rng(seed: int, block: int) -> np.random.Generator:
-    return np.random.default_rng(np.random.SeedSequence(entropy=seed, spawn_key=(block,)))
+    return block_rng(seed, block)
 
 
-def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int):
-    """Everything random for ``n`` trials: (vary inputs, Sample)."""
+def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int, *, long_term_normals=None,
+               interannual_normals=None):
+    """Everything random for ``n`` trials: (vary inputs, Sample).
+
+    ``long_term_normals`` (n, 1) and ``interannual_normals`` (n, lifetime), when given, are
+    the standard normals of the long-term and yearly wind-speed factors (a portfolio draws
+    them correlated across sites); they are then not drawn from ``rng``."""
     inputs = draw_inputs(scn, n, rng)
     u = scn.uncertainty
     lt_sd = math.sqrt(sum(sd ** 2 for _, sd in en.speed_terms(scn)))
     en_sd = math.sqrt(sum(x.sd ** 2 for x in u.energy))
-    z_lt = rng.standard_normal((n, 1))
-    z_iav = rng.standard_normal((n, lifetime))
+    z_lt = rng.standard_normal((n, 1)) if long_term_normals is None else long_term_normals
+    z_iav = rng.standard_normal((n, lifetime)) if interannual_normals is None else interannual_normals
     z_en = rng.standard_normal((n, 1))
     speed = None
     if lt_sd > 0 or u.interannual_speed_sd > 0:
@@ -426,6 +457,13 @@ def _clip_inputs(scn, inputs: dict, clipped: list) -> dict:
             x = np.clip(x, lo, hi)
         out[key] = x
     return out
+
+
+def clip_inputs(scn, inputs: dict) -> tuple[dict, list]:
+    """Each drawn input clipped to its key's valid range: (clipped inputs, a list of
+    (key, number of draws clipped, low, high) for the keys with draws outside it)."""
+    clipped: list[tuple] = []
+    return _clip_inputs(scn, inputs, clipped), clipped
 
 
 def _clip_warnings(scn, clipped: list, n: int) -> list[str]:

@@ -2,7 +2,8 @@
 
 The parser is built here without importing the engine, so that ``lcoe --help`` is
 quick; each command's module (``lcoe.cli.run``, ``lcoe.cli.sensitivity``,
-``lcoe.cli.bench``, ``lcoe.cli.app``) is imported only when that command runs.
+``lcoe.cli.portfolio``, ``lcoe.cli.bench``, ``lcoe.cli.app``) is imported only when that command
+runs (the portfolio's Dask too).
 """
 
 from __future__ import annotations
@@ -74,11 +75,29 @@ def build_parser() -> argparse.ArgumentParser:
     v.add_argument("--json", action="store_true", help="print JSON")
     _command(v, "lcoe.cli.sensitivity:cmd_solve")
 
+    f = sub.add_parser("portfolio", help="correlated Monte Carlo of a portfolio of sites (on a Dask cluster)",
+                       description="Run the sites of a portfolio file together, their yearly wind correlated, and "
+                                   "sum them by year: P50/P90/P99 per year and over the life, pooled DSCR and the "
+                                   "diversification benefit. Runs on a Dask cluster in this process unless "
+                                   "--scheduler names an existing one.")
+    f.add_argument("file", help="portfolio file (TOML)")
+    f.add_argument("--json", action="store_true", help="print the JSON report")
+    f.add_argument("--trials", type=whole_number(1), default=None, help="Monte Carlo trials (overrides the file)")
+    f.add_argument("--scheduler", metavar="ADDRESS", help="run on the Dask scheduler at ADDRESS (tcp://host:port)")
+    f.add_argument("--workers", type=whole_number(0, 64), default=None,
+                   help="workers of the local cluster (default: one per core; 0: no Dask, a plain loop)")
+    f.add_argument("--workbook", metavar="PATH", help="write the results as a workbook of values (.xlsx)")
+    _command(f, "lcoe.cli.portfolio:cmd_portfolio")
+
     b = sub.add_parser("bench", help="time the engine on the demo scenario (Monte Carlo, loop, deterministic)")
     b.add_argument("file", nargs="?", default=None, help="scenario (default: the demo)")
     b.add_argument("--trials", type=nonneg_int, default=100_000)
     b.add_argument("--loop-sample", type=nonneg_int, default=500, help="trials timed in the per-trial loop")
     b.add_argument("--repeat", type=nonneg_int, default=5, help="Monte Carlo runs timed (the median is reported)")
+    b.add_argument("--portfolio-sites", type=nonneg_int, default=200,
+                   help="sites of the portfolio benchmark (0: skip it; default %(default)s)")
+    b.add_argument("--portfolio-trials", type=whole_number(1), default=2000,
+                   help="trials of the portfolio benchmark (default %(default)s)")
     b.add_argument("--json", action="store_true")
     _command(b, "lcoe.cli.bench:cmd_bench")
 

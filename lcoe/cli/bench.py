@@ -4,8 +4,9 @@ Times in one run (a) the full Monte Carlo through the batch engine, (b) the same
 trials through a straightforward loop, one trial at a time, with numpy-financial's
 ``npv`` and ``irr`` (timed on a subsample and scaled: the output says so), (c) one
 deterministic run with the site cached, (d) the Weibull AEP integral, (e) the wake
-losses of a 50-turbine grid over a 12-sector rose in 1 m/s speed bins, and the peak
-memory of the process. The loop and the engine are checked against each other on
+losses of a 50-turbine grid over a 12-sector rose in 1 m/s speed bins, (f) the portfolio
+Monte Carlo of many invented sites through the local Dask cluster with 1 and 2 workers,
+and the peak memory of the process. The loop and the engine are checked against each other on
 the subsample.
 """
 
@@ -20,9 +21,12 @@ import numpy as np
 import numpy_financial as npf
 
 from lcoe import engine as model
+from lcoe.analysis import cluster
 from lcoe.analysis import montecarlo as uncertainty
-from lcoe.demo_files import demo_scenario
+from lcoe.analysis import portfolio as portfolio_mc
+from lcoe.demo_files import assumptions_dir, demo_scenario
 from lcoe.finance.tax import depreciation_shares
+from lcoe.inputs import portfolio as portfolio_file
 from lcoe.inputs import scenario
 from lcoe.inputs.schema import LOSS_CATEGORIES
 from lcoe.physics import energy as en
@@ -233,8 +237,68 @@ def wake_case(site):
             lambda v: site.curve.thrust_coefficient_at(v, rho))
 
 
-def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: int = 5) -> dict:
-    """Time the engine; ``engine_s`` is the median of ``repeat`` Monte Carlo runs."""
+def synthetic_portfolio(sites: int, trials: int, seed: int = 7) -> portfolio_file.Portfolio:
+    """``sites`` invented candidate sites (the demo portfolio's first site with its turbine count,
+    mean wind speed and elevation drawn afresh, each its own climate) scattered over about
+    220 x 190 km around the ridge, their yearly wind correlated by distance (150 km)."""
+    base = scenario.load(demo_scenario("portfolio_tallowmere_north.toml"))
+    rng = np.random.default_rng(seed)
+    out = []
+    for i in range(sites):
+        raw = base.raw
+        raw["project"]["name"] = f"Candidate {i + 1:03d}"
+        raw["project"]["turbines"] = int(rng.integers(6, 21))
+        raw["wind"]["mean_speed_mps"] = round(float(rng.uniform(6.6, 8.4)), 3)
+        raw["wind"]["elevation_m"] = round(float(rng.uniform(150.0, 650.0)), 1)
+        scn = scenario.from_dict(raw, source=f"candidate_{i + 1:03d}", base_dir=assumptions_dir())
+        out.append(portfolio_file.PortfolioSite(name=scn.project.name, share=1.0, scenario=scn, file=scn.source,
+                                                latitude_deg=54.9 + float(rng.uniform(-1.0, 1.0)),
+                                                longitude_deg=-2.6 + float(rng.uniform(-1.5, 1.5))))
+    return portfolio_file.Portfolio(name=f"{sites} candidate sites", currency="EUR", trials=trials, seed=seed,
+                                    sites=tuple(out), correlation=portfolio_file.CorrelationSection(
+                                        rule="distance", length_km=150.0),
+                                    common=portfolio_file.CommonSection())
+
+
+def portfolio_bench(sites: int = 200, trials: int = 2000) -> dict:
+    """The portfolio Monte Carlo of ``sites`` x ``trials`` through the local Dask cluster with 1
+    and with 2 workers (each run whole: sites prepared, then the trials), after a small warm-up.
+    The two runs must agree bit for bit."""
+    with cluster.local(1) as warm:
+        portfolio_mc.run(synthetic_portfolio(2, 200), runner=warm)
+    pf = synthetic_portfolio(sites, trials)
+    runs, results = {}, {}
+    for workers in (1, 2):
+        with cluster.local(workers) as runner:
+            t0 = time.perf_counter()
+            res = portfolio_mc.run(pf, runner=runner)
+            runs[workers] = (time.perf_counter() - t0, res.execution["prepare_s"], res.execution["trials_s"])
+        results[workers] = res
+        res = None
+    a, b = results[1], results[2]
+    same = all(np.array_equal(a.lines[k], b.lines[k]) for k in a.lines) and \
+        all(np.array_equal(a.site_values[k], b.site_values[k], equal_nan=True) for k in a.site_values)
+    if not same:
+        raise AssertionError("bench: the portfolio with 1 and with 2 workers differs")
+    st = sites * trials
+    return {
+        "portfolio_sites": sites,
+        "portfolio_trials": trials,
+        "portfolio_s_1_worker": runs[1][0],
+        "portfolio_s_2_workers": runs[2][0],
+        "portfolio_prepare_s_2_workers": runs[2][1],
+        "portfolio_trials_s_2_workers": runs[2][2],
+        "portfolio_site_trials_per_s": st / runs[2][0],
+        "portfolio_site_trials_per_s_1_worker": st / runs[1][0],
+        "portfolio_speedup_1_to_2_workers": runs[1][0] / runs[2][0],
+        "portfolio_trials_speedup_1_to_2_workers": runs[1][2] / runs[2][2],
+    }
+
+
+def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: int = 5,
+              portfolio_sites: int = 0, portfolio_trials: int = 2000) -> dict:
+    """Time the engine; ``engine_s`` is the median of ``repeat`` Monte Carlo runs;
+    ``portfolio_sites`` > 0 adds :func:`portfolio_bench`."""
 
     scn = scenario.load(path)
     case = model.run(scn)                      # warms the site cache (gross AEP table)
@@ -282,7 +346,7 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
                                                               scn.project.turbines), 50)
     case_w = wake_case(site)
     wake_ms = 1000.0 * _median_time(lambda: wake.farm_wake(*case_w), 5)
-    return {
+    out = {
         "scenario": str(path),
         "trials": trials,
         "engine_s": engine_s,
@@ -301,6 +365,10 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
         "peak_rss_mb": _peak_rss_mb(),
         "chunk_size": scn.montecarlo.chunk_size,
     }
+    if portfolio_sites > 0:
+        out.update(portfolio_bench(portfolio_sites, portfolio_trials))
+        out["peak_rss_mb"] = _peak_rss_mb()
+    return out
 
 
 def cmd_bench(args) -> int:
@@ -311,7 +379,8 @@ def cmd_bench(args) -> int:
                             key="--trials", value=args.trials)
     if args.repeat > 100:
         raise ScenarioError("must be at most 100", key="--repeat", value=args.repeat)
-    res = run_bench(args.file or DEMO, trials=args.trials, loop_sample=args.loop_sample, repeat=args.repeat)
+    res = run_bench(args.file or DEMO, trials=args.trials, loop_sample=args.loop_sample, repeat=args.repeat,
+                    portfolio_sites=args.portfolio_sites, portfolio_trials=args.portfolio_trials)
     if args.json:
         print(json.dumps(res, indent=2))
         return 0
@@ -327,5 +396,13 @@ def cmd_bench(args) -> int:
     print(f"  One deterministic run (site cached):            {res['deterministic_ms']:.2f} ms")
     print(f"  Weibull AEP integral:                           {res['aep_ms']:.3f} ms")
     print(f"  Wake losses ({res['wake_case']}): {res['wake_ms']:.1f} ms")
+    if "portfolio_sites" in res:
+        print(f"  Portfolio, {res['portfolio_sites']} sites x {res['portfolio_trials']:,} trials, local cluster:")
+        print(f"    2 workers:                                    {res['portfolio_s_2_workers']:.2f} s "
+              f"({res['portfolio_site_trials_per_s']:,.0f} site-trials/s; sites prepared in "
+              f"{res['portfolio_prepare_s_2_workers']:.2f} s)")
+        print(f"    1 worker:                                     {res['portfolio_s_1_worker']:.2f} s "
+              f"(2 workers are {res['portfolio_speedup_1_to_2_workers']:.2f}x as fast; the trials alone "
+              f"{res['portfolio_trials_speedup_1_to_2_workers']:.2f}x)")
     print(f"  Peak memory:                                    {res['peak_rss_mb']:.0f} MB")
     return 0

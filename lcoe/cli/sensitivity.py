@@ -23,9 +23,8 @@ from lcoe.analysis.sensitivity import (
 from lcoe.analysis.study import clean
 from lcoe.engine import run
 from lcoe.inputs import scenario as sc
-from lcoe.inputs.about import CAUTION
 from lcoe.inputs.errors import ScenarioError
-from lcoe.outputs.report import ENERGY_LABELS, METRIC_LABELS, fmt
+from lcoe.outputs.report import ENERGY_LABELS, METRIC_LABELS, fmt, heading
 
 # --------------------------------------------------------------------------- the commands
 
@@ -62,7 +61,7 @@ def _fmt_value(v, integer=False) -> str:
 
 
 def _head(scn) -> list[str]:
-    return [f"{scn.project.name}  ({scn.source})", CAUTION, ""]
+    return heading(scn.project.name, scn.source)
 
 
 def _print_json(obj) -> None:

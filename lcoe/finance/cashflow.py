@@ -100,6 +100,7 @@ class Sample:
     energy_factor: np.ndarray | None = None   # (n, 1)
     downtime: np.ndarray | None = None        # (n, L) fraction of the year lost to failures
     failure_cost: np.ndarray | None = None    # (n, L) year-0 money
+    merchant_price_factor: np.ndarray | None = None   # (n, L) factor on the merchant price (a price path)
 
 
 def _speed_factor(scn, inp: Inputs, site: en.Site):
@@ -218,17 +219,20 @@ class Terms:
         return self.gross if self.speed_ratio is None else self.speed_gross * self.speed_ratio
 
 
-def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: Sample | None = None) -> Terms:
-    """The per-row and per-year terms of a batch (see :class:`Terms` and :func:`evaluate`)."""
+def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: Sample | None = None,
+          site: en.Site | None = None) -> Terms:
+    """The per-row and per-year terms of a batch (see :class:`Terms` and :func:`evaluate`);
+    ``site`` is the scenario's :class:`~lcoe.physics.energy.Site` when already built."""
     inp = Inputs(scn, overrides)
     if sample is not None:
-        for a in (sample.speed_factor, sample.energy_factor, sample.downtime, sample.failure_cost):
+        for a in (sample.speed_factor, sample.energy_factor, sample.downtime, sample.failure_cost,
+                  sample.merchant_price_factor):
             if a is not None and np.ndim(a) == 2:
                 inp.n = max(inp.n, a.shape[0])
     L = scn.lifetime
     n_turb = scn.project.turbines
     years = np.arange(1, L + 1)
-    site = en.site_for(scn)
+    site = en.site_for(scn) if site is None else site
     gross, key_factor, sens, wake = _gross(scn, inp, site, trials=sample is not None)
     speed_ratio = speed_gross = None
     if sample is not None and sample.speed_factor is not None:
@@ -273,6 +277,8 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
         inp("revenue.ppa_escalation", r.ppa_escalation), years)
     merchant = inp("revenue.merchant_price_per_mwh", scn.merchant_price_per_mwh) * costs.escalation_index(
         inp("revenue.merchant_escalation", r.merchant_escalation), years)
+    if sample is not None and sample.merchant_price_factor is not None:
+        merchant = merchant * sample.merchant_price_factor
     price = np.where(years <= term, ppa, merchant)
     credit = np.where(years <= inp("revenue.production_credit_years", r.production_credit_years),
                       inp("revenue.production_credit_per_mwh", r.production_credit_per_mwh), 0.0)
@@ -321,16 +327,17 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
 
 
 def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
-             schedule: Schedule | None = None, lean: bool = False) -> Flows:
+             schedule: Schedule | None = None, lean: bool = False, site: en.Site | None = None) -> Flows:
     """Run the yearly engine for a batch of rows.
 
     ``overrides`` maps dotted keys to one value per row; ``sample`` carries Monte Carlo
     draws; ``schedule`` is a debt schedule fixed at close (None: size the debt here,
-    per row, on the sizing case). ``lean`` keeps only the lines the metrics need
-    (energy, O&M, decommissioning, CFADS, debt service, DSCR and the two cash flows);
-    the others are None.
+    per row, on the sizing case); ``site`` the scenario's site when already built.
+    ``lean`` keeps only the lines the metrics and a portfolio's sums need (energy, revenue,
+    O&M, decommissioning, CFADS, debt service, DSCR and the two cash flows); the others
+    are None.
     """
-    tm = terms(scn, energy, overrides, sample)
+    tm = terms(scn, energy, overrides, sample, site)
     inp, years, L = tm.inp, tm.years, scn.lifetime
     warnings = tm.warnings
     # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
@@ -399,7 +406,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     balance_close = None if lean else sched.balance_open + sched.interest - ds
     return Flows(
         years=np.arange(0, L + 1), energy_mwh=energy_line, availability=with_t0(tm.availability),
-        price_per_mwh=with_t0(price), revenue=with_t0(revenue), opex=opex_line,
+        price_per_mwh=with_t0(price), revenue=with_t0(revenue, keep=True), opex=opex_line,
         capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t, keep=True), depreciation=with_t0(dep),
         interest=with_t0(sched.interest), principal=with_t0(sched.principal),
         balance=with_t0(balance_close, sched.debt.ravel()), tax=with_t0(tax), tax_unlevered=with_t0(tax_u),

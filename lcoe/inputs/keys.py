@@ -106,8 +106,8 @@ def _unknown_msg(path: list[str], node: dict) -> str:
     return "unknown key" + (f" (did you mean {'.'.join(path[:-1] + [hint[0]])!r}?)" if hint else "")
 
 
-def _model_at(path: list[str]):
-    model: Any = ScenarioFields
+def _model_at(path: list[str], root: Any = None):
+    model: Any = ScenarioFields if root is None else root
     for part in path:
         fields = getattr(model, "model_fields", None)
         if not fields or part not in fields:

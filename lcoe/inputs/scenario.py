@@ -127,7 +127,9 @@ def _dotted(loc: tuple) -> str:
     return out
 
 
-def _convert(err: ValidationError, raw: dict) -> ScenarioError:
+def _convert(err: ValidationError, raw: dict, root=None) -> ScenarioError:
+    """The first pydantic error as a ScenarioError naming the dotted key (``root``: the model
+    the data was validated against, for suggestions; default the scenario)."""
     errors = err.errors(include_url=False)
     # An unknown key usually explains a "missing" one next to it (a typo): report it first.
     e = next((x for x in errors if x["type"] == "extra_forbidden"), errors[0])
@@ -153,7 +155,7 @@ def _convert(err: ValidationError, raw: dict) -> ScenarioError:
     typ = e["type"]
     value = e.get("input")
     if typ == "extra_forbidden":
-        model = _model_at([p for p in loc[:-1] if isinstance(p, str)])
+        model = _model_at([p for p in loc[:-1] if isinstance(p, str)], root)
         known = list(model.model_fields) if model is not None else []
         hint = suggest(str(loc[-1]), known)
         parent = _dotted(loc[:-1])
@@ -201,6 +203,9 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
     try:
         if not isinstance(raw, dict):
             raise ScenarioError("a scenario must be a table of sections", has_value=False)
+        if "portfolio" in raw and "project" not in raw:
+            raise ScenarioError("is a portfolio file, not a scenario (it has a [portfolio] table); run it with "
+                                "lcoe portfolio", has_value=False)
         _check_finite(raw)
         variants = raw.get("variants")
         if isinstance(variants, dict) and len(variants) > MAX_VARIANTS:

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import json
 import math
+import textwrap
 
 from lcoe.analysis.study import Report
 from lcoe.engine import ANNUAL_KEYS
@@ -26,6 +27,20 @@ def write_annual_csv(report: Report, path):
 
 
 # --------------------------------------------------------------------------- table output
+
+WIDTH = 100   # every table fits a 100-column terminal
+
+
+def heading(name: str, source: str, caution: str = CAUTION) -> list[str]:
+    """The first lines of every table: the name, the file it came from, the caution.
+
+    The file goes on a line of its own when the two would not fit in ``WIDTH`` columns,
+    and the caution is wrapped, so that a long path never widens the table.
+    """
+    one = f"{name}  ({source})"
+    lines = [one] if len(one) <= WIDTH else [name, f"  ({source})"]
+    return lines + textwrap.wrap(caution, WIDTH) + [""]
+
 
 METRIC_LABELS = {
     "lcoe_nominal_per_mwh": ("LCOE, nominal", "{cur}/MWh", "{:.2f}"),
@@ -76,7 +91,7 @@ def _label(labels, key, cur):
 def to_table(report: Report, *, yearly: bool = True) -> str:
     d = report.to_dict()
     cur = report.case.scenario.project.currency
-    lines = [f"{d['scenario']}  ({report.case.scenario.source})", CAUTION, ""]
+    lines = heading(d["scenario"], report.case.scenario.source)
     w = 38
     lines.append("Headline")
     for k in d["metrics"]:
@@ -110,7 +125,8 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     if d["warnings"]:
         lines.append("")
         lines.append("Warnings")
-        lines.extend(f"  - {x}" for x in d["warnings"])
+        for x in d["warnings"]:
+            lines += textwrap.wrap(x, WIDTH, initial_indent="  - ", subsequent_indent="    ")
     return "\n".join(lines) + "\n"
 
 

@@ -17,6 +17,7 @@ from lcoe.physics.site import (  # noqa: F401  (the site's names, as the energy 
     Site,
     aep_weibull_mwh,
     aep_weibull_rows,
+    build_site,
     climate_from,
     curve_from,
     gross_at_shape,
@@ -197,9 +198,10 @@ class EnergyResult:
 HIGH_CAPACITY_FACTOR = 0.6
 
 
-def energy_of(scn) -> EnergyResult:
-    """Gross and net energy, the yearly profile and the P-values of a scenario."""
-    site = site_for(scn)
+def energy_of(scn, site: Site | None = None) -> EnergyResult:
+    """Gross and net energy, the yearly profile and the P-values of a scenario
+    (``site``: its :class:`Site`, when already built; default :func:`site_for`)."""
+    site = site_for(scn) if site is None else site
     c = site.climate
     used = losses_used(scn, site)
     lf = loss_factor([used[name] for name in LOSS_CATEGORIES])

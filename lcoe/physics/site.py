@@ -489,8 +489,18 @@ _SITE_CACHE: dict[str, Site] = {}
 
 
 def _build_site(scn) -> Site:
-    climate = climate_from(scn)
-    curve = curve_from(scn)
+    return build_site(scn)
+
+
+def build_site(scn, climate: Climate | None = None, curve: PowerCurve | None = None) -> Site:
+    """The :class:`Site` of a scenario, built afresh (not cached).
+
+    ``climate`` and ``curve`` (from :func:`climate_from` and :func:`curve_from`) may be
+    given when they were read elsewhere: a worker on another machine then builds the site
+    without the scenario's wind series and power curve files (a layout's positions file is
+    still read here)."""
+    climate = climate_from(scn) if climate is None else climate
+    curve = curve_from(scn) if curve is None else curve
     site_curve = curve.at_density(climate.density_kgm3)
     n = scn.project.turbines
     probe = Site(climate, curve, site_curve, n, 1.0, float("nan"), _FACTORS, **_flat_table(_FACTORS))
