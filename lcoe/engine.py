@@ -2,6 +2,25 @@
 
 The CLI, the workbook, the app, Monte Carlo and sensitivity all come through here,
 so every figure is computed once.
+
+Locked debt
+-----------
+A lender sizes the debt once, at financial close, on the sizing case; every other case
+(a downside case, a Monte Carlo trial, the workbook's locked mode) meets that schedule.
+The public way to run a scenario with the debt taken from a base case::
+
+    base = engine.run(scn)                     # debt sized on the sizing case
+    down = engine.run(scn_downside, debt=base)  # same debt amount, fee and yearly debt service
+    down.locked                                 # True
+    down.cover()                                # min/avg DSCR, LLCR, years below 1.0x, unpaid debt service
+
+``debt`` takes a :class:`Case` or its :attr:`Case.schedule` (a
+:class:`lcoe.finance.debt.Schedule`: the debt, fee, interest, principal and debt service of
+each year t = 1..L, and the rate and yearly targets it was sized at). Nothing is re-sized:
+the debt terms of the locked scenario are not read, and a scenario whose life differs from
+the schedule's, or that has no ``[finance.debt]`` table while the schedule carries debt, is
+refused with a one-line :class:`~lcoe.inputs.errors.ScenarioError`. :func:`cover_of` gives
+the cover figures of any case (locked or not) from its yearly lines.
 """
 
 from __future__ import annotations
@@ -39,6 +58,8 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
     inp = Inputs(scn, overrides)
     f = scn.finance
     r, infl, eq, rate_i = _metric_rates(scn, inp)
+    if flows.schedule is not None and flows.schedule.interest_rate is not None:
+        rate_i = flows.schedule.interest_rate   # a locked debt keeps the rate it was sized at
     out = {
         "lcoe_nominal_per_mwh": mt.lcoe(flows.capex_total, flows.opex, flows.decommissioning, flows.energy_mwh, r),
         "lcoe_real_per_mwh": mt.lcoe(flows.capex_total, flows.opex, flows.decommissioning, flows.energy_mwh, r,
@@ -169,19 +190,66 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     return res
 
 
+COVER_KEYS = ("min_dscr", "avg_dscr", "llcr", "years_below_1", "cfads_shortfall", "unpaid_debt_service")
+
+
+def cover_of(flows: Flows, metrics: dict, row: int = 0) -> dict:
+    """How one row meets its debt service: minimum and average DSCR and LLCR (from the
+    metrics), the years with debt service whose CFADS falls short of it (DSCR < 1.0x), the
+    CFADS shortfall over those years, and the debt service left unpaid after the cash the
+    waterfall holds for it (without reserve accounts: the CFADS shortfall). Money in
+    nominal terms, summed over the life; figures that do not exist are None."""
+    ds = flows.debt_service[row, 1:]
+    cfads = flows.cfads[row, 1:]
+    on = ds > 0
+    short = np.where(on, np.maximum(ds - np.maximum(cfads, 0.0), 0.0), 0.0)
+    out = {k: _num(np.asarray(metrics[k]).ravel()[row]) if metrics.get(k) is not None else None
+           for k in ("min_dscr", "avg_dscr", "llcr")}
+    out["years_below_1"] = int(np.count_nonzero(on & (cfads < ds)))
+    out["cfads_shortfall"] = float(short.sum())
+    out["unpaid_debt_service"] = float(short.sum())
+    return out
+
+
+def locked_schedule(scn, debt) -> Schedule | None:
+    """The schedule of ``debt`` (a :class:`Case`, a :class:`Schedule` or None) checked against
+    ``scn``: one row, the scenario's life, and a debt table where it carries debt."""
+    if debt is None:
+        return None
+    sched = debt.schedule if isinstance(debt, Case) else debt
+    if not isinstance(sched, Schedule):
+        raise TypeError(f"debt must be an engine.Case or a finance.debt.Schedule, not {type(debt).__name__}")
+    if np.shape(sched.debt)[0] != 1:
+        raise ValueError("a locked debt holds one schedule (one row); run each row's case on its own")
+    years = np.shape(sched.debt_service)[1]
+    if years != scn.lifetime:
+        raise ScenarioError(f"must equal the locked debt schedule's {years} years: the debt is fixed at close",
+                            key="project.lifetime_years", value=scn.lifetime)
+    if scn.finance.debt is None and float(np.asarray(sched.debt).ravel()[0]) > 0:
+        raise ScenarioError("is missing: a locked debt needs the scenario's debt table (its interest rate "
+                            "discounts the LLCR)", key="finance.debt", has_value=False)
+    return sched
+
+
 @dataclass
 class Case:
-    """A deterministic run of one scenario (the P50 case, debt sized on the sizing case)."""
+    """A deterministic run of one scenario (the P50 case, debt sized on the sizing case, or,
+    where ``locked``, the debt and its schedule taken from a base case)."""
 
     scenario: object
     energy: en.EnergyResult
     flows: Flows
     metrics: dict
     warnings: list = field(default_factory=list)
+    locked: bool = False
 
     @property
     def schedule(self) -> Schedule:
         return self.flows.schedule
+
+    def cover(self) -> dict:
+        """The cover figures of this case (:func:`cover_of`)."""
+        return cover_of(self.flows, self.metrics)
 
     def annual(self) -> list[dict]:
         rows = []
@@ -266,11 +334,16 @@ def breakeven_price(scn, energy=None, row_overrides: dict | None = None, *, samp
     return float(brentq(g, lo, hi, xtol=1e-9, rtol=1e-13, maxiter=200)), None
 
 
-def run(scn, *, breakeven: bool = True, site: en.Site | None = None) -> Case:
+def run(scn, *, breakeven: bool = True, site: en.Site | None = None, debt=None) -> Case:
     """The deterministic case of a scenario, every metric filled (``site``: its
-    :class:`~lcoe.physics.energy.Site` when already built; the break-even search looks it up)."""
+    :class:`~lcoe.physics.energy.Site` when already built; the break-even search looks it up).
+
+    ``debt`` (a base :class:`Case` or its :class:`Schedule`) locks the debt: its amount, fee
+    and yearly debt service are taken as fixed at close, not sized here (see the module
+    notes). The break-even PPA price keeps its definition (debt sized afresh)."""
+    schedule = locked_schedule(scn, debt)
     energy = en.energy_of(scn, site)
-    flows, m, warnings = evaluate(scn, energy=energy, site=site)
+    flows, m, warnings = evaluate(scn, energy=energy, site=site, schedule=schedule)
     metrics = {k: _num(v[0]) for k, v in m.items()}
     if breakeven:
         price, why = breakeven_price(scn, energy)
@@ -283,7 +356,7 @@ def run(scn, *, breakeven: bool = True, site: en.Site | None = None) -> Case:
         metrics["payback_year"] = int(metrics["payback_year"])
     metrics = {k: metrics.get(k) for k in METRIC_KEYS}
     all_warn = list(scn.warnings()) + list(energy.warnings) + warnings
-    return Case(scn, energy, flows, metrics, _dedupe(all_warn))
+    return Case(scn, energy, flows, metrics, _dedupe(all_warn), locked=schedule is not None)
 
 
 def _dedupe(items):

@@ -102,15 +102,8 @@ def run_case(scn, base: engine.Case, case: LenderCase) -> LenderResult:
         sample = Sample(energy_factor=np.array([[factor]]))
     flows, m, _ = engine.evaluate(scn, overrides=over or None, sample=sample, schedule=base.schedule,
                                   energy=base.energy)
-    dscr = flows.dscr[0, 1:]
-    service = flows.debt_service[0, 1:] > 0
-    with np.errstate(invalid="ignore"):
-        below = int(np.count_nonzero(service & (dscr < 1.0)))
-    shortfall = float(np.maximum(flows.debt_service[0, 1:] - np.maximum(flows.cfads[0, 1:], 0.0), 0.0)[service].sum())
-    metrics = {k: _finite(np.asarray(m[k]).ravel()[0]) for k in
-               ("min_dscr", "avg_dscr", "llcr", "equity_irr", "project_irr", "equity_npv")}
-    metrics["years_below_1"] = below
-    metrics["cfads_shortfall"] = shortfall
+    metrics = engine.cover_of(flows, m)
+    metrics.update({k: _finite(np.asarray(m[k]).ravel()[0]) for k in ("equity_irr", "project_irr", "equity_npv")})
     return LenderResult(case, flows, metrics)
 
 

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lcoe.finance import costs
-from lcoe.finance.debt import Schedule, size_debt
+from lcoe.finance.debt import Schedule, size_debt, yearly_targets
 from lcoe.finance.tax import depreciation_shares, tax_with_carryforward
 from lcoe.inputs.schema import DERIVED_DEFAULTS, LOSS_CATEGORIES
 from lcoe.physics import energy as en
@@ -213,6 +213,7 @@ class Terms:
     shares: object            # depreciation share of each year (the depreciation is capex * shares)
     tax_rate: object
     warnings: list
+    ppa_term: object = None   # revenue.ppa_term_years per row (contracted years t <= term)
 
     def gross_t(self):
         """Gross AEP of each year with the trials' speed factors (without them, the rows'). [MWh/yr]"""
@@ -323,7 +324,7 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
                  variable=inp("maintenance.variable_per_mwh", m.variable_per_mwh),
                  lease=inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue),
                  esc_index=esc_index, decom_t=np.where(years == L, decom, 0.0), shares=shares,
-                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[])
+                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[], ppa_term=term)
 
 
 def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
@@ -371,7 +372,10 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         sched = schedule
     else:
         sched = size_debt(operating, energy_t, tm.factors[debt_terms.sizing_case], decom_t, dep, capex, tax_rate,
-                          inp("finance.debt.target_dscr", debt_terms.target_dscr),
+                          yearly_targets(inp("finance.debt.target_dscr", debt_terms.target_dscr),
+                                         None if debt_terms.target_dscr_merchant is None else
+                                         inp("finance.debt.target_dscr_merchant", debt_terms.target_dscr_merchant),
+                                         tm.ppa_term, years),
                           inp("finance.debt.max_gearing", debt_terms.max_gearing),
                           inp("finance.debt.tenor_years", debt_terms.tenor_years),
                           inp("finance.debt.interest_rate", debt_terms.interest_rate),

@@ -27,6 +27,8 @@ class Schedule:
     sizing_cfads: np.ndarray  # (n, L), CFADS of the sizing case at close
     iterations: int
     gearing_bound: np.ndarray  # (n, 1) bool
+    interest_rate: object = None   # the rate the schedule was amortised at (float or (n, 1))
+    target_dscr: object = None     # the target of each year, float or (1 or n, L): contracted / merchant
 
 
 def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
@@ -45,11 +47,15 @@ def sculpt(cfads, target_dscr, tenor_mask, rate, cap):
     return ds * scale, np.minimum(pv, cap), bound
 
 
-def debt_service_scale(schedule, target_dscr: float) -> float:
-    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise)."""
+def debt_service_scale(schedule, target_dscr: float | None = None) -> float:
+    """The factor the engine applied to CFADS / target DSCR when the gearing cap bound (1 otherwise);
+    the schedule's own yearly targets unless ``target_dscr`` is given."""
     if schedule is None or not bool(np.asarray(schedule.gearing_bound).ravel()[0]):
         return 1.0
-    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / target_dscr
+    if target_dscr is None:
+        target_dscr = schedule.target_dscr
+    target = np.asarray(target_dscr, float)
+    raw = np.maximum(schedule.sizing_cfads[0], 0.0) / (target[0] if target.ndim == 2 else target)
     on = schedule.debt_service[0] > 0
     total = float(raw[on].sum())
     return float(schedule.debt_service[0][on].sum() / total) if total > 0 else 1.0
@@ -66,11 +72,20 @@ def amortise(debt_service, rate):
     return opening, interest, debt_service - interest
 
 
+def yearly_targets(target_dscr, merchant_dscr, ppa_term_years, years):
+    """The target DSCR of each year: ``target_dscr`` in the contracted (PPA) years t <= ppa term,
+    ``merchant_dscr`` after; a single value where no merchant target is given."""
+    if merchant_dscr is None:
+        return target_dscr
+    return np.where(years <= np.asarray(ppa_term_years, float), target_dscr, merchant_dscr)
+
+
 def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, target_dscr, max_gearing,
               tenor_years, interest_rate, upfront_fee, years) -> Schedule:
     """Size sculpted debt on the sizing case (energy scaled by P_case / P50).
 
-    DS_t = CFADS_t / target_dscr over the tenor; debt = min(PV of DS at the interest
+    DS_t = CFADS_t / target_dscr over the tenor (``target_dscr`` one value, or one per year from
+    :func:`yearly_targets`); debt = min(PV of DS at the interest
     rate, max_gearing * capex). Interest lowers tax, which raises CFADS and the debt:
     the loop repeats until the debt and every year's debt service change by less than
     DEBT_TOLERANCE * capex (when the gearing cap binds the debt is fixed from the start,
@@ -95,4 +110,4 @@ def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, t
     debt = np.asarray(debt).reshape(-1, 1)
     fee = upfront_fee * debt
     return Schedule(debt, ds, interest, principal, opening, np.asarray(fee).reshape(-1, 1), cfads, it,
-                    np.asarray(bound).reshape(-1, 1))
+                    np.asarray(bound).reshape(-1, 1), interest_rate, target_dscr)

@@ -283,6 +283,8 @@ class Revenue(_Model):
 class Debt(_Model):
     sizing_case: Literal["p50", "p90_1yr", "p90_10yr", "p99_1yr"] = "p90_1yr"
     target_dscr: Annotated[float, Field(ge=1.0, le=5.0)] = 1.30
+    # the target in the merchant years (after revenue.ppa_term_years); omitted: target_dscr in every year
+    target_dscr_merchant: Annotated[float, Field(ge=1.0, le=5.0)] | None = None
     max_gearing: Annotated[float, Field(ge=0.0, le=1.0)] = 0.75
     tenor_years: Annotated[int, Field(ge=1, le=60)]
     interest_rate: Annotated[float, Field(ge=0.0, le=0.5)]
@@ -441,6 +443,15 @@ class ScenarioFields(_Model):
     @property
     def plant_kw(self) -> float:
         return self.turbine.rated_power_kw * self.project.turbines
+
+    def lender_structure(self) -> list[str]:
+        """The lender-structure keys this scenario sets (the merchant target DSCR, the
+        construction period, reserve accounts, the cash waterfall): outputs that do not show
+        them yet refuse the scenario rather than show numbers without them."""
+        out = []
+        if self.finance.debt is not None and self.finance.debt.target_dscr_merchant is not None:
+            out.append("finance.debt.target_dscr_merchant")
+        return out
 
     def warnings(self) -> list[str]:
         """Non-fatal remarks about the assumptions (shown with every report)."""

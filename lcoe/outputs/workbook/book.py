@@ -11,6 +11,7 @@ from openpyxl.utils import get_column_letter
 
 from lcoe.engine import METRIC_KEYS
 from lcoe.inputs.about import CAUTION, __version__
+from lcoe.inputs.errors import ScenarioError
 from lcoe.outputs.files import write_atomic
 from lcoe.outputs.workbook.cells import (
     BOLD,
@@ -294,6 +295,13 @@ def _write_notes(book: Book, report, sens_note: str | None):
 
 # --------------------------------------------------------------------------- the workbook
 
+def _value_at(scn, dotted: str):
+    node = scn
+    for part in dotted.split("."):
+        node = getattr(node, part)
+    return node if isinstance(node, (int, float, str, bool)) else "set"
+
+
 def build(report) -> Workbook:
     """The lender workbook of a report (an :class:`openpyxl.Workbook`, not yet saved).
 
@@ -302,6 +310,11 @@ def build(report) -> Workbook:
     """
     case = report.case
     scn = case.scenario
+    unshown = scn.lender_structure()
+    if unshown:
+        raise ScenarioError("the workbook does not yet show this part of the lender structure; write it "
+                            "without the key (the engine and `lcoe run` include it)", key=unshown[0],
+                            value=_value_at(scn, unshown[0]))
     book = Book(scn.project.currency)
     summary = book.sheet(SUMMARY)
     write_inputs(book, report)
