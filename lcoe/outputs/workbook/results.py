@@ -47,15 +47,15 @@ def _row_ref(tl: Timeline, key: str, t_from: int, t_to: int) -> Reference:
     return Reference(tl.ws, min_col=T0_COL + t_from, max_col=T0_COL + t_to, min_row=r, max_row=r)
 
 
-def chart_cashflow(cf: Timeline):
-    """Columns of CFADS, debt service and equity cash flow per operating year."""
+def chart_cashflow(cf: Timeline, years: int):
+    """Columns of CFADS, debt service and equity cash flow per operating year (of the life as exported)."""
     ch = BarChart()
     ch.type = "col"
     ch.grouping = "clustered"
     ch.title = "Yearly cash flow, P50 case"
     for key, title in (("cfads", "CFADS"), ("ds", "Debt service"), ("equity", "Equity cash flow")):
-        ch.series.append(Series(_row_ref(cf, key, 1, cf.L), title=title))
-    ch.set_categories(Reference(cf.ws, min_col=T0_COL + 1, max_col=T0_COL + cf.L, min_row=YEAR_ROW,
+        ch.series.append(Series(_row_ref(cf, key, 1, years), title=title))
+    ch.set_categories(Reference(cf.ws, min_col=T0_COL + 1, max_col=T0_COL + years, min_row=YEAR_ROW,
                                 max_row=YEAR_ROW))
     axes(ch, "Year", cf.b.cur)
     ch.y_axis.numFmt = "#,##0"
@@ -67,7 +67,7 @@ def chart_dscr(dt: Timeline, tenor: int):
     """The P50 and sizing-case DSCR against the target over the tenor (none without debt)."""
     if tenor < 1:
         return
-    t_to = min(tenor, dt.L)
+    t_to = min(tenor, dt.H)
     ch = LineChart()
     ch.title = "DSCR against the target"
     for key, title in (("p50_dscr", "DSCR, P50 case"), ("s_dscr", "DSCR, sizing case"), ("target", "Target DSCR")):
