@@ -37,7 +37,7 @@ from lcoe.outputs.workbook.cells import (
 from lcoe.outputs.workbook.directions import write_directions
 from lcoe.outputs.workbook.inputs import write_inputs
 from lcoe.outputs.workbook.results import chart_cashflow, chart_dscr, write_montecarlo, write_sensitivity
-from lcoe.outputs.workbook.layout import print_setup, scenario_sha256, write_cover, write_lender_cases
+from lcoe.outputs.workbook.layout import collapse, print_setup, scenario_sha256, write_cover, write_lender_cases
 from lcoe.outputs.workbook.sheets import write_cashflow_and_debt, write_energy, write_energy_trace
 from lcoe.physics.energy import site_for
 
@@ -92,7 +92,7 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
     b = book
     b.text(ws, 1, 1, "Summary", font=TITLE)
     b.text(ws, 2, 1, CAUTION, font=ITALIC)
-    for col, width in zip("ABCDEFG", (50, 18, 14, 30, 20, 16, 50)):
+    for col, width in zip("ABCDEFG", (44, 16, 12, 26, 18, 14, 50)):
         ws.column_dimensions[col].width = width
     b.text(ws, 4, 1, "Project")
     b.text(ws, 4, 2, scn.project.name, font=BOLD)
@@ -376,11 +376,11 @@ def _value_at(scn, dotted: str):
     return node if isinstance(node, (int, float, str, bool)) else "set"
 
 
-def horizon_of(scn) -> int:
+def horizon_of(scn, minimum: int = MIN_HORIZON) -> int:
     """The yearly sheets' horizon: the longest life among the scenario and its variants, at least
-    :data:`MIN_HORIZON` years."""
+    ``minimum`` years (the print area runs to the longest life)."""
     lives = [scn.lifetime] + [scn.variant(name).lifetime for name in (scn.variants or {})]
-    return max(MIN_HORIZON, *lives)
+    return max(minimum, *lives)
 
 
 def build(report, *, source_sha256: str | None = None) -> Workbook:
@@ -403,6 +403,7 @@ def build(report, *, source_sha256: str | None = None) -> Workbook:
     write_inputs(book, report, horizon)
     en = write_energy(book, scn, horizon)
     cf, dt = write_cashflow_and_debt(book, scn, en)
+    collapse(dt.ws, dt.pass_rows)
     site = site_for(scn)
     trace_end = write_energy_trace(book, en, scn, site)
     write_directions(book, en.ws, trace_end + 2, case.energy)
@@ -421,7 +422,7 @@ def build(report, *, source_sha256: str | None = None) -> Workbook:
     _write_checks(book, book.sheet(CHECKS), cf, dt)
     _write_notes(book, report, sens_note)
     write_cover(book, cover, report, source_sha256)
-    print_setup(book, scn, (en, cf, dt))
+    print_setup(book, scn, (en, cf, dt), horizon_of(scn, minimum=0))
     book.wb.active = 0
     return book.wb
 

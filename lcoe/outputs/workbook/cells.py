@@ -168,10 +168,10 @@ class Timeline:
             p = book.formula(ws, YEAR_ROW + 1, T0_COL + t, expr, font=ITALIC)
             p.alignment = Alignment(horizontal="center")
         ws.freeze_panes = ws.cell(FIRST_ROW - 1, T0_COL)
-        ws.column_dimensions["A"].width = 46
-        ws.column_dimensions["B"].width = 14
+        ws.column_dimensions["A"].width = 40
+        ws.column_dimensions["B"].width = 12
         for t in range(horizon + 1):
-            ws.column_dimensions[get_column_letter(T0_COL + t)].width = 12.5
+            ws.column_dimensions[get_column_letter(T0_COL + t)].width = 11
 
     # references
     def col(self, t: int) -> str:
@@ -211,7 +211,8 @@ class Timeline:
         r = self.next
         self.next += 1
         unit = self.b.unit(unit)
-        self.b.text(self.ws, r, 1, f"{label} [{unit}]" if unit and unit != "-" else label)
+        lab = self.b.text(self.ws, r, 1, f"{label} [{unit}]" if unit and unit != "-" else label)
+        lab.alignment = Alignment(wrap_text=True, vertical="top")
         self.rows[key] = r
         if callable(expr):        # refers to a line written later: formed at render
             self.singles.append((r, expr, fmt, fill))

@@ -19,6 +19,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 from openpyxl.styles import Alignment
+from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
 from lcoe.inputs.about import CAUTION, __version__
@@ -30,6 +31,7 @@ from lcoe.outputs.workbook.cells import (
     HEAD_FILL,
     INPUT_FILL,
     ITALIC,
+    T0_COL,
     TITLE,
     YEAR_ROW,
     Book,
@@ -42,7 +44,7 @@ MIN_PRINT_PT = 8.0     # no printed text below this
 MIN_SCALE = math.ceil(100 * MIN_PRINT_PT / BASE_FONT_PT)   # 73 %
 #: printable width of a landscape page at 100 %, in character widths of the default font (about
 #: 7 px at 96 dpi): A4 297 mm and letter 279 mm less 2 x 0.7 in margins (common practice)
-PAGE_CHARS = {"a4": 148.0, "letter": 139.0}
+PAGE_CHARS = {"a4": 95.0, "letter": 90.0}   # as LibreOffice prints them (seen in its PDF)
 
 # lender cases: (label, energy factor, availability change, O&M factor, price factor)
 LENDER_CASES = (
@@ -73,8 +75,8 @@ def write_cover(book: Book, ws, report, sha256: str | None, when: datetime | Non
     b = book
     scn = report.case.scenario
     when = when or datetime.now(timezone.utc)
-    ws.column_dimensions["A"].width = 34
-    ws.column_dimensions["B"].width = 100
+    ws.column_dimensions["A"].width = 24
+    ws.column_dimensions["B"].width = 70
     b.text(ws, 1, 1, f"Lender workbook: {scn.project.name}", font=TITLE)
     b.text(ws, 2, 1, CAUTION, font=ITALIC)
     ws.merge_cells("A2:B2")
@@ -179,6 +181,8 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline) -> Timeline:
                 name=f"lender_case_{i}_dscr")
         tl.line(f"{k}_equity", "Equity cash flow", "{cur}",
                 lambda t, c=c: f"{c('cfads', t)}-{c('ds', t)}-IF({y(t)}=0,capex_total+debt_fee_held-debt_held,0)", "money")
+        collapse(ws, [tl.rows[f"{k}_{x}"] for x in ("avail", "energy", "revenue", "opex", "pre", "taxable", "cum",
+                                                     "peak", "tax")])
         dscr, eq = tl.span(f"{k}_dscr"), tl.span(f"{k}_equity")
         cfads, ds = tl.span(f"{k}_cfads"), tl.span(f"{k}_ds")
         b.formula(ws, r, 6, f"IF(COUNT({dscr})>0,MIN({dscr}),\"n/a\")", "ratio")
@@ -226,7 +230,6 @@ def HELD_DS(t: int, y) -> str:  # noqa: N802
 # --------------------------------------------------------------------------- print
 
 def _content_chars(ws, last_col: int) -> float:
-    from openpyxl.utils import get_column_letter
     total = 0.0
     for col in range(1, last_col + 1):
         w = ws.column_dimensions[get_column_letter(col)].width
@@ -234,7 +237,15 @@ def _content_chars(ws, last_col: int) -> float:
     return total
 
 
-def print_setup(book: Book, scn, timelines) -> None:
+def collapse(ws, rows) -> None:
+    """Rows of working shown on demand: an outline group, closed (not printed until opened)."""
+    for r in rows:
+        ws.row_dimensions[r].outlineLevel = 1
+        ws.row_dimensions[r].hidden = True
+    ws.sheet_properties.outlinePr.summaryBelow = False
+
+
+def print_setup(book: Book, scn, timelines, print_years: int) -> None:
     """Paper, orientation, print titles, a scale that keeps text at 8 pt or more, header and footer."""
     paper = "letter" if scn.project.currency.upper() == "USD" else "a4"
     stamp = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
@@ -250,7 +261,9 @@ def print_setup(book: Book, scn, timelines) -> None:
             # the label columns repeat on every page: the years go across in pages of their own
             ws.print_title_rows = f"{YEAR_ROW}:{YEAR_ROW + 1}"
             ws.print_title_cols = "A:B"
-            scale = MIN_SCALE + 7
+            ws.print_area = f"A1:{get_column_letter(T0_COL + print_years)}{ws.max_row}"
+            ws.page_setup.pageOrder = "overThenDown"
+            scale = MIN_SCALE
         else:
             scale = max(MIN_SCALE, min(100, int(100 * PAGE_CHARS[paper] / max(width, 1.0))))
         ps.scale = scale

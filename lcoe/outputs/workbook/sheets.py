@@ -24,6 +24,7 @@ The capacity is shown in both modes beside the held debt, with the headroom.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -395,6 +396,7 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
                 lambda t, j=j: f"IF({d('tenor', t)}=1,{d('a', t)}-{d(f'dl{j}', t)}/target_dscr,0)", "money")
         roll(j, f"a{j}")
     fin = RESIZE_PASSES
+    dt.pass_rows = [dt.rows[k] for k in dt.rows if re.fullmatch(r"(b|ds|tx|cu|pk|dl|a|sc)\d+", k)]
     dt.line("b", f"Capacity balance at the end of the year (pass {fin})", "{cur}", lambda t: d(f"b{fin}", t), "money",
             name="capacity_balance")
     dt.line("cap_ds", f"Capacity debt service (pass {fin})", "{cur}", lambda t: d(f"ds{fin}", t), "money",
