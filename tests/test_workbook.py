@@ -797,3 +797,22 @@ def test_lender_cases_equal_the_engine_with_the_debt_locked(books):
             assert math.isclose(named(c.values, f"lender_case_{i}_{key}"), cover[key], rel_tol=REL), (i, key)
         assert math.isclose(named(c.values, f"lender_case_{i}_equity_irr"), float(met["equity_irr"][0]), rel_tol=REL)
         assert named(c.values, f"lender_case_{i}_years_below_1") == cover["years_below_1"], i
+
+
+def test_usd_prints_on_letter():
+    wb = workbook.build(study.build(make_scenario(**{"project.currency": "USD"}), trials=0, variants=False))
+    assert {int(ws.page_setup.paperSize) for ws in wb.worksheets} == {int(wb.active.PAPERSIZE_LETTER)}
+
+
+def test_energy_sheet_traces_a_series():
+    """An hourly scenario: the Energy sheet names its series file, its period and its coverage by month."""
+    from conftest import DEMO_HOURLY
+    scn = sc.load(DEMO_HOURLY)
+    wb = workbook.build(study.build(scn, trials=0, variants=False))
+    ws = wb["Energy"]
+    col_a = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value}
+    assert ws.cell(col_a["Wind series"], 2).value == Path(scn.wind.timeseries).name
+    assert " to " in ws.cell(col_a["Series period (UTC)"], 2).value
+    cover = [ws.cell(col_a["Data coverage by calendar month [months of data]"], 3 + m).value for m in range(12)]
+    assert all(isinstance(v, float) for v in cover) and sum(cover) > 0
+    assert any(str(k).startswith("Power curve (") for k in col_a)

@@ -80,6 +80,12 @@ def _metric_formulas(cf: Timeline) -> dict[str, str]:
     }
 
 
+def difference(row: int) -> str:
+    """Sheet less engine; a rounding residue below 1e-12 of the value shows as 0 (never a red "-0")."""
+    return (f"IF(AND(ISNUMBER(B{row}),ISNUMBER(E{row})),IF(ABS(B{row}-E{row})<=1E-12*MAX(ABS(E{row}),1E-300),0,"
+            f"B{row}-E{row}),\"\")")
+
+
 def guarded(key: str, expr: str) -> str:
     """A metric shown only while the checks it depends on pass; otherwise the text ``check failed``."""
     flag = "project_checks_ok" if key in PROJECT_METRICS else "checks_ok"
@@ -127,7 +133,7 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
         b.text(ws, row, 3, b.unit(unit), font=ITALIC)
         b.text(ws, row, 4, key, font=ITALIC)
         b.num(ws, row, 5, case.metrics.get(key), fmt, fill=ENGINE_FILL)
-        b.formula(ws, row, 6, f"IF(AND(ISNUMBER(B{row}),ISNUMBER(E{row})),B{row}-E{row},\"\")", fmt)
+        b.formula(ws, row, 6, difference(row), fmt)
         if key in notes:
             b.text(ws, row, 7, notes[key], font=ITALIC)
 
@@ -159,7 +165,7 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
         b.text(ws, row, 3, b.unit(unit), font=ITALIC)
         b.text(ws, row, 4, nm, font=ITALIC)
         b.num(ws, row, 5, engine_value, fmt, fill=ENGINE_FILL)
-        b.formula(ws, row, 6, f"IF(AND(ISNUMBER(B{row}),ISNUMBER(E{row})),B{row}-E{row},\"\")", fmt)
+        b.formula(ws, row, 6, difference(row), fmt)
 
     if report.variants:
         row += 2

@@ -54,7 +54,7 @@ METRICS = {
     "project_irr": ("Project IRR, after tax", "per year", "pct"),
     "equity_npv": ("Equity NPV at the equity target return", "{cur}", "money"),
     "equity_irr": ("Equity IRR", "per year", "pct"),
-    "debt_amount": ("Debt at close (converged by the engine)", "{cur}", "money"),
+    "debt_amount": ("Debt at close (locked: held; resized: in the sheet)", "{cur}", "money"),
     "min_dscr": ("Minimum DSCR, P50 case", "x", "ratio"),
     "avg_dscr": ("Average DSCR, P50 case", "x", "ratio"),
     "llcr": ("LLCR, P50 case", "x", "ratio"),
