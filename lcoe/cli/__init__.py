@@ -98,6 +98,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="sites of the portfolio benchmark (0: skip it; default %(default)s)")
     b.add_argument("--portfolio-trials", type=whole_number(1), default=2000,
                    help="trials of the portfolio benchmark (default %(default)s)")
+    b.add_argument("--no-startup", action="store_true",
+                   help="skip the start-up timings (help, a first and a later `lcoe run` in fresh processes)")
     b.add_argument("--json", action="store_true")
     _command(b, "lcoe.cli.bench:cmd_bench")
 
@@ -121,6 +123,9 @@ def main(argv=None) -> int:
     except SystemExit as exc:  # argparse prints its own one-line usage error
         return int(exc.code or 0) if exc.code in (0, None) else 2
     try:
+        if args.command != "app":
+            from lcoe.cli.kernels import announce_builds
+            announce_builds()
         return int(_resolve(args.func)(args) or 0)
     except ScenarioError as exc:
         print(f"error: {exc.line()}", file=sys.stderr)

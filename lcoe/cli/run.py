@@ -9,7 +9,7 @@ from lcoe.analysis import montecarlo, study
 from lcoe.inputs import scenario
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.schema import MAX_TRIALS
-from lcoe.outputs import files, workbook
+from lcoe.outputs import files
 from lcoe.outputs import report as rp
 from lcoe.physics import energy
 from lcoe.physics import wind as resource
@@ -84,6 +84,7 @@ def cmd_run(args) -> int:
     written = []
     try:                       # each file is atomic; if the second fails, the first goes too
         if args.workbook is not None:
+            from lcoe.outputs import workbook     # openpyxl, imported only when a workbook is written
             workbook.write(rep, args.workbook)
             written.append(args.workbook)
         if args.csv is not None and args.csv != files.STDOUT:
