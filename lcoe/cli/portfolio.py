@@ -30,7 +30,7 @@ def runner_for(args):
 def cmd_portfolio(args) -> int:
     if args.workbook:
         files.check_output(args.workbook, option="--workbook", inputs=[("the portfolio", Path(args.file))],
-                           stdout=False)
+                           stdout=False, suffix=".xlsx")
     pf = inputs.load(args.file)
     with runner_for(args) as runner:
         result = analysis.run(pf, trials=args.trials, runner=runner)
