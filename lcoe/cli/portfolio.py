@@ -11,6 +11,7 @@ from lcoe.inputs import portfolio as inputs
 from lcoe.inputs.errors import ScenarioError
 from lcoe.outputs import files
 from lcoe.outputs import portfolio as out
+from lcoe.outputs.tables import terminal_width
 from lcoe.outputs.workbook import portfolio as sheet
 
 
@@ -40,7 +41,7 @@ def cmd_portfolio(args) -> int:
     if args.json:
         print(out.to_json(report))
     else:
-        sys.stdout.write(out.to_table(report))
+        sys.stdout.write(out.to_table(report, width=terminal_width(), wide=args.wide))
         if args.workbook:
             print(f"\nworkbook written: {args.workbook}")
     return 0

@@ -13,6 +13,7 @@ from contextlib import contextmanager
 
 DELAY_S = 1.0     # a run shorter than this shows no bar
 STEPS = 1000      # the bar's resolution
+REDRAW_S = 0.1    # the bar is redrawn at most this often
 
 
 def wanted(args) -> bool:
@@ -32,7 +33,8 @@ def bar(args, label: str):
         yield None
         return
     from tqdm import tqdm
-    with tqdm(total=STEPS, desc=label, file=sys.stderr, delay=DELAY_S, leave=False, unit="",
+    with tqdm(total=STEPS, desc=label, file=sys.stderr, delay=DELAY_S, mininterval=REDRAW_S, leave=False,
+              unit="",
               bar_format="{desc}: {percentage:3.0f}% |{bar}| {elapsed} elapsed, {remaining} left") as t:
         def move(fraction: float) -> None:
             n = min(STEPS, max(0, round(STEPS * float(fraction))))

@@ -14,7 +14,7 @@ from lcoe.analysis.study import Report
 from lcoe.engine import ANNUAL_KEYS
 from lcoe.inputs.about import CAUTION
 from lcoe.outputs.files import write_csv
-from lcoe.outputs.tables import col, render
+from lcoe.outputs.tables import col, render, wrap
 
 
 def to_json(report: Report) -> str:
@@ -117,7 +117,7 @@ def to_table(report: Report, *, yearly: bool = True, width: int | None = WIDTH, 
             lines.extend(table(d[block], tw))
     if "long_term" in d:
         lines.append("")
-        lines.extend(long_term_table(d["long_term"]))
+        lines.extend(long_term_table(d["long_term"], width))
     costs = d["costs"]
     lines.append("")
     lines.append("Costs")
@@ -168,15 +168,16 @@ def rose_table(rose: dict, width: int | None = WIDTH) -> list[str]:
                      _f(r["mean_speed_mps"], "{:.2f}"), _f(r["weibull_scale_mps"], "{:.2f}"),
                      _f(r["weibull_shape"], "{:.2f}"), _f(r["gross_aep_mwh"], "{:,.0f}"), _f(r["gross_share"], "pct")]
                     + ([_f(r["wake_loss"], "pct")] if wake else []))
-    return [f"Wind rose ({rose['sectors']} sectors of {rose['width_deg']:g} deg at hub height, {rose['source']})",
-            *render(cols, rows, width=width, gap=1)]
+    return [*wrap(f"Wind rose ({rose['sectors']} sectors of {rose['width_deg']:g} deg at hub height, "
+                  f"{rose['source']})", width), *render(cols, rows, width=width, gap=1)]
 
 
 def wake_table(w: dict, width: int | None = WIDTH) -> list[str]:
     """The wake loss of every turbine and of the farm."""
-    out = [f"Wake losses (Jensen/Park top hat, root-sum-square; k = {w['wake_decay_constant']:g}, {w['location']})",
-           f"  {w['turbines']} turbine(s) ({w['layout'][:40]}), {spacing_text(w)}",
-           f"  thrust coefficient: {w['thrust']}"]
+    out = [*wrap(f"Wake losses (Jensen/Park top hat, root-sum-square; k = {w['wake_decay_constant']:g}, "
+                 f"{w['location']})", width),
+           *wrap(f"{w['turbines']} turbine(s) ({w['layout'][:40]}), {spacing_text(w)}", width, indent="  "),
+           *wrap(f"thrust coefficient: {w['thrust']}", width, indent="  ")]
     cols = [col("Turbine", align="<", min_width=12), col("x [m]", min_width=11), col("y [m]", min_width=11),
             col("Gross [MWh/yr]"), col("Waked [MWh/yr]"), col("Wake loss [%]")]
     rows = []
@@ -188,8 +189,9 @@ def wake_table(w: dict, width: int | None = WIDTH) -> list[str]:
                      f"{t['waked_aep_mwh']:,.0f}", _f(t["wake_loss"], "pct")])
     rows.append(["Farm", "", "", f"{gross:,.0f}", f"{waked:,.0f}", _f(w["farm_loss"], "pct")])
     out += render(cols, rows, width=width, gap=1)
-    out.append(f"  per turbine {_f(w['turbine_loss_min'], 'pct')} to {_f(w['turbine_loss_max'], 'pct')} %; "
-               f"directions every {w['direction_step_deg']:g} deg, speed bins of {w['speed_bin_mps']:g} m/s")
+    out += wrap(f"per turbine {_f(w['turbine_loss_min'], 'pct')} to {_f(w['turbine_loss_max'], 'pct')} %; "
+                f"directions every {w['direction_step_deg']:g} deg, speed bins of {w['speed_bin_mps']:g} m/s", width,
+                indent="  ")
     return out
 
 
@@ -201,16 +203,16 @@ def spacing_text(w: dict) -> str:
     return f"nearest pair {d:,.0f} m = {w['nearest_spacing_rotor_diameters']:.1f} rotor diameters"
 
 
-def long_term_table(lt: dict) -> list[str]:
+def long_term_table(lt: dict, width: int | None = WIDTH) -> list[str]:
     """The long-term correction: the periods, the concurrent statistics, both methods and the result."""
     method = lt["method"].replace("_", " ")
     w = 32
 
     def row(label, text):
-        return f"  {label:<{w}} {text}"
+        return "\n".join(wrap(text, width, indent=f"  {label:<{w}} ", subsequent=" " * (w + 3)))
 
     ratio = lt["long_term_over_short_term"]
-    return [
+    lines = [
         f"Long-term correction (measure-correlate-predict, {method})",
         row("Reference file", lt["reference"][:60]),
         row("Reference", f"{lt['reference_start']} to {lt['reference_end']}, {lt['reference_years']:.1f} years, "
@@ -236,6 +238,7 @@ def long_term_table(lt: dict) -> list[str]:
                 f"{lt['reference_years']:.1f})"),
         row("", f"inter-annual sd from the {lt['interannual_source']}"),
     ]
+    return [part for line in lines for part in line.split("\n")]
 
 
 ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.0f}"),
@@ -264,7 +267,8 @@ def annual_table(rows, cur, width: int | None = WIDTH) -> list[str]:
             else:
                 line.append("-" if v is None else how.format(v))
         cells.append(line)
-    return ["Yearly cash flow (t = 0 is construction; nominal money)", *render(cols, cells, width=width, gap=1)]
+    return [*wrap("Yearly cash flow (t = 0 is construction; nominal money)", width),
+            *render(cols, cells, width=width, gap=1)]
 
 
 def variants_table(d, cur, width: int | None = WIDTH) -> list[str]:
@@ -285,7 +289,7 @@ def variants_table(d, cur, width: int | None = WIDTH) -> list[str]:
             diff = None if v is None or base is None else v - base
             line += [fmt(v, how), _signed(diff, how)]
         rows.append(line)
-    return ["Variants (each against the base)", *render(cols, rows, width=width, gap=1)]
+    return [*wrap("Variants (each against the base)", width), *render(cols, rows, width=width, gap=1)]
 
 
 def _signed(diff, how):
@@ -322,5 +326,6 @@ def montecarlo_table(mc: dict, cur: str, width: int | None = WIDTH) -> list[str]
                      ("prob_equity_irr_below_target", "P(equity IRR < target) [%]")):
         if k in mc:
             rows.append([label, fmt(mc[k], "pct")] + [""] * (len(MC_STATS) - 1))
-    return [f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
+    return [*wrap(f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
+                  width),
             *render(cols, rows, width=width, gap=1)]
