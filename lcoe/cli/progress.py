@@ -33,8 +33,11 @@ def bar(args, label: str):
         yield None
         return
     from tqdm import tqdm
+
+    from lcoe.outputs.tables import terminal_width
+    # the width given, as a terminal that reports none (0 columns) would hide the bar
     with tqdm(total=STEPS, desc=label, file=sys.stderr, delay=DELAY_S, mininterval=REDRAW_S, leave=False,
-              unit="",
+              unit="", ncols=min(terminal_width(sys.stderr), 100),
               bar_format="{desc}: {percentage:3.0f}% |{bar}| {elapsed} elapsed, {remaining} left") as t:
         def move(fraction: float) -> None:
             n = min(STEPS, max(0, round(STEPS * float(fraction))))
