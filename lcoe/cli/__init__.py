@@ -35,7 +35,7 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--json", action="store_true", help="print the JSON report")
     r.add_argument("--trials", type=nonneg_int, default=None, help="Monte Carlo trials (overrides the file)")
     r.add_argument("--workbook", metavar="PATH", help="write the lender workbook (.xlsx)")
-    r.add_argument("--csv", metavar="PATH", help="write the yearly table as CSV")
+    r.add_argument("--csv", metavar="PATH", help="write the yearly table as CSV (.csv, or - for standard output)")
     r.add_argument("--brief", action="store_true", help="table output without the yearly rows")
     r.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
                    help="change one input as if written in the file, e.g. capex.turbine_per_kw=1150 or "
