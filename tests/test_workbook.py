@@ -816,3 +816,27 @@ def test_energy_sheet_traces_a_series():
     cover = [ws.cell(col_a["Data coverage by calendar month [months of data]"], 3 + m).value for m in range(12)]
     assert all(isinstance(v, float) for v in cover) and sum(cover) > 0
     assert any(str(k).startswith("Power curve (") for k in col_a)
+
+
+@pytest.mark.parametrize("name", ["demo", "equity"])
+def test_every_input_cell_is_read_by_a_formula(books, name):
+    """Every cell styled as an input (blue on yellow) on Inputs and Lender cases is read by some formula, so a
+    change to it moves the model (what cannot move it is styled as an engine value and locked with a check)."""
+    wb = books[name].formulas
+    read = set()
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.data_type == "f":
+                    read.update(_references(wb, ws, cell.value))
+    unread = []
+    for title in ("Inputs", "Lender cases"):
+        if title not in wb.sheetnames:
+            continue
+        ws = wb[title]
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.fill is not None and cell.fill.fgColor is not None and cell.fill.fgColor.rgb in (
+                        "00FFF2CC", "FFFFF2CC") and (ws.title, cell.column, cell.row) not in read:
+                    unread.append(f"{title}!{cell.coordinate}")
+    assert unread == [], unread
