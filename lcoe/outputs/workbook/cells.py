@@ -27,6 +27,7 @@ FIRST_ROW = 6       # first line below the years and phase rows
 HOURS_PER_YEAR = 8760
 SPARE_ROWS = 3      # empty rows left in the component and overhaul tables for additions
 CHECK_TOL = 1e-9    # relative tolerance of the debt checks (the engine converges to 1e-12 of capex)
+LABEL_WIDTH = 40    # the label column of the yearly sheets [characters]
 MIN_HORIZON = 40    # the yearly sheets run to at least this many years, whatever the life
 SNAP = 1e-10        # a closing balance within SNAP x debt of zero is zero (rounding residue, never a figure)
 
@@ -168,7 +169,7 @@ class Timeline:
             p = book.formula(ws, YEAR_ROW + 1, T0_COL + t, expr, font=ITALIC)
             p.alignment = Alignment(horizontal="center")
         ws.freeze_panes = ws.cell(FIRST_ROW - 1, T0_COL)
-        ws.column_dimensions["A"].width = 40
+        ws.column_dimensions["A"].width = LABEL_WIDTH
         ws.column_dimensions["B"].width = 12
         for t in range(horizon + 1):
             ws.column_dimensions[get_column_letter(T0_COL + t)].width = 11
@@ -212,7 +213,10 @@ class Timeline:
         self.next += 1
         unit = self.b.unit(unit)
         lab = self.b.text(self.ws, r, 1, f"{label} [{unit}]" if unit and unit != "-" else label)
-        lab.alignment = Alignment(wrap_text=True, vertical="top")
+        lines = math.ceil(len(lab.value) / (1.05 * LABEL_WIDTH))
+        if lines > 1:      # a long label wraps in a row tall enough for it (printing keeps the height)
+            lab.alignment = Alignment(wrap_text=True, vertical="top")
+            self.ws.row_dimensions[r].height = 15.0 * lines
         self.rows[key] = r
         if callable(expr):        # refers to a line written later: formed at render
             self.singles.append((r, expr, fmt, fill))
