@@ -12,6 +12,8 @@ from typing import Annotated, Any, Literal, get_args
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from lcoe.inputs.plausibility import plausibility_warnings
+
 SCHEMA_VERSION = 1
 
 Frac = Annotated[float, Field(ge=0.0, le=1.0)]
@@ -480,5 +482,5 @@ class ScenarioFields(_Model):
         if self.revenue.production_credit_years > self.lifetime and self.revenue.production_credit_per_mwh > 0:
             out.append(f"revenue.production_credit_years = {self.revenue.production_credit_years} is longer than "
                        f"the life; the credit ends with the project")
-        return out
+        return out + plausibility_warnings(self)
 
