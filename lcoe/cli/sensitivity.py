@@ -20,7 +20,7 @@ from lcoe.analysis.sensitivity import (
     sweep,
     tornado,
 )
-from lcoe.analysis.study import clean
+from lcoe.analysis.study import clean, file_block, units_block
 from lcoe.engine import run
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
@@ -64,8 +64,11 @@ def _head(scn) -> list[str]:
     return heading(scn.project.name, scn.source)
 
 
-def _print_json(obj) -> None:
-    print(json.dumps(clean(obj), indent=2, allow_nan=False))
+def _print_json(obj, scn) -> None:
+    """The JSON of a command: after the scenario's name, the file it was read from (path, SHA-256)
+    and the units, as in the report of ``lcoe run``."""
+    head = {"scenario": obj.pop("scenario"), **file_block(scn), "units": units_block(scn)}
+    print(json.dumps(clean({**head, **obj}), indent=2, allow_nan=False))
 
 
 SWEEP_COLUMNS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_irr",
@@ -91,7 +94,7 @@ def _cmd_sweep(args, scn) -> int:
     rows = sweep(scn, args.key, values, breakeven=be)
     notes = null_reasons(scn, rows, cols)
     if args.json:
-        _print_json({"scenario": scn.project.name, "key": args.key, "rows": rows, "warnings": notes})
+        _print_json({"scenario": scn.project.name, "key": args.key, "rows": rows, "warnings": notes}, scn)
         return 0
     cur = scn.project.currency
     integer = is_integer_key(scn, args.key)
@@ -129,7 +132,7 @@ def _cmd_tornado(args, scn) -> int:
     notes = null_reasons(scn, rows, [metric])
     if args.json:
         _print_json({"scenario": scn.project.name, "metric": metric,
-                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes})
+                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes}, scn)
         return 0
     cur = scn.project.currency
     name, unit, how = METRIC_LABELS[metric]
@@ -190,7 +193,7 @@ def _cmd_solve(args, scn) -> int:
                             has_value=False)
     res = solve(scn, target_metric=metric, target_value=value, vary_key=args.vary, low=args.low, high=args.high)
     if args.json:
-        _print_json({"scenario": scn.project.name, **res})
+        _print_json({"scenario": scn.project.name, **res}, scn)
         return 0
     cur = scn.project.currency
     name, unit, how = METRIC_LABELS[metric]

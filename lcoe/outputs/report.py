@@ -73,6 +73,38 @@ ENERGY_LABELS = {
 }
 
 
+SIZING_LABELS = {"p50": "P50", "p90_1yr": "P90 (1 yr)", "p90_10yr": "P90 (10 yr)", "p99_1yr": "P99 (1 yr)"}
+#: the headline's own words for the LCOE: what it is (SCENARIO.md: pre-tax, unfinanced, no credits)
+HEADLINE_LCOE = {"lcoe_nominal_per_mwh": "LCOE nominal, pre-tax, unlevered",
+                 "lcoe_real_per_mwh": "LCOE real, pre-tax, unlevered"}
+
+
+def headline_lines(d: dict, cur: str, w: int) -> list[str]:
+    """The plant and its capex per kW, every metric, then the financing the metrics rest on."""
+    p, fin = d["project"], d["financing"]
+
+    def row(label, text):
+        return f"  {label:<{w}} {text:>14}"
+
+    out = [row("Plant [MW]", f"{p['plant_mw']:,.1f}") + f"  ({p['turbines']} x {p['rated_power_kw']:,.0f} kW)",
+           row(f"Capex per kW [{cur}/kW]", fmt(d["costs"]["capex_per_kw"], "{:,.0f}"))]
+    for k in d["metrics"]:
+        name, unit, how = METRIC_LABELS[k]
+        label = f"{HEADLINE_LCOE.get(k, name)} [{unit.format(cur=cur)}]"
+        out.append(row(label, fmt(d["metrics"][k], how)))
+    out += [row("Gearing, debt / capex [%]", fmt(fin["gearing"], "pct")),
+            row("Discount rate, nominal [%]", fmt(fin["discount_rate"], "pct")),
+            row("Equity target return, nominal [%]", fmt(fin["equity_target_return"], "pct"))]
+    debt = fin["debt"]
+    if debt is None:
+        out.append(row("Debt sized on", "all equity"))
+    else:
+        cap = "binds" if debt["gearing_cap_binds"] else "not reached"
+        out.append(f"  {'Debt sized on':<{w}} {SIZING_LABELS[debt['sizing_case']]} at DSCR "
+                   f"{debt['target_dscr']:g}; cap {100 * debt['max_gearing']:g} % {cap}")
+    return out
+
+
 def fmt(value, how: str) -> str:
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
@@ -92,10 +124,9 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     d = report.to_dict()
     cur = report.case.scenario.project.currency
     lines = heading(d["scenario"], report.case.scenario.source)
-    w = 38
+    w = 44
     lines.append("Headline")
-    for k in d["metrics"]:
-        lines.append(f"  {_label(METRIC_LABELS, k, cur):<{w}} {fmt(d['metrics'][k], METRIC_LABELS[k][2]):>14}")
+    lines.extend(headline_lines(d, cur, w))
     lines.append("")
     lines.append("Energy")
     for k, (name, unit, how) in ENERGY_LABELS.items():
@@ -217,29 +248,44 @@ def long_term_table(lt: dict) -> list[str]:
 
 ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.0f}"),
                   ("price_per_mwh", "Price [{cur}/MWh]", "{:.2f}"), ("revenue", "Revenue [{cur} k]", "k"),
-                  ("opex", "O&M [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"), ("cfads", "CFADS [{cur} k]", "k"),
-                  ("debt_service", "Debt service [{cur} k]", "k"), ("dscr", "DSCR [x]", "{:.3f}"),
-                  ("project_cash_flow", "Project CF [{cur} k]", "k"), ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
+                  ("opex", "O&M [{cur} k]", "k"), ("capex", "Capex [{cur} k]", "k"),
+                  ("decommissioning", "Decom. [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"),
+                  ("cfads", "CFADS [{cur} k]", "k"), ("interest", "Interest [{cur} k]", "k"),
+                  ("principal", "Principal [{cur} k]", "k"), ("debt_service", "Debt service [{cur} k]", "k"),
+                  ("dscr", "DSCR [x]", "{:.3f}"), ("project_cash_flow", "Project CF [{cur} k]", "k"),
+                  ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
 
 
 def annual_table(rows, cur) -> list[str]:
-    heads = [h.format(cur=cur) for _, h, _ in ANNUAL_COLUMNS]
-    widths = [max(len(h), 9) for h in heads]
-    out = ["Yearly cash flow (t = 0 is construction; nominal money)",
-           "  " + "  ".join(f"{h:>{wd}}" for h, wd in zip(heads, widths))]
-    for r in rows:
-        cells = []
-        for (k, _, how), wd in zip(ANNUAL_COLUMNS, widths):
-            v = r[k]
-            if how == "k":
-                s = "n/a" if v is None else f"{v / 1e3:,.0f}"
-            elif v is None:
-                s = "-"
-            else:
-                s = how.format(v)
-            cells.append(f"{s:>{wd}}")
-        out.append("  " + "  ".join(cells))
+    """The yearly lines, each heading over its unit, in blocks of columns that fit ``WIDTH``; each
+    block repeats the year, and the debt's columns start a block of their own."""
+    heads = [h.format(cur=cur).split(" [", 1) for _, h, _ in ANNUAL_COLUMNS]
+    heads = [(h[0], "[" + h[1] if len(h) > 1 else "") for h in heads]
+    cells = [[_annual_cell(r, i) for i in range(len(ANNUAL_COLUMNS))] for r in rows]
+    widths = [max([len(h[0]), len(h[1])] + [len(c[i]) for c in cells]) for i, h in enumerate(heads)]
+    split = [k for k, _, _ in ANNUAL_COLUMNS].index("interest")
+    blocks, block = [], [0]
+    for i in range(1, len(ANNUAL_COLUMNS)):
+        whole = 2 + sum(wd + 2 for wd in widths) - 2 <= WIDTH
+        if (i == split and not whole) or 2 + sum(widths[j] + 2 for j in block + [i]) - 2 > WIDTH:
+            blocks.append(block)
+            block = [0]
+        block.append(i)
+    blocks.append(block)
+    out = ["Yearly cash flow (t = 0 is construction; nominal money)"]
+    for b, cols in enumerate(blocks):
+        out += [""] if b else []
+        out += ["  " + "  ".join(f"{heads[i][part]:>{widths[i]}}" for i in cols) for part in (0, 1)]
+        out += ["  " + "  ".join(f"{c[i]:>{widths[i]}}" for i in cols) for c in cells]
     return out
+
+
+def _annual_cell(row: dict, i: int) -> str:
+    k, _, how = ANNUAL_COLUMNS[i]
+    v = row[k]
+    if how == "k":
+        return "n/a" if v is None else f"{v / 1e3:,.0f}"
+    return "-" if v is None else how.format(v)
 
 
 def variants_table(d, cur) -> list[str]:
