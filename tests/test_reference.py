@@ -279,3 +279,9 @@ def test_the_readme_documents_the_files_and_choices():
     from lcoe.inputs.schema import SIZING_CASES
     for case in SIZING_CASES:
         assert f"`{case}`" in text, case
+
+
+def test_reference_and_template_fit_100_columns():
+    for text in (ref.reference_text(), ref.template_text("a_rather_long_site_name_curve.csv")):
+        for line in text.splitlines():
+            assert len(line) <= 100, line

@@ -128,13 +128,13 @@ def project_block(scn) -> dict:
 
 def financing_block(case: Case) -> dict:
     """The rates and the debt's terms the case ran with (derived defaults applied), and its gearing;
-    ``debt`` is null for an all-equity scenario (the warnings say so)."""
+    ``debt`` only where the scenario has a [finance.debt] table."""
     scn, f = case.scenario, case.flows
     capex = float(f.capex_total[0, 0])
     debt = scn.finance.debt
     out = {"discount_rate": scn.finance.discount_rate, "equity_target_return": scn.equity_target_return,
            "inflation": scn.finance.inflation, "tax_rate": scn.finance.tax_rate,
-           "gearing": float(f.debt[0, 0]) / capex if capex > 0 else None, "debt": None}
+           "gearing": float(f.debt[0, 0]) / capex if capex > 0 else None}
     if debt is not None:
         out["debt"] = {"sizing_case": debt.sizing_case, "target_dscr": debt.target_dscr,
                        "max_gearing": debt.max_gearing,

@@ -95,7 +95,7 @@ def headline_lines(d: dict, cur: str, w: int) -> list[str]:
     out += [row("Gearing, debt / capex [%]", fmt(fin["gearing"], "pct")),
             row("Discount rate, nominal [%]", fmt(fin["discount_rate"], "pct")),
             row("Equity target return, nominal [%]", fmt(fin["equity_target_return"], "pct"))]
-    debt = fin["debt"]
+    debt = fin.get("debt")
     if debt is None:
         out.append(row("Debt sized on", "all equity"))
     else:
