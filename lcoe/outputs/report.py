@@ -264,10 +264,13 @@ def annual_table(rows, cur) -> list[str]:
     cells = [[_annual_cell(r, i) for i in range(len(ANNUAL_COLUMNS))] for r in rows]
     widths = [max([len(h[0]), len(h[1])] + [len(c[i]) for c in cells]) for i, h in enumerate(heads)]
     split = [k for k, _, _ in ANNUAL_COLUMNS].index("interest")
+
+    def fits(cols):
+        return sum(widths[j] + 2 for j in cols) <= WIDTH
+
     blocks, block = [], [0]
     for i in range(1, len(ANNUAL_COLUMNS)):
-        whole = 2 + sum(wd + 2 for wd in widths) - 2 <= WIDTH
-        if (i == split and not whole) or 2 + sum(widths[j] + 2 for j in block + [i]) - 2 > WIDTH:
+        if (i == split and not fits(range(len(widths)))) or not fits(block + [i]):
             blocks.append(block)
             block = [0]
         block.append(i)
