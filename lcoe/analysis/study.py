@@ -26,6 +26,8 @@ class Report:
     def to_dict(self) -> dict:
         c = self.case
         warnings = list(c.warnings)
+        costs = costs_block(c)
+        costs["capex_per_kw"] = costs["capex_total"] / c.scenario.plant_kw    # (the workbook has the other three)
         out = {
             "scenario": c.scenario.project.name,
             **file_block(c.scenario),
@@ -34,7 +36,7 @@ class Report:
             "project": project_block(c.scenario),
             "energy": c.energy.report(),
             **directions_blocks(c.energy),
-            "costs": costs_block(c),
+            "costs": costs,
             "financing": financing_block(c),
             "metrics": dict(c.metrics),
             "annual": c.annual(),
@@ -98,8 +100,7 @@ def directions_blocks(energy) -> dict:
 
 def costs_block(case: Case) -> dict:
     f = case.flows
-    capex = float(f.capex_total[0, 0])
-    return {"capex_total": capex, "capex_per_kw": capex / case.scenario.plant_kw, "opex_year1": float(f.opex[0, 1]),
+    return {"capex_total": float(f.capex_total[0, 0]), "opex_year1": float(f.opex[0, 1]),
             "decommissioning_net": float(f.decommissioning[0, -1])}
 
 
