@@ -58,7 +58,7 @@ def test_a_binding_gearing_cap_is_reported_as_such():
     rep = study.build(make_scenario(finance__debt__max_gearing=0.3), trials=0, variants=False).to_dict()
     assert rep["financing"]["debt"]["gearing_cap_binds"] is True
     assert rep["financing"]["gearing"] == pytest.approx(0.3, rel=1e-9)
-    assert "cap 30 % binds" in rp.to_table(study.build(make_scenario(finance__debt__max_gearing=0.3), trials=0,
+    assert "30.00  (binds)" in rp.to_table(study.build(make_scenario(finance__debt__max_gearing=0.3), trials=0,
                                                        variants=False))
 
 
@@ -73,8 +73,8 @@ def test_all_equity_has_no_debt_block():
 def test_the_headline_shows_what_each_figure_is(demo):
     text = rp.to_table(demo)
     head = text.split("\nHeadline\n", 1)[1].split("\n\n", 1)[0].splitlines()
-    assert head[0].split()[:3] == ["Plant", "[MW]", "58.8"] and "(14 x 4,200 kW)" in head[0]
-    assert head[1].split()[-1] == "1,639"
+    assert head[0].split() == ["Plant", "[MW]", "58.8"] and head[1].endswith("14 x 4,200")
+    assert head[2].split()[-1] == "1,639"
     lcoe = demo.to_dict()["metrics"]["lcoe_nominal_per_mwh"]
     assert any(x.startswith("  LCOE nominal, pre-tax, unlevered [EUR/MWh]") and x.endswith(f"{lcoe:.2f}")
                for x in head)
@@ -82,7 +82,9 @@ def test_the_headline_shows_what_each_figure_is(demo):
     assert any(x.startswith("  Discount rate, nominal [%]") and x.endswith("6.50") for x in head)
     assert any(x.startswith("  Equity target return, nominal [%]") and x.endswith("10.00") for x in head)
     assert any(x.startswith("  Gearing, debt / capex [%]") for x in head)
-    assert head[-1].split("Debt sized on", 1)[1].strip() == "P90 (1 yr) at DSCR 1.3; cap 75 % not reached"
+    assert head[-3].split("Debt sized on", 1)[1].strip() == "P90 (1 yr)"
+    assert head[-2].startswith("  Target DSCR on that case [x]") and head[-2].endswith("1.300")
+    assert head[-1].startswith("  Gearing cap [%]") and head[-1].endswith("75.00  (not reached)")
 
 
 @pytest.mark.parametrize("path", [DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT])
@@ -110,8 +112,10 @@ def test_the_yearly_table_has_the_cost_and_debt_columns_and_their_values(demo):
     assert len(blocks) == 2
     cols = {}
     for b in blocks:
-        names = b[0].replace("Debt service", "Debt_service").replace("t CF", "t_CF").replace("y CF", "y_CF").split()
-        assert names[0] == "Year" and len(b) == 2 + len(d["annual"])
+        # two heading lines: the names (the year's above its own column is blank), then the units
+        names = ["Year"] + b[0].replace("Debt service", "Debt_service").replace("t CF", "t_CF") \
+            .replace("y CF", "y_CF").split()
+        assert b[1].split()[0] == "Year" and len(b) == 2 + len(d["annual"])
         for i, name in enumerate(names):
             cols.setdefault(name, [r.split()[i] for r in b[2:]])
     for name in ("Capex", "Decom.", "Interest", "Principal", "CFADS", "DSCR", "Tax", "Revenue"):
@@ -133,8 +137,8 @@ def test_the_yearly_table_has_the_cost_and_debt_columns_and_their_values(demo):
 
 def test_sweep_tornado_and_solve_json_carry_the_file_and_units(capsys):
     digest = hashlib.sha256(DEMO.read_bytes()).hexdigest()
-    for argv in (["sweep", str(DEMO), "wind.mean_speed_mps", "6", "8", "2", "--json"],
-                 ["tornado", str(DEMO), "--json", "--inputs", "capex.turbine_per_kw"],
+    for argv in (["sweep", str(DEMO), "--key", "wind.mean_speed_mps", "6", "8", "2", "--json"],
+                 ["tornado", str(DEMO), "--json", "--key", "capex.turbine_per_kw"],
                  ["solve", str(DEMO), "--target", "equity_irr=12%", "--vary", "revenue.ppa_price_per_mwh", "--json"]):
         assert cli.main(argv) == 0
         d = json.loads(capsys.readouterr().out)

@@ -22,6 +22,7 @@ class Report:
     variants: dict = field(default_factory=dict)    # name -> Case
     montecarlo: object | None = None                # montecarlo.MonteCarloResult
     sensitivity: object | None = None               # sensitivity.SensitivitySet (shown by the workbook only)
+    as_run: dict = field(default_factory=dict)      # changes made on the command line (variant, set, seed)
 
     def to_dict(self) -> dict:
         c = self.case
@@ -32,6 +33,7 @@ class Report:
             "scenario": c.scenario.project.name,
             **file_block(c.scenario),
             "units": units_block(c.scenario),
+            **({"as_run": dict(self.as_run)} if self.as_run else {}),
             "warnings": warnings,
             "project": project_block(c.scenario),
             "energy": c.energy.report(),
