@@ -249,7 +249,7 @@ def test_lcoe_new_never_replaces_and_refuses_a_wrong_name(tmp_path, capsys, monk
     assert "already exists" in capsys.readouterr().err
     assert (tmp_path / "site.toml").read_text() == "mine\n" and not (tmp_path / "site_curve.csv").exists()
     assert main(["new", "site.txt"]) == 2
-    assert "must end in .toml" in capsys.readouterr().err
+    assert "give a name ending in .toml" in capsys.readouterr().err
     assert main(["new", "nowhere/site.toml"]) == 2
     assert "folder does not exist" in capsys.readouterr().err
 

@@ -17,11 +17,9 @@ def curve_path(path: Path) -> Path:
 
 def cmd_new(args) -> int:
     path = Path(args.path)
-    if path.suffix.lower() != ".toml":
-        raise ScenarioError("must end in .toml (a scenario file)", key="PATH", value=args.path)
     curve = curve_path(path)
-    for p, option in ((path, "PATH"), (curve, "the power curve beside PATH")):
-        files.check_output(p, option=option, stdout=False)
+    for p, option, suffix in ((path, "PATH", ".toml"), (curve, "the power curve beside PATH", ".csv")):
+        files.check_output(p, option=option, stdout=False, suffix=suffix)
         if p.exists() or p.is_symlink():
             raise ScenarioError("already exists; lcoe new never replaces a file, so give a new name",
                                 key=option, value=str(p))
