@@ -33,6 +33,7 @@ from scipy.optimize import brentq
 
 from lcoe.finance import _kernels, cashflow  # _kernels: the compiled trial pass
 from lcoe.finance import metrics as mt
+from lcoe.finance import waterfall as wf
 from lcoe.finance.cashflow import Flows, Inputs, Sample, Schedule
 from lcoe.inputs.errors import ScenarioError
 from lcoe.inputs.keys import check_overrides
@@ -140,7 +141,24 @@ def _irr_start(irr_guess: dict | None, key: str) -> float:
 
 
 TRIAL_KEYS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "equity_npv", "project_irr", "equity_irr",
-              "min_dscr", "avg_dscr", "llcr", "payback_year", "net_aep_year1_mwh", "net_aep_mean_mwh", "opex_mean")
+              "min_dscr", "avg_dscr", "llcr", "payback_year", "net_aep_year1_mwh", "net_aep_mean_mwh", "opex_mean",
+              "lockup_any", "dsra_drawn", "unpaid_any", "cash_trapped")
+# per trial from the cash waterfall: 1.0 where any year was in lock-up / the DSRA was drawn / debt
+# service was left unpaid after the reserves, else 0.0; the cash trapped over the life (nominal)
+WATERFALL_TRIAL_KEYS = TRIAL_KEYS[-4:]
+
+
+def waterfall_trial_values(flows: Flows) -> dict:
+    """The WATERFALL_TRIAL_KEYS of each row from a batch's waterfall lines (zeros without one)."""
+    n = flows.cfads.shape[0]
+    w = flows.waterfall
+    if w is None:
+        return {k: np.zeros(n) for k in WATERFALL_TRIAL_KEYS}
+    rows = lambda k: np.broadcast_to(w[k][:, 1:], (n, w[k].shape[1] - 1))  # noqa: E731
+    return {"lockup_any": (rows("lockup") > 0).any(axis=1).astype(float),
+            "dsra_drawn": (rows("dsra_draw") > 0).any(axis=1).astype(float),
+            "unpaid_any": (rows("unpaid_debt_service") > 0).any(axis=1).astype(float),
+            "cash_trapped": rows("cash_trapped").sum(axis=1)}
 
 
 def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sample | None = None,
@@ -175,6 +193,13 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     ef = per_row(1.0 if tm.energy_factor is None else tm.energy_factor)
     cap = tm.capex[:1] if tm.capex.strides[0] == 0 else tm.capex   # one row where every trial shares it
     capex = per_row(cap)
+    structure = wf.structure_of(scn, tm.inp)
+    if structure is not None:
+        _, dsra_t, mra_t = cashflow.waterfall_targets(structure, schedule.debt_service, tm)
+        wf_args = (True, yearly(dsra_t, L + 1), yearly(mra_t, L + 1), per_row(structure.deposit_rate),
+                   per_row(structure.lockup_dscr))
+    else:
+        wf_args = (False, yearly(0.0, L + 1), yearly(0.0, L + 1), per_row(0.0), per_row(0.0))
     out = np.empty((len(TRIAL_KEYS), n))
     _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.availability), yearly(tm.downtime),
                         yearly(tm.degradation), ef, yearly(tm.price + tm.credit), yearly(tm.fixed_real),
@@ -183,22 +208,24 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
                         yearly(schedule.debt_service), per_row(-(cap + schedule.fee - schedule.debt)),
                         disc(r), disc(mt.real_rate(r, infl)), disc(eq), disc(rate_i), per_row(schedule.debt),
                         _irr_start(irr_guess, "project_irr"), _irr_start(irr_guess, "equity_irr"), 1e-9, 50,
-                        1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), out)
+                        1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), *wf_args, out)
     res = dict(zip(TRIAL_KEYS, out))
     res["capex_total"] = np.broadcast_to(tm.capex, (n, 1))[:, 0].copy()
     res["debt_amount"] = np.broadcast_to(np.asarray(schedule.debt, float).reshape(-1, 1), (n, 1))[:, 0].copy()
     return res
 
 
-COVER_KEYS = ("min_dscr", "avg_dscr", "llcr", "years_below_1", "cfads_shortfall", "unpaid_debt_service")
+COVER_KEYS = ("min_dscr", "avg_dscr", "llcr", "years_below_1", "cfads_shortfall", "dsra_draws",
+              "years_in_lockup", "cash_trapped", "unpaid_debt_service")
 
 
 def cover_of(flows: Flows, metrics: dict, row: int = 0) -> dict:
     """How one row meets its debt service: minimum and average DSCR and LLCR (from the
-    metrics), the years with debt service whose CFADS falls short of it (DSCR < 1.0x), the
-    CFADS shortfall over those years, and the debt service left unpaid after the cash the
-    waterfall holds for it (without reserve accounts: the CFADS shortfall). Money in
-    nominal terms, summed over the life; figures that do not exist are None."""
+    metrics); the years with debt service whose CFADS falls short of it (DSCR < 1.0x) and that
+    shortfall; from the cash waterfall (zero without one) the draws on the debt service
+    reserve, the years in lock-up and the cash trapped in them; and the debt service left
+    unpaid after the reserve and the trapped cash (without a waterfall: the CFADS shortfall).
+    Money is nominal, summed over the life; figures that do not exist are None."""
     ds = flows.debt_service[row, 1:]
     cfads = flows.cfads[row, 1:]
     on = ds > 0
@@ -207,7 +234,12 @@ def cover_of(flows: Flows, metrics: dict, row: int = 0) -> dict:
            for k in ("min_dscr", "avg_dscr", "llcr")}
     out["years_below_1"] = int(np.count_nonzero(on & (cfads < ds)))
     out["cfads_shortfall"] = float(short.sum())
-    out["unpaid_debt_service"] = float(short.sum())
+    w = flows.waterfall
+    line = (lambda k: w[k][min(row, w[k].shape[0] - 1), 1:]) if w is not None else None
+    out["dsra_draws"] = float(line("dsra_draw").sum()) if w is not None else 0.0
+    out["years_in_lockup"] = int(np.count_nonzero(line("lockup"))) if w is not None else 0
+    out["cash_trapped"] = float(line("cash_trapped").sum()) if w is not None else 0.0
+    out["unpaid_debt_service"] = float(line("unpaid_debt_service").sum()) if w is not None else float(short.sum())
     return out
 
 

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lcoe.finance import costs
+from lcoe.finance import waterfall as wf
 from lcoe.finance.debt import Schedule, size_debt, yearly_targets
 from lcoe.finance.tax import depreciation_shares, tax_with_carryforward
 from lcoe.inputs.schema import DERIVED_DEFAULTS, LOSS_CATEGORIES
@@ -53,6 +54,7 @@ class Flows:
     schedule: Schedule | None = None
     warnings: list = field(default_factory=list)
     read_keys: set = field(default_factory=set)   # the override keys the engine read for these lines
+    waterfall: dict | None = None  # line name -> (n, L + 1), lcoe.finance.waterfall.LINES; None without one
 
 
 class Inputs:
@@ -214,6 +216,7 @@ class Terms:
     tax_rate: object
     warnings: list
     ppa_term: object = None   # revenue.ppa_term_years per row (contracted years t <= term)
+    overhaul: object = 0.0    # planned overhauls of each year, year-0 money (in fixed_real too)
 
     def gross_t(self):
         """Gross AEP of each year with the trials' speed factors (without them, the rows'). [MWh/yr]"""
@@ -324,7 +327,8 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
                  variable=inp("maintenance.variable_per_mwh", m.variable_per_mwh),
                  lease=inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue),
                  esc_index=esc_index, decom_t=np.where(years == L, decom, 0.0), shares=shares,
-                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[], ppa_term=term)
+                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[], ppa_term=term,
+                 overhaul=overhaul)
 
 
 def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
@@ -394,8 +398,14 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     dscr_line = _line(inp.n, L, np.nan)
     np.divide(cfads, np.where(ds > 0, ds, np.nan), out=dscr_line[:, 1:])
     equity0 = -(capex + sched.fee - sched.debt).ravel()
-    equity_line = _line(inp.n, L, equity0)
-    np.subtract(cfads, ds, out=equity_line[:, 1:])
+    structure = wf.structure_of(scn, inp)
+    lines = None
+    if structure is None:
+        equity_line = _line(inp.n, L, equity0)
+        np.subtract(cfads, ds, out=equity_line[:, 1:])
+    else:
+        lines = waterfall_lines(structure, cfads_line, ds, equity0, tm)
+        equity_line = lines["equity_cash_flow"]
 
     def with_t0(a, t0=0.0, keep=False):
         if lean and not keep:
@@ -420,7 +430,22 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(tm.gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(tm.p50, (inp.n, 1)),
         case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in tm.factors.items()},
-        schedule=sched, warnings=warnings, read_keys=set(inp.read))
+        schedule=sched, warnings=warnings, read_keys=set(inp.read), waterfall=lines)
+
+
+def waterfall_targets(structure, debt_service, tm: Terms):
+    """(debt service over t = 0..L, DSRA targets, MRA targets) of a batch: the DSRA from the
+    debt service (1 or n, L), the MRA from the nominal cost of each year's overhauls."""
+    ds = np.asarray(debt_service, float)
+    ds_line = np.concatenate([np.zeros((ds.shape[0], 1)), ds], axis=1)
+    oh = np.atleast_2d(np.asarray(tm.overhaul, float) * tm.esc_index)   # nominal cost of each year's overhauls
+    return ds_line, wf.dsra_targets(ds, structure.dsra_months), wf.mra_targets(oh, structure.mra_years)
+
+
+def waterfall_lines(structure, cfads_line, debt_service, equity0, tm: Terms) -> dict:
+    """The waterfall of a batch (lcoe.finance.waterfall); ``cfads_line`` (n, L + 1)."""
+    ds_line, a, b = waterfall_targets(structure, debt_service, tm)
+    return wf.run_rows(cfads_line, ds_line, equity0, a, b, structure.deposit_rate, structure.lockup_dscr)
 
 
 def _line(rows: int, years: int, t0) -> np.ndarray:

@@ -306,6 +306,18 @@ DEPRECIATION_METHODS = get_args(Finance.model_fields["depreciation"].annotation)
 SIZING_CASES = get_args(Debt.model_fields["sizing_case"].annotation)
 
 
+class Reserves(_Model):
+    """Reserve accounts funded through the cash waterfall (lcoe.finance.waterfall)."""
+    dsra_months: Annotated[float, Field(ge=0.0, le=24.0)] = 6.0       # of the next year's debt service
+    maintenance_years: Annotated[int, Field(ge=0, le=20)] = 0          # MRA build-up before each overhaul
+    deposit_rate: Annotated[float, Field(ge=0.0, le=0.5)] = 0.0        # earned on reserve balances
+
+
+class Waterfall(_Model):
+    """The lock-up test of the cash waterfall."""
+    lockup_dscr: Annotated[float, Field(ge=1.0, le=5.0)] = 1.10        # no distributions below this DSCR
+
+
 class SpeedTerm(_Model):
     name: Annotated[str, Field(min_length=1)]
     sd: Annotated[float, Field(ge=0.0, le=0.5)]
@@ -400,6 +412,8 @@ class ScenarioFields(_Model):
     capex: Capex
     revenue: Revenue
     finance: Finance
+    reserves: Reserves | None = None
+    waterfall: Waterfall | None = None
     uncertainty: Uncertainty = Uncertainty()
     montecarlo: MonteCarlo = MonteCarlo()
     variants: dict[str, dict[str, Any]] = {}
@@ -451,6 +465,7 @@ class ScenarioFields(_Model):
         out = []
         if self.finance.debt is not None and self.finance.debt.target_dscr_merchant is not None:
             out.append("finance.debt.target_dscr_merchant")
+        out += [name for name in ("reserves", "waterfall") if getattr(self, name) is not None]
         return out
 
     def warnings(self) -> list[str]:
