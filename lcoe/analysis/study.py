@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lcoe.analysis import montecarlo
+from lcoe.analysis import lender, montecarlo
 from lcoe.analysis import sensitivity as sens
 from lcoe.engine import Case, run
 from lcoe.physics import energy as en
@@ -22,6 +22,7 @@ class Report:
     variants: dict = field(default_factory=dict)    # name -> Case
     montecarlo: object | None = None                # montecarlo.MonteCarloResult
     sensitivity: object | None = None               # sensitivity.SensitivitySet (shown by the workbook only)
+    lender: list | None = None                      # lender.LenderResult per case (debt locked at close)
 
     def to_dict(self) -> dict:
         c = self.case
@@ -43,6 +44,9 @@ class Report:
             warnings.extend(w for w in self.montecarlo.warnings if w not in warnings)
             warnings.extend(w for w in montecarlo_null_reasons(self.montecarlo, out["montecarlo"])
                             if w not in warnings)
+        if self.lender is not None:
+            out["lender_cases"] = {r.case.name: r.to_dict() for r in self.lender}
+            warnings.extend(w for r in self.lender for w in r.null_reasons() if w not in warnings)
         out["variants"] = {}
         for name, v in self.variants.items():
             out["variants"][name] = {"metrics": dict(v.metrics), "energy": v.energy.report()}
@@ -98,10 +102,13 @@ def costs_block(case: Case) -> dict:
 
 def build(scn, *, trials: int | None = None, variants: bool = True, progress=None,
           sensitivity: bool = False) -> Report:
-    """Run the base case, each variant, (when trials > 0) the Monte Carlo and (when
-    ``sensitivity``) the tornado and wind-speed sweep that the lender workbook shows."""
+    """Run the base case, each variant, the lender cases (with a debt table), (when trials > 0)
+    the Monte Carlo and (when ``sensitivity``) the tornado and wind-speed sweep that the lender
+    workbook shows."""
     case = run(scn)
     rep = Report(case)
+    if scn.finance.debt is not None:
+        rep.lender = lender.lender_cases(scn, case)
     if variants:
         for name in scn.variants:
             rep.variants[name] = run(scn.variant(name))

@@ -417,6 +417,7 @@ class ScenarioFields(_Model):
     uncertainty: Uncertainty = Uncertainty()
     montecarlo: MonteCarlo = MonteCarlo()
     variants: dict[str, dict[str, Any]] = {}
+    lender_cases: dict[str, dict[str, Any]] = {}   # [lender_cases.NAME]: label, energy_case, dotted overrides
 
     # Derived conventions, kept here so every module reads them the same way.
     @property

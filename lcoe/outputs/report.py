@@ -116,6 +116,9 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     if "montecarlo" in d:
         lines.append("")
         lines.extend(montecarlo_table(d["montecarlo"], cur))
+    if "lender_cases" in d:
+        lines.append("")
+        lines.extend(lender_table(d["lender_cases"], cur))
     if yearly:
         lines.append("")
         lines.extend(annual_table(d["annual"], cur))
@@ -268,6 +271,29 @@ def _signed(diff, how):
     return s if s.startswith("-") else "+" + s
 
 
+LENDER_COLUMNS = [("min_dscr", "Min DSCR", "{:.3f}"), ("avg_dscr", "Avg DSCR", "{:.3f}"), ("llcr", "LLCR", "{:.3f}"),
+                  ("years_in_lockup", "Lock-up", "{:d}"), ("dsra_draws", "DSRA drawn", "k"),
+                  ("unpaid_debt_service", "Unpaid DS", "k"), ("equity_irr", "Equity IRR", "pct")]
+
+
+def lender_table(cases: dict, cur: str) -> list[str]:
+    """One line per lender case, the debt locked at the base sizing (money in thousands)."""
+    heads = [h for _, h, _ in LENDER_COLUMNS]
+    widths = [max(len(h), 8) for h in heads]
+    out = ["Lender cases (debt and debt service locked at the base sizing)",
+           f"  lock-up in years; DSRA drawn and unpaid debt service over the life in {cur} thousands; IRR in %",
+           f"  {'Case':<28}" + "".join(f" {h:>{w}}" for h, w in zip(heads, widths))]
+    for name, r in cases.items():
+        cells = []
+        for (k, _, how), w in zip(LENDER_COLUMNS, widths):
+            v = r[k]
+            s = "n/a" if v is None else (f"{v / 1e3:,.0f}" if how == "k" else fmt(v, how))
+            cells.append(f" {s:>{w}}")
+        label = r["label"] if len(r["label"]) <= 28 else r["label"][:25] + "..."
+        out.append(f"  {label:<28}" + "".join(cells))
+    return out
+
+
 MC_LABELS = {
     "net_aep_year1_mwh": ("Net energy, year 1", "MWh", "{:,.0f}"),
     "net_aep_mean_mwh": ("Net energy, life mean", "MWh/yr", "{:,.0f}"),
@@ -289,7 +315,12 @@ def montecarlo_table(mc: dict, cur: str) -> list[str]:
                                               for s in ("p50", "p75", "p90", "p99", "mean", "sd")))
     for k, label in (("prob_min_dscr_below_1", "P(minimum DSCR < 1.0) [%]"),
                      ("prob_min_dscr_below_target", "P(minimum DSCR < target) [%]"),
-                     ("prob_equity_irr_below_target", "P(equity IRR < target) [%]")):
+                     ("prob_equity_irr_below_target", "P(equity IRR < target) [%]"),
+                     ("prob_lockup_any_year", "P(lock-up in any year) [%]"),
+                     ("prob_dsra_drawn", "P(DSRA drawn) [%]"),
+                     ("prob_debt_service_unpaid", "P(debt service unpaid) [%]")):
         if k in mc:
             out.append(f"  {label:<34} {fmt(mc[k], 'pct'):>12}")
+    if "expected_cash_trapped" in mc:
+        out.append(f"  {'Expected cash trapped [' + cur + ' M]':<34} {fmt(mc['expected_cash_trapped'], 'm'):>12}")
     return out
