@@ -7,7 +7,8 @@ deterministic run with the site cached, (d) the Weibull AEP integral, (e) the wa
 losses of a 50-turbine grid over a 12-sector rose in 1 m/s speed bins, (f) the portfolio
 Monte Carlo of many invented sites through the local Dask cluster with 1 and 2 workers,
 and the peak memory of the process. The loop and the engine are checked against each other on
-the subsample.
+the subsample; with reserves or a lock-up in the scenario the loop runs the cash waterfall too
+(:func:`plain_waterfall`, its own plain-Python version).
 """
 
 from __future__ import annotations
@@ -85,6 +86,73 @@ def table_ratio(site, f: float) -> float:
     return float(site.aep_ratios[i] + w * site.cell_slopes[i] - fall)
 
 
+def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, months: float, build_years: int,
+                    deposit: float, lockup: float) -> dict:
+    """The cash waterfall of one trial in plain Python (the order of lcoe.finance.waterfall):
+    lists over t = 0..L; ``overhauls`` the nominal overhaul cost of each year. Returns the equity
+    cash flow and whether any year was locked up, the DSRA drawn, debt service left unpaid, and
+    the cash trapped over the life."""
+    L = len(cfads) - 1
+
+    def dsra_target(t):
+        return months / 12.0 * (ds[t + 1] if t + 1 <= L else 0.0)
+
+    def mra_target(t):
+        total = 0.0
+        for y in range(2, L + 1):
+            start = max(1, y - build_years)
+            if build_years > 0 and overhauls[y] and start <= t < y:
+                total += overhauls[y] * min(1.0, (t - start + 1) / (y - start))
+        return total
+
+    dsra, mra, trapped = dsra_target(0), mra_target(0), 0.0
+    equity = [equity0 - dsra - mra]
+    flags = {"lockup_any": 0.0, "dsra_drawn": 0.0, "unpaid_any": 0.0, "cash_trapped": 0.0}
+    for t in range(1, L + 1):
+        cash = cfads[t] + deposit * (dsra + mra + trapped)
+        if mra > mra_target(t):
+            cash += mra - mra_target(t)
+            mra = mra_target(t)
+        cash -= ds[t]
+        unpaid = 0.0
+        if cash < 0:
+            take = min(dsra, -cash)
+            dsra -= take
+            cash += take
+            if take > 0:
+                flags["dsra_drawn"] = 1.0
+        if cash < 0:
+            take = min(trapped, -cash)
+            trapped -= take
+            cash += take
+        if cash < 0:
+            unpaid, cash = -cash, 0.0
+            flags["unpaid_any"] = 1.0
+        target = dsra_target(t)
+        if dsra > target:
+            cash += dsra - target
+            dsra = target
+        else:
+            top = min(cash, target - dsra)
+            dsra += top
+            cash -= top
+        if mra < mra_target(t):
+            top = min(cash, mra_target(t) - mra)
+            mra += top
+            cash -= top
+        if lockup > 0 and ds[t] > 0 and cfads[t] / ds[t] < lockup:
+            trapped += cash
+            flags["lockup_any"] = 1.0
+            flags["cash_trapped"] += cash
+            paid = 0.0
+        else:
+            paid, trapped = cash + trapped, 0.0
+        if t == L:
+            paid += dsra + mra + trapped
+        equity.append(paid - unpaid)
+    return {"equity": equity, **flags}
+
+
 def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cost) -> dict:
     """One Monte Carlo trial the straightforward way: a Python loop over the years, then
     numpy-financial's ``npv`` and ``irr`` and every other metric the engine gives. ``over`` holds this trial's drawn inputs;
@@ -117,7 +185,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     tax_rate = get("finance.tax_rate", f.tax_rate)
     sched = case.schedule
     gross = site.gross_aep_mwh
-    energy, costs, project, cfads = [0.0], [0.0], [-capex], [0.0]
+    energy, costs, project, cfads, ds_line, works_line = [0.0], [0.0], [-capex], [0.0], [0.0], [0.0]
     equity = [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
     pool_u = pool_l = 0.0
     for t in range(1, L + 1):
@@ -159,6 +227,15 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         project.append(pre_tax - tax_u)
         cfads.append(pre_tax - tax_l)
         equity.append(pre_tax - tax_l - float(sched.debt_service[0, t - 1]))
+        ds_line.append(float(sched.debt_service[0, t - 1]))
+        works_line.append(works * (1 + esc) ** t)
+    flags = {}
+    if scn.reserves is not None or scn.waterfall is not None:
+        res, wfall = scn.reserves, scn.waterfall
+        flags = plain_waterfall(cfads, ds_line, works_line, equity[0], res.dsra_months if res else 0.0,
+                                res.maintenance_years if res else 0, res.deposit_rate if res else 0.0,
+                                wfall.lockup_dscr if wfall else 0.0)
+        equity = flags.pop("equity")
     rate = get("finance.discount_rate", f.discount_rate)
     real = (1 + rate) / (1 + get("finance.inflation", f.inflation)) - 1
     disc = [(1 + rate) ** -t for t in range(L + 1)]
@@ -170,7 +247,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     out = {"project_npv": npf.npv(rate, project), "project_irr": npf.irr(project),
            "equity_npv": npf.npv(eq_rate, equity), "equity_irr": npf.irr(equity),
            "lcoe_nominal_per_mwh": pv_costs / pv_energy if pv_energy > 0 else nan,
-           "lcoe_real_per_mwh": pv_costs / pv_energy_real if pv_energy_real > 0 else nan}
+           "lcoe_real_per_mwh": pv_costs / pv_energy_real if pv_energy_real > 0 else nan, **flags}
     cum, payback = 0.0, nan
     for t, x in enumerate(equity):
         cum += x
@@ -328,7 +405,7 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
     looped = {k: np.concatenate([p[k] for p in parts if k in p]) for k in set().union(*parts)}
     worst = 0.0
     for k, v in looped.items():
-        e = mc.samples[k][:m]
+        e = (mc.samples[k] if k in mc.samples else mc.waterfall[k])[:m]
         ok = np.isfinite(v) & np.isfinite(e)
         if np.any(np.isfinite(v) != np.isfinite(e)):
             raise AssertionError(f"bench: loop and engine disagree on which trials have a {k}")
