@@ -46,6 +46,8 @@ ANNUAL_KEYS = ("year", "energy_mwh", "availability", "price_per_mwh", "revenue",
                "depreciation", "interest", "principal", "balance", "tax", "tax_unlevered", "cfads", "debt_service",
                "dscr", "project_cash_flow", "equity_cash_flow")
 PRICE_KEY = "revenue.ppa_price_per_mwh"
+# the cash waterfall's lines in the yearly rows (lcoe.finance.waterfall; its equity line is equity_cash_flow)
+WATERFALL_ANNUAL_KEYS = tuple(k for k in wf.LINES if k != "equity_cash_flow")
 
 
 def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: dict | None = None,
@@ -283,13 +285,21 @@ class Case:
         """The cover figures of this case (:func:`cover_of`)."""
         return cover_of(self.flows, self.metrics)
 
+    def annual_keys(self) -> tuple:
+        """The keys of each yearly row: ANNUAL_KEYS, then the waterfall's lines where there is one."""
+        return ANNUAL_KEYS + (WATERFALL_ANNUAL_KEYS if self.flows.waterfall is not None else ())
+
     def annual(self) -> list[dict]:
         rows = []
+        w = self.flows.waterfall
         for t in range(self.flows.years.size):
             row = {}
             for k in ANNUAL_KEYS:
                 v = self.flows.years[t] if k == "year" else getattr(self.flows, k)[0, t]
                 row[k] = int(v) if k == "year" else _num(v)
+            if w is not None:
+                for k in WATERFALL_ANNUAL_KEYS:
+                    row[k] = bool(w[k][0, t]) if k == "lockup" else _num(w[k][0, t])
             rows.append(row)
         return rows
 

@@ -211,3 +211,19 @@ def test_monte_carlo_reports_the_waterfall_probabilities(demo_reserved):
     assert rep["expected_cash_trapped"] == pytest.approx(np.mean(w["cash_trapped"]))
     plain = mc.monte_carlo(sc.load(DEMO), trials=200).report()
     assert "prob_lockup_any_year" not in plain
+
+
+def test_the_yearly_rows_csv_and_table_carry_the_waterfall(demo_reserved, tmp_path):
+    from lcoe.analysis import study
+    from lcoe.outputs import report as rp
+    scn, case = demo_reserved
+    rows = case.annual()
+    assert rows[0]["dsra_balance"] == pytest.approx(case.flows.waterfall["dsra_balance"][0, 0])
+    assert rows[1]["lockup"] is False and rows[1]["distributions"] > 0
+    rep = study.build(scn, trials=0, variants=False)
+    path = tmp_path / "yearly.csv"
+    rp.write_annual_csv(rep, path)
+    head = path.read_text().splitlines()[0].split(",")
+    assert head[:len(engine.ANNUAL_KEYS)] == list(engine.ANNUAL_KEYS) and "dsra_balance" in head
+    table = rp.to_table(rep)
+    assert "Cash waterfall" in table

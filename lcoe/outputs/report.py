@@ -11,7 +11,6 @@ import math
 import textwrap
 
 from lcoe.analysis.study import Report
-from lcoe.engine import ANNUAL_KEYS
 from lcoe.inputs.about import CAUTION
 from lcoe.outputs.files import write_csv
 
@@ -23,7 +22,8 @@ def to_json(report: Report) -> str:
 def write_annual_csv(report: Report, path):
     """The yearly table of the base case as CSV (``lcoe run --csv``), written atomically."""
     rows = report.case.annual()
-    return write_csv(path, list(ANNUAL_KEYS), [[r[k] for k in ANNUAL_KEYS] for r in rows])
+    keys = report.case.annual_keys()
+    return write_csv(path, list(keys), [[r[k] for k in keys] for r in rows])
 
 
 # --------------------------------------------------------------------------- table output
@@ -122,6 +122,11 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     if yearly:
         lines.append("")
         lines.extend(annual_table(d["annual"], cur))
+        if "distributions" in d["annual"][0]:
+            lines.append("")
+            lines.extend(annual_table(d["annual"], cur, WATERFALL_COLUMNS,
+                                      f"Cash waterfall ({cur} k, nominal; DSRA, MRA and trapped cash: balances at "
+                                      "the end of the year; lock-up: nothing paid out)", narrow=8, year=4))
     if d["variants"]:
         lines.append("")
         lines.extend(variants_table(d, cur))
@@ -225,16 +230,25 @@ ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.
                   ("project_cash_flow", "Project CF [{cur} k]", "k"), ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
 
 
-def annual_table(rows, cur) -> list[str]:
-    heads = [h.format(cur=cur) for _, h, _ in ANNUAL_COLUMNS]
-    widths = [max(len(h), 9) for h in heads]
-    out = ["Yearly cash flow (t = 0 is construction; nominal money)",
-           "  " + "  ".join(f"{h:>{wd}}" for h, wd in zip(heads, widths))]
+WATERFALL_COLUMNS = [("year", "Year", "{:d}"), ("cfads", "CFADS", "k"), ("debt_service", "Debt svc", "k"),
+                     ("dsra_draw", "DSRA use", "k"), ("dsra_balance", "DSRA", "k"), ("mra_balance", "MRA", "k"),
+                     ("lockup", "Lock-up", "yes"), ("lockup_balance", "Trapped", "k"),
+                     ("unpaid_debt_service", "Unpaid", "k"), ("distributions", "Paid out", "k")]
+
+
+def annual_table(rows, cur, columns=None, title="Yearly cash flow (t = 0 is construction; nominal money)",
+                 narrow: int = 9, year: int = 9) -> list[str]:
+    columns = ANNUAL_COLUMNS if columns is None else columns
+    heads = [h.format(cur=cur) for _, h, _ in columns]
+    widths = [max(len(h), narrow if k != "year" else year) for (k, _, _), h in zip(columns, heads)]
+    out = textwrap.wrap(title, WIDTH, break_on_hyphens=False) + ["  " + "  ".join(f"{h:>{wd}}" for h, wd in zip(heads, widths))]
     for r in rows:
         cells = []
-        for (k, _, how), wd in zip(ANNUAL_COLUMNS, widths):
+        for (k, _, how), wd in zip(columns, widths):
             v = r[k]
-            if how == "k":
+            if how == "yes":
+                s = "yes" if v else "-"
+            elif how == "k":
                 s = "n/a" if v is None else f"{v / 1e3:,.0f}"
             elif v is None:
                 s = "-"
