@@ -32,6 +32,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from lcoe.finance import _kernels, cashflow  # _kernels: the compiled trial pass
+from lcoe.finance import construction as build
 from lcoe.finance import metrics as mt
 from lcoe.finance import waterfall as wf
 from lcoe.finance.cashflow import Flows, Inputs, Sample, Schedule
@@ -203,11 +204,12 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     else:
         wf_args = (False, yearly(0.0, L + 1), yearly(0.0, L + 1), per_row(0.0), per_row(0.0))
     out = np.empty((len(TRIAL_KEYS), n))
-    _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.availability), yearly(tm.downtime),
+    equity0, _ = cashflow.equity_before_reserves(scn, tm.inp, cap, schedule, structure)
+    _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.operating_availability()), yearly(tm.downtime),
                         yearly(tm.degradation), ef, yearly(tm.price + tm.credit), yearly(tm.fixed_real),
                         per_row(tm.variable), yearly(tm.esc_index), per_row(tm.lease), yearly(tm.decom_t),
                         yearly(tm.shares), per_row(tm.tax_rate), capex, yearly(schedule.interest),
-                        yearly(schedule.debt_service), per_row(-(cap + schedule.fee - schedule.debt)),
+                        yearly(schedule.debt_service), per_row(equity0),
                         disc(r), disc(mt.real_rate(r, infl)), disc(eq), disc(rate_i), per_row(schedule.debt),
                         _irr_start(irr_guess, "project_irr"), _irr_start(irr_guess, "equity_irr"), 1e-9, 50,
                         1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), *wf_args, out)
@@ -242,6 +244,41 @@ def cover_of(flows: Flows, metrics: dict, row: int = 0) -> dict:
     out["years_in_lockup"] = int(np.count_nonzero(line("lockup"))) if w is not None else 0
     out["cash_trapped"] = float(line("cash_trapped").sum()) if w is not None else 0.0
     out["unpaid_debt_service"] = float(line("unpaid_debt_service").sum()) if w is not None else float(short.sum())
+    return out
+
+
+def sources_and_uses(scn, flows: Flows, row: int = 0) -> dict:
+    """Uses (capex, upfront fee, interest during construction, commitment fee, the first funding
+    of the debt service reserve) and sources (debt, equity) of one row, with the gearing (debt /
+    uses) and the check that the two totals agree; the dates with a construction period."""
+    f = flows.funding
+    if f is not None:
+        uses = {"capex": f.capex[row], "upfront_fee": f.upfront_fee[row], "interest_during_construction": f.idc[row],
+                "commitment_fee": f.commitment_fee[row], "dsra_initial": f.dsra[row]}
+        debt, equity = f.debt[row], f.equity[row]
+    else:
+        w = flows.waterfall
+        dsra = float(w["dsra_balance"][min(row, w["dsra_balance"].shape[0] - 1), 0]) if w is not None else 0.0
+        uses = {"capex": flows.capex_total[row, 0], "upfront_fee": flows.fee[row, 0],
+                "interest_during_construction": 0.0, "commitment_fee": 0.0, "dsra_initial": dsra}
+        debt = flows.debt[row, 0]
+        equity = -flows.equity_cash_flow[row, 0]
+    uses = {k: float(v) for k, v in uses.items()}
+    total = sum(uses.values())
+    sources = {"debt": float(debt), "equity": float(equity)}
+    out = {"uses": {**uses, "total": total}, "sources": {**sources, "total": sources["debt"] + sources["equity"]},
+           "gearing": sources["debt"] / total if total > 0 else None}
+    out["balanced"] = bool(abs(out["sources"]["total"] - total) <= 1e-9 * max(1.0, abs(total)))
+    c = scn.construction
+    if c is not None:
+        cod = build.add_months(c.financial_close, c.months)
+        out.update(financial_close=c.financial_close.isoformat(), commercial_operation=cod.isoformat(),
+                   construction_months=c.months, drawdown=c.drawdown if isinstance(c.drawdown, str) else "shares",
+                   funding=c.funding, first_year_operating_share=build.operating_share(cod),
+                   quarters=[{"quarter": k + 1, "capex": float(f.capex_q[row, k]),
+                              "interest_during_construction": float(f.idc_q[row, k]),
+                              "commitment_fee": float(f.commitment_q[row, k]), "debt": float(f.debt_q[row, k]),
+                              "equity": float(f.equity_q[row, k])} for k in range(f.capex_q.shape[1])])
     return out
 
 
@@ -286,12 +323,21 @@ class Case:
         return cover_of(self.flows, self.metrics)
 
     def annual_keys(self) -> tuple:
-        """The keys of each yearly row: ANNUAL_KEYS, then the waterfall's lines where there is one."""
-        return ANNUAL_KEYS + (WATERFALL_ANNUAL_KEYS if self.flows.waterfall is not None else ())
+        """The keys of each yearly row: ANNUAL_KEYS, then the waterfall's lines where there is one,
+        and ``period_end`` (ISO date) with a construction period."""
+        return ANNUAL_KEYS + (WATERFALL_ANNUAL_KEYS if self.flows.waterfall is not None else ()) + \
+            (("period_end",) if self.scenario.construction is not None else ())
+
+    def sources_and_uses(self) -> dict:
+        """Sources and uses of funds at commercial operation (:func:`sources_and_uses`)."""
+        return sources_and_uses(self.scenario, self.flows)
 
     def annual(self) -> list[dict]:
         rows = []
         w = self.flows.waterfall
+        c = self.scenario.construction
+        ends = build.period_ends(build.add_months(c.financial_close, c.months), self.scenario.lifetime) \
+            if c is not None else None
         for t in range(self.flows.years.size):
             row = {}
             for k in ANNUAL_KEYS:
@@ -300,6 +346,8 @@ class Case:
             if w is not None:
                 for k in WATERFALL_ANNUAL_KEYS:
                     row[k] = bool(w[k][0, t]) if k == "lockup" else _num(w[k][0, t])
+            if ends is not None:
+                row["period_end"] = ends[t]
             rows.append(row)
         return rows
 

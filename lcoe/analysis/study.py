@@ -33,6 +33,7 @@ class Report:
             "energy": c.energy.report(),
             **directions_blocks(c.energy),
             "costs": costs_block(c),
+            "sources_and_uses": c.sources_and_uses(),
             "metrics": dict(c.metrics),
             "annual": c.annual(),
         }

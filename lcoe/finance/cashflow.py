@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lcoe.finance import construction as build
 from lcoe.finance import costs
 from lcoe.finance import waterfall as wf
 from lcoe.finance.debt import Schedule, size_debt, yearly_targets
@@ -55,6 +56,7 @@ class Flows:
     warnings: list = field(default_factory=list)
     read_keys: set = field(default_factory=set)   # the override keys the engine read for these lines
     waterfall: dict | None = None  # line name -> (n, L + 1), lcoe.finance.waterfall.LINES; None without one
+    funding: object = None         # lcoe.finance.construction.Funding with a [construction] table, else None
 
 
 class Inputs:
@@ -217,6 +219,11 @@ class Terms:
     warnings: list
     ppa_term: object = None   # revenue.ppa_term_years per row (contracted years t <= term)
     overhaul: object = 0.0    # planned overhauls of each year, year-0 money (in fixed_real too)
+    period_share: object = None   # None, or (L,) the share of each year in operation (a partial year 1)
+
+    def operating_availability(self):
+        """The availability of each year times its share in operation (energy pro rata)."""
+        return self.availability if self.period_share is None else self.availability * self.period_share
 
     def gross_t(self):
         """Gross AEP of each year with the trials' speed factors (without them, the rows'). [MWh/yr]"""
@@ -313,6 +320,9 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     decom = costs.decommissioning_net(inp("capex.decommissioning_per_kw", c.decommissioning_per_kw),
                                       inp("capex.salvage_per_kw", c.salvage_per_kw), plant_kw, esc, L)
 
+    # ---- a construction period ending mid-year: year 1 operates for part of the year
+    share = period_share(scn)
+
     # ---- depreciation and tax
     f = scn.finance
     dep_years = inp("finance.depreciation_years", f.depreciation_years)
@@ -323,12 +333,13 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     return Terms(inp=inp, years=years, gross=gross, speed_ratio=speed_ratio,
                  speed_gross=speed_gross, loss_factor=lf, availability=avail, downtime=downtime, degradation=degr,
                  energy_factor=None if sample is None else sample.energy_factor, p50=p50, factors=factors,
-                 price=price, credit=credit, capex=capex, fixed_real=costs.fixed_om(fixed, insurance, plant_kw, fail, overhaul),
+                 price=price, credit=credit, capex=capex,
+                 fixed_real=costs.fixed_om(fixed, insurance, plant_kw, fail, overhaul) * (1.0 if share is None else share),
                  variable=inp("maintenance.variable_per_mwh", m.variable_per_mwh),
                  lease=inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue),
                  esc_index=esc_index, decom_t=np.where(years == L, decom, 0.0), shares=shares,
                  tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[], ppa_term=term,
-                 overhaul=overhaul)
+                 overhaul=overhaul, period_share=share)
 
 
 def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
@@ -348,7 +359,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
     energy_line = _line(inp.n, L, 0.0)
     energy_t = energy_line[:, 1:]
-    en.yearly_energy(tm.gross_t(), tm.loss_factor, tm.availability, tm.downtime, tm.degradation,
+    en.yearly_energy(tm.gross_t(), tm.loss_factor, tm.operating_availability(), tm.downtime, tm.degradation,
                      tm.energy_factor, out=energy_t)
     price, credit, decom_t, capex, tax_rate = tm.price, tm.credit, tm.decom_t, tm.capex, tm.tax_rate
     dep = capex * tm.shares
@@ -383,7 +394,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
                           inp("finance.debt.max_gearing", debt_terms.max_gearing),
                           inp("finance.debt.tenor_years", debt_terms.tenor_years),
                           inp("finance.debt.interest_rate", debt_terms.interest_rate),
-                          inp("finance.debt.upfront_fee", debt_terms.upfront_fee), years)
+                          inp("finance.debt.upfront_fee", debt_terms.upfront_fee), years, tm.period_share)
         zero = np.ravel(sched.debt) <= 0
         capped = zero & np.ravel(sched.gearing_bound)   # CFADS would carry debt, but the cap is zero
         if np.any(zero & ~capped):
@@ -397,8 +408,8 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     ds = sched.debt_service
     dscr_line = _line(inp.n, L, np.nan)
     np.divide(cfads, np.where(ds > 0, ds, np.nan), out=dscr_line[:, 1:])
-    equity0 = -(capex + sched.fee - sched.debt).ravel()
     structure = wf.structure_of(scn, inp)
+    equity0, funding = equity_before_reserves(scn, inp, capex, sched, structure)
     lines = None
     if structure is None:
         equity_line = _line(inp.n, L, equity0)
@@ -430,7 +441,38 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(tm.gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(tm.p50, (inp.n, 1)),
         case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in tm.factors.items()},
-        schedule=sched, warnings=warnings, read_keys=set(inp.read), waterfall=lines)
+        schedule=sched, warnings=warnings, read_keys=set(inp.read), waterfall=lines, funding=funding)
+
+
+def period_share(scn):
+    """None, or the share of each operating year in operation: year 1 starts at COD (financial
+    close + the construction months) and ends on 31 December (lcoe.finance.construction)."""
+    c = scn.construction
+    if c is None:
+        return None
+    share = np.ones(scn.lifetime)
+    share[0] = build.operating_share(build.add_months(c.financial_close, c.months))
+    return None if share[0] == 1.0 else share
+
+
+def equity_before_reserves(scn, inp: Inputs, capex, sched: Schedule, structure):
+    """(the equity contribution at t = 0 before the reserves' first funding, per row (negative);
+    the construction funding or None). Without ``[construction]``: -(capex + upfront fee - debt);
+    with it, IDC and the commitment fee are uses too (lcoe.finance.construction.fund)."""
+    plain = -(capex + sched.fee - sched.debt).ravel()
+    c = scn.construction
+    if c is None:
+        return plain, None
+    d = scn.finance.debt
+    rate = sched.interest_rate if sched.interest_rate is not None else (d.interest_rate if d is not None else 0.0)
+    dsra0 = 0.0
+    if structure is not None:
+        dsra0 = wf.dsra_targets(np.asarray(sched.debt_service, float), structure.dsra_months,
+                                period_share(scn))[:, 0]
+    funding = build.fund(capex, sched.debt, sched.fee, dsra0, build.drawdown_shares(c.drawdown, c.months),
+                         build.quarters(c.months), float(np.asarray(rate, float).ravel()[0]),
+                         inp("construction.commitment_fee", c.commitment_fee), c.funding)
+    return -(funding.equity - funding.dsra), funding
 
 
 def waterfall_targets(structure, debt_service, tm: Terms):
@@ -439,7 +481,8 @@ def waterfall_targets(structure, debt_service, tm: Terms):
     ds = np.asarray(debt_service, float)
     ds_line = np.concatenate([np.zeros((ds.shape[0], 1)), ds], axis=1)
     oh = np.atleast_2d(np.asarray(tm.overhaul, float) * tm.esc_index)   # nominal cost of each year's overhauls
-    return ds_line, wf.dsra_targets(ds, structure.dsra_months), wf.mra_targets(oh, structure.mra_years)
+    return (ds_line, wf.dsra_targets(ds, structure.dsra_months, tm.period_share),
+            wf.mra_targets(oh, structure.mra_years))
 
 
 def waterfall_lines(structure, cfads_line, debt_service, equity0, tm: Terms) -> dict:

@@ -69,10 +69,14 @@ def structure_of(scn, inp=None) -> Structure | None:
         lockup_dscr=0.0 if wf is None else read("waterfall.lockup_dscr", wf.lockup_dscr))
 
 
-def dsra_targets(debt_service, months) -> np.ndarray:
+def dsra_targets(debt_service, months, period=None) -> np.ndarray:
     """DSRA target at the end of each year t = 0..L: months / 12 of year t + 1's debt service
-    (zero in year L and after maturity). ``debt_service`` (rows, L) over t = 1..L."""
+    (zero in year L and after maturity). ``debt_service`` (rows, L) over t = 1..L; ``period``
+    (the length of each year, a partial first year) makes it N months at next year's pace:
+    months / 12 x DS_{t+1} / length_{t+1}."""
     ds = np.asarray(debt_service, float)
+    if period is not None:
+        ds = ds / np.asarray(period, float)
     nxt = np.concatenate([ds, np.zeros((ds.shape[0], 1))], axis=1)
     return np.asarray(months, float) / 12.0 * nxt
 

@@ -107,6 +107,8 @@ _MESSAGES = {
     "bool_type": "must be true or false",
     "missing": "is required",
     "dict_type": "must be a table",
+    "date_type": "must be a date written without quotes, such as 2027-03-31",
+    "date_parsing": "must be a date written without quotes, such as 2027-03-31",
     "model_type": "must be a table",
     "model_attributes_type": "must be a table",
     "list_type": "must be an array",
