@@ -86,8 +86,47 @@ def table_ratio(site, f: float) -> float:
     return float(site.aep_ratios[i] + w * site.cell_slopes[i] - fall)
 
 
+def plain_funding(capex: float, debt: float, fee: float, dsra: float, c, rate: float) -> float:
+    """The equity of a construction period in plain Python, quarter by quarter, repeated until
+    the interest during construction and the commitment fee settle (lcoe.finance.construction)."""
+    q = -(-c.months // 3)
+    lengths = [3.0] * (q - 1) + [float(c.months - 3 * (q - 1))]
+    if isinstance(c.drawdown, list):
+        shares = list(c.drawdown)
+    elif c.drawdown == "even":
+        shares = [x / c.months for x in lengths]
+    else:
+        done, shares = 0.0, []
+        for x in lengths:
+            a, b = done / c.months, (done + x) / c.months
+            shares.append((3 * b * b - 2 * b ** 3) - (3 * a * a - 2 * a ** 3))
+            done += x
+    extra = 0.0
+    for _ in range(200):
+        uses = capex + fee + extra + dsra
+        equity_left = uses - debt
+        share_debt = debt / uses if uses > 0 else 0.0
+        paid = min(fee, equity_left) if c.funding == "equity_first" else fee * (1 - share_debt)
+        equity_left -= paid
+        balance = fee - paid
+        total = 0.0
+        for k in range(q):
+            interest = balance * ((1 + rate) ** (lengths[k] / 12) - 1)
+            commit = max(debt - balance, 0.0) * c.commitment_fee * lengths[k] / 12
+            use = capex * shares[k] + interest + commit + (dsra if k == q - 1 else 0.0)
+            paid = min(use, max(equity_left, 0.0)) if c.funding == "equity_first" else use * (1 - share_debt)
+            equity_left -= paid
+            balance += use - paid
+            total += interest + commit
+        if abs(total - extra) <= 1e-12 * max(capex, 1.0):
+            extra = total
+            break
+        extra = total
+    return capex + fee + extra + dsra - debt
+
+
 def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, months: float, build_years: int,
-                    deposit: float, lockup: float) -> dict:
+                    deposit: float, lockup: float, first_share: float = 1.0) -> dict:
     """The cash waterfall of one trial in plain Python (the order of lcoe.finance.waterfall):
     lists over t = 0..L; ``overhauls`` the nominal overhaul cost of each year. Returns the equity
     cash flow and whether any year was locked up, the DSRA drawn, debt service left unpaid, and
@@ -95,7 +134,8 @@ def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, mont
     L = len(cfads) - 1
 
     def dsra_target(t):
-        return months / 12.0 * (ds[t + 1] if t + 1 <= L else 0.0)
+        pace = first_share if t + 1 == 1 else 1.0
+        return months / 12.0 * (ds[t + 1] / pace if t + 1 <= L else 0.0)
 
     def mra_target(t):
         total = 0.0
@@ -185,6 +225,15 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     tax_rate = get("finance.tax_rate", f.tax_rate)
     sched = case.schedule
     gross = site.gross_aep_mwh
+    cons = scn.construction
+    first_share = 1.0
+    if cons is not None:
+        cod = cons.financial_close
+        y, mo = divmod(cod.month - 1 + cons.months, 12)
+        cod = cod.replace(year=cod.year + y, month=mo + 1, day=1) if cod.day == 1 else None
+        if cod is None:
+            raise ValueError("bench: the plain loop takes a financial close on the first of a month")
+        first_share = (13 - cod.month) / 12.0
     energy, costs, project, cfads, ds_line, works_line = [0.0], [0.0], [-capex], [0.0], [0.0], [0.0]
     equity = [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
     pool_u = pool_l = 0.0
@@ -196,8 +245,9 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         avail = min(max(avail, 0.0), 1.0)
         g = gross if speed is None else gross * table_ratio(site, float(speed[t - 1]))
         down = exp_down if downtime is None else downtime[t - 1]
-        e = g * lf * avail * (1.0 - down) * (1.0 - get("operations.degradation_per_year",
-                                                         o.degradation_per_year)) ** (t - 1)
+        part = first_share if t == 1 else 1.0
+        e = g * lf * avail * part * (1.0 - down) * (1.0 - get("operations.degradation_per_year",
+                                                                o.degradation_per_year)) ** (t - 1)
         if efac is not None:
             e *= efac
         if t <= get("revenue.ppa_term_years", scn.ppa_term_years):
@@ -212,9 +262,9 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         works = sum(get(f"maintenance.overhaul.{x.name}.cost_per_turbine", x.cost_per_turbine) * n
                     for x in m.overhaul if get(f"maintenance.overhaul.{x.name}.year", x.year) == t)
         failures = exp_cost if fail_cost is None else fail_cost[t - 1]
-        om = ((get("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
-               + get("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)) * kw
-              + get("maintenance.variable_per_mwh", m.variable_per_mwh) * e + failures + works) * (1 + esc) ** t \
+        om = (((get("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
+                + get("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)) * kw + failures + works) * part
+              + get("maintenance.variable_per_mwh", m.variable_per_mwh) * e) * (1 + esc) ** t \
             + get("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue) * revenue
         decom = (get("capex.decommissioning_per_kw", c.decommissioning_per_kw)
                  - get("capex.salvage_per_kw", c.salvage_per_kw)) * kw * (1 + esc) ** L if t == L else 0.0
@@ -230,11 +280,15 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         ds_line.append(float(sched.debt_service[0, t - 1]))
         works_line.append(works * (1 + esc) ** t)
     flags = {}
-    if scn.reserves is not None or scn.waterfall is not None:
-        res, wfall = scn.reserves, scn.waterfall
+    res, wfall = scn.reserves, scn.waterfall
+    if cons is not None:
+        dsra0 = res.dsra_months / 12.0 * ds_line[1] / first_share if res is not None else 0.0
+        equity[0] = -(plain_funding(capex, float(sched.debt[0, 0]), float(sched.fee[0, 0]), dsra0, cons,
+                                    scn.finance.debt.interest_rate if scn.finance.debt else 0.0) - dsra0)
+    if res is not None or wfall is not None:
         flags = plain_waterfall(cfads, ds_line, works_line, equity[0], res.dsra_months if res else 0.0,
                                 res.maintenance_years if res else 0, res.deposit_rate if res else 0.0,
-                                wfall.lockup_dscr if wfall else 0.0)
+                                wfall.lockup_dscr if wfall else 0.0, first_share)
         equity = flags.pop("equity")
     rate = get("finance.discount_rate", f.discount_rate)
     real = (1 + rate) / (1 + get("finance.inflation", f.inflation)) - 1

@@ -113,6 +113,9 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     lines.append(f"  {'Capex total [' + cur + ' M]':<{w}} {fmt(costs['capex_total'], 'm'):>14}")
     lines.append(f"  {'O&M, year 1 [' + cur + ' M]':<{w}} {fmt(costs['opex_year1'], 'm'):>14}")
     lines.append(f"  {'Decommissioning net, year L [' + cur + ' M]':<{w}} {fmt(costs['decommissioning_net'], 'm'):>14}")
+    if "sources_and_uses" in d:
+        lines.append("")
+        lines.extend(sources_uses_table(d["sources_and_uses"], cur))
     if "montecarlo" in d:
         lines.append("")
         lines.extend(montecarlo_table(d["montecarlo"], cur))
@@ -283,6 +286,33 @@ def _signed(diff, how):
         return "n/a"
     s = fmt(diff, how)
     return s if s.startswith("-") else "+" + s
+
+
+USES_LABELS = {"capex": "Capex", "upfront_fee": "Upfront debt fee", "interest_during_construction":
+               "Interest during construction", "commitment_fee": "Commitment fee",
+               "dsra_initial": "Debt service reserve, first funding", "total": "Total uses"}
+
+
+def sources_uses_table(su: dict, cur: str) -> list[str]:
+    """Uses and sources side by side, with the gearing, the check and the construction dates."""
+    w = 38
+    uses = [(USES_LABELS[k], v) for k, v in su["uses"].items()]
+    sources = [("Senior debt", su["sources"]["debt"]), ("Equity", su["sources"]["equity"]),
+               ("Total sources", su["sources"]["total"])]
+    title = f"Sources and uses of funds [{cur} M]"
+    if "commercial_operation" in su:
+        title += (f" (close {su['financial_close']}, operation {su['commercial_operation']}, "
+                  f"{su['construction_months']} months, {su['drawdown'].replace('_', '-')} drawdown, "
+                  f"{su['funding'].replace('_', ' ')})")
+    out = textwrap.wrap(title, WIDTH, break_on_hyphens=False)
+    out.append(f"  {'Uses':<{w}} {'':>10}   Sources")
+    for i in range(max(len(uses), len(sources))):
+        left = f"{uses[i][0]:<{w}} {fmt(uses[i][1], 'm'):>10}" if i < len(uses) else " " * (w + 11)
+        right = f"{sources[i][0]:<24} {fmt(sources[i][1], 'm'):>10}" if i < len(sources) else ""
+        out.append(f"  {left}   {right}".rstrip())
+    check = "balanced" if su["balanced"] else "NOT BALANCED"
+    out.append(f"  gearing (debt / uses) {fmt(su['gearing'], 'pct')} %; sources = uses: {check}")
+    return out
 
 
 LENDER_COLUMNS = [("min_dscr", "Min DSCR", "{:.3f}"), ("avg_dscr", "Avg DSCR", "{:.3f}"), ("llcr", "LLCR", "{:.3f}"),
