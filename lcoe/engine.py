@@ -82,7 +82,8 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
             warnings.append(f"{what}: none in {len(reasons)} of {len(rates)} row(s) ({first})"
                             if len(rates) > 1 else f"{what} is null: {first}")
     out["min_dscr"], out["avg_dscr"], out["llcr"], out["payback_year"] = mt.coverage(
-        flows.dscr, flows.cfads, flows.debt_service, flows.debt, rate_i, flows.equity_cash_flow)
+        flows.dscr, flows.cfads, flows.debt_service, flows.debt, rate_i, flows.equity_cash_flow,
+        debt_clock(scn))
     if np.any(~np.isfinite(out["lcoe_nominal_per_mwh"])):
         warnings.append("LCOE is null: the discounted energy is zero")
     never = ~np.isfinite(out["payback_year"])
@@ -97,6 +98,13 @@ def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: d
     elif np.all(flows.debt <= 0):
         warnings.append("DSCR and LLCR are null: there is no debt")
     return out, warnings
+
+
+def debt_clock(scn):
+    """None, or the time in years from the start of operation to the end of each row t = 0..L
+    where year 1 is partial: the clock the debt is sized and the LLCR discounted on."""
+    share = cashflow.period_share(scn)
+    return None if share is None else np.concatenate([[0.0], np.cumsum(share)])
 
 
 def _years_text(years) -> str:
@@ -188,8 +196,8 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     def per_row(a):
         return np.ascontiguousarray(np.asarray(a, float).reshape(-1))
 
-    def disc(rate):
-        return yearly(mt.discount_factors(rate, L + 1), L + 1)
+    def disc(rate, times=None):
+        return yearly(mt.discount_factors(rate, L + 1, times), L + 1)
 
     ratio = yearly(1.0) if tm.speed_ratio is None else yearly(tm.speed_ratio)
     gross = per_row(tm.gross if tm.speed_gross is None else tm.speed_gross)
@@ -210,7 +218,8 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
                         per_row(tm.variable), yearly(tm.esc_index), per_row(tm.lease), yearly(tm.decom_t),
                         yearly(tm.shares), per_row(tm.tax_rate), capex, yearly(schedule.interest),
                         yearly(schedule.debt_service), per_row(equity0),
-                        disc(r), disc(mt.real_rate(r, infl)), disc(eq), disc(rate_i), per_row(schedule.debt),
+                        disc(r), disc(mt.real_rate(r, infl)), disc(eq), disc(rate_i, debt_clock(scn)),
+                        per_row(schedule.debt),
                         _irr_start(irr_guess, "project_irr"), _irr_start(irr_guess, "equity_irr"), 1e-9, 50,
                         1.0 / (1.0 + mt.IRR_HIGH), 1.0 / (1.0 + mt.IRR_LOW), *wf_args, out)
     res = dict(zip(TRIAL_KEYS, out))

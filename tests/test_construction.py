@@ -124,3 +124,34 @@ def test_a_drawdown_that_does_not_fit_is_refused():
                                                        "drawdown": [0.5, 0.4]}})
     with pytest.raises(ScenarioError, match=r"construction.financial_close = '2027-01-01': must be a date"):
         sc.load(DEMO).with_overrides({"construction": {"financial_close": "2027-01-01", "months": 6}})
+
+
+def test_the_llcr_runs_on_the_debts_clock(built):
+    """Sculpted at 1.30x on the sizing case, every tenor year's DSCR is 1.30, so the LLCR (PV of
+    CFADS over PV of debt service, at the debt rate on the same clock) is 1.30 too, with a half
+    first year as without one."""
+    from lcoe.analysis import lender
+    scn, case = built
+    r = lender.run_case(scn, case, lender.LenderCase("sizing", "sizing", energy_case="p90_1yr"))
+    assert r.metrics["min_dscr"] == pytest.approx(1.30, rel=1e-9)
+    assert r.metrics["llcr"] == pytest.approx(1.30, rel=1e-9)
+
+
+def test_the_lender_demo_prints_every_new_table():
+    """`lcoe run assumptions/tallowmere_ridge_lender.toml` shows the sources and uses, the cash
+    waterfall and the lender cases (its own case among them); the JSON has the blocks."""
+    import json
+    import subprocess
+    import sys
+    from conftest import ROOT
+    path = ROOT / "assumptions" / "tallowmere_ridge_lender.toml"
+    out = subprocess.run([sys.executable, "-m", "lcoe", "run", str(path), "--trials", "500"], capture_output=True,
+                         text=True, check=True).stdout
+    for title in ("Sources and uses of funds", "Cash waterfall", "Lender cases", "P(lock-up in any year)",
+                  "O&M +20 %, P90 10-yr energy"):
+        assert title in out, title
+    d = json.loads(subprocess.run([sys.executable, "-m", "lcoe", "run", str(path), "--trials", "500", "--json"],
+                                  capture_output=True, text=True, check=True).stdout)
+    assert d["sources_and_uses"]["balanced"] and d["sources_and_uses"]["construction_months"] == 18
+    assert "om_plus_20_p90_10yr" in d["lender_cases"] and "prob_dsra_drawn" in d["montecarlo"]
+    assert d["annual"][1]["period_end"] == "2028-12-31"
