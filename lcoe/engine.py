@@ -185,8 +185,6 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     tm = cashflow.terms(scn, energy, overrides, sample)
     n, L = tm.inp.n, scn.lifetime
     r, infl, eq, rate_i = _metric_rates(scn, tm.inp)
-    if overrides:
-        refuse_unread(overrides, tm.inp.read, locked=True)
 
     def yearly(a, cols=L):
         a = np.asarray(a, float)
@@ -213,6 +211,8 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
         wf_args = (False, yearly(0.0, L + 1), yearly(0.0, L + 1), per_row(0.0), per_row(0.0))
     out = np.empty((len(TRIAL_KEYS), n))
     equity0, _ = cashflow.equity_before_reserves(scn, tm.inp, cap, schedule, structure)
+    if overrides:
+        refuse_unread(overrides, tm.inp.read, locked=True)
     _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.operating_availability()), yearly(tm.downtime),
                         yearly(tm.degradation), ef, yearly(tm.price + tm.credit), yearly(tm.fixed_real),
                         per_row(tm.variable), yearly(tm.esc_index), per_row(tm.lease), yearly(tm.decom_t),

@@ -227,3 +227,18 @@ def test_the_yearly_rows_csv_and_table_carry_the_waterfall(demo_reserved, tmp_pa
     assert head[:len(engine.ANNUAL_KEYS)] == list(engine.ANNUAL_KEYS) and "dsra_balance" in head
     table = rp.to_table(rep)
     assert "Cash waterfall" in table
+
+
+def test_monte_carlo_may_draw_the_waterfall_terms(demo_reserved):
+    """A drawn deposit rate and lock-up threshold are read by the trials (not refused as
+    unused); both routes agree and a higher threshold locks up more trials."""
+    from lcoe.analysis import montecarlo as mc
+    scn, case = demo_reserved
+    n = 256
+    inputs = {"reserves.deposit_rate": np.linspace(0.0, 0.05, n), "waterfall.lockup_dscr": np.linspace(1.0, 1.6, n)}
+    _, sample = mc.draw_block(scn, n, mc._block_rng(9, 0), scn.lifetime)
+    fused = mc.run_trials(scn, case, inputs, sample, fused=True)
+    arrays = mc.run_trials(scn, case, inputs, sample, fused=False)
+    for k in engine.WATERFALL_TRIAL_KEYS + ("equity_irr",):
+        np.testing.assert_allclose(fused[k], arrays[k], rtol=1e-11, atol=1e-6, err_msg=k)
+    assert fused["lockup_any"][: n // 4].mean() < fused["lockup_any"][-n // 4:].mean()
