@@ -305,6 +305,12 @@ def locked_schedule(scn, debt) -> Schedule | None:
     if years != scn.lifetime:
         raise ScenarioError(f"must equal the locked debt schedule's {years} years: the debt is fixed at close",
                             key="project.lifetime_years", value=scn.lifetime)
+    share = cashflow.period_share(scn)
+    if float(np.asarray(sched.debt).ravel()[0]) > 0 and not (
+            (share is None and sched.period is None) or
+            (share is not None and sched.period is not None and np.array_equal(share, sched.period))):
+        raise ScenarioError("must give the locked debt's first operating year: the schedule's interest and "
+                            "debt service are fixed at close for its length", key="construction", has_value=False)
     if scn.finance.debt is None and float(np.asarray(sched.debt).ravel()[0]) > 0:
         raise ScenarioError("is missing: a locked debt needs the scenario's debt table (its interest rate "
                             "discounts the LLCR)", key="finance.debt", has_value=False)

@@ -155,3 +155,19 @@ def test_the_lender_demo_prints_every_new_table():
     assert d["sources_and_uses"]["balanced"] and d["sources_and_uses"]["construction_months"] == 18
     assert "om_plus_20_p90_10yr" in d["lender_cases"] and "prob_dsra_drawn" in d["montecarlo"]
     assert d["annual"][1]["period_end"] == "2028-12-31"
+
+
+def test_a_locked_debt_keeps_its_first_year(built):
+    """The base's schedule was sized with a half first year: a scenario whose first year differs
+    cannot meet it, and a lender case cannot move the construction period."""
+    scn, case = built
+    with pytest.raises(ScenarioError, match=r"^construction: must give the locked debt's first operating year"):
+        engine.run(sc.load(DEMO), debt=case)
+    other = scn.with_overrides({"construction.months": 12})
+    with pytest.raises(ScenarioError, match="construction: must give"):
+        engine.run(other, debt=case)
+    import tomllib
+    raw = tomllib.loads((DEMO.parent / "tallowmere_ridge_lender.toml").read_text())
+    raw["lender_cases"]["late"] = {"construction.months": 24}
+    with pytest.raises(ScenarioError, match=r"lender_cases.late.construction.months = 24: a lender case cannot"):
+        sc.from_dict(raw, source="x.toml", base_dir=DEMO.parent)

@@ -29,6 +29,7 @@ class Schedule:
     gearing_bound: np.ndarray  # (n, 1) bool
     interest_rate: object = None   # the rate the schedule was amortised at (float or (n, 1))
     target_dscr: object = None     # the target of each year, float or (1 or n, L): contracted / merchant
+    period: object = None          # None, or (L,) the length of each year (a partial first year)
 
 
 def elapsed(years: int, period=None) -> np.ndarray:
@@ -126,4 +127,4 @@ def size_debt(operating, energy_t, case_factor, decom_t, dep, capex, tax_rate, t
     debt = np.asarray(debt).reshape(-1, 1)
     fee = upfront_fee * debt
     return Schedule(debt, ds, interest, principal, opening, np.asarray(fee).reshape(-1, 1), cfads, it,
-                    np.asarray(bound).reshape(-1, 1), interest_rate, target_dscr)
+                    np.asarray(bound).reshape(-1, 1), interest_rate, target_dscr, period)

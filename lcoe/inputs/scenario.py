@@ -281,8 +281,9 @@ def _check_lender_case(scn: Scenario, name: str, table: Any) -> None:
     overrides = {k: v for k, v in table.items() if k not in LENDER_CASE_FIELDS}
     _check_override_table(scn, "lender_cases", name, overrides,
                           refused=("variants", "lender_cases", "schema_version", "montecarlo", "project",
-                                   "finance.debt"),
-                          why=" (the debt and the life are fixed at close; a lender case runs against them)")
+                                   "finance.debt", "construction"),
+                          why=" (the debt, the life and the construction period are fixed at close; a lender "
+                              "case runs against them)")
 
 
 def _check_variant_key(scn: Scenario, name: str, key: str, value: Any, section: str = "variants") -> None:
