@@ -317,7 +317,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
             ds = float(sched.debt_service[0, t - 1])
             if ds > 0:
                 dscr.append(cfads[t] / ds)
-                pv += cfads[t] * (1 + i_rate) ** -t
+                pv += cfads[t] * (1 + i_rate) ** -(t - 1 + first_share)   # the debt's clock
         out.update(min_dscr=min(dscr), avg_dscr=sum(dscr) / len(dscr), llcr=pv / debt)
     return out
 
