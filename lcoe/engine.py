@@ -48,7 +48,7 @@ ANNUAL_KEYS = ("year", "energy_mwh", "availability", "price_per_mwh", "revenue",
                "dscr", "project_cash_flow", "equity_cash_flow")
 PRICE_KEY = "revenue.ppa_price_per_mwh"
 # the cash waterfall's lines in the yearly rows (lcoe.finance.waterfall; its equity line is equity_cash_flow)
-WATERFALL_ANNUAL_KEYS = tuple(k for k in wf.LINES if k != "equity_cash_flow")
+WATERFALL_ANNUAL_KEYS = wf.SHOWN
 
 
 def batch_metrics(scn, flows: Flows, overrides: dict | None = None, irr_guess: dict | None = None,
@@ -206,9 +206,10 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     if structure is not None:
         _, dsra_t, mra_t = cashflow.waterfall_targets(structure, schedule.debt_service, tm)
         wf_args = (True, yearly(dsra_t, L + 1), yearly(mra_t, L + 1), per_row(structure.deposit_rate),
-                   per_row(structure.lockup_dscr))
+                   per_row(structure.lockup_dscr), structure.sweep,
+                   yearly(schedule.balance_open + schedule.interest - schedule.debt_service))
     else:
-        wf_args = (False, yearly(0.0, L + 1), yearly(0.0, L + 1), per_row(0.0), per_row(0.0))
+        wf_args = (False, yearly(0.0, L + 1), yearly(0.0, L + 1), per_row(0.0), per_row(0.0), False, yearly(0.0))
     out = np.empty((len(TRIAL_KEYS), n))
     equity0, _ = cashflow.equity_before_reserves(scn, tm.inp, cap, schedule, structure)
     if overrides:

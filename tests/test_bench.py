@@ -14,7 +14,7 @@ from lcoe.inputs import scenario
 from lcoe.physics import energy as en
 
 
-@pytest.mark.parametrize("which", ["demo", "tax_losses_macrs", "demo_reserved", "demo_built"])
+@pytest.mark.parametrize("which", ["demo", "tax_losses_macrs", "demo_reserved", "demo_built", "demo_swept"])
 def test_plain_loop_equals_the_engine_trial_by_trial(which):
     if which == "demo":
         scn = _without_structure(scenario.load(DEMO))
@@ -30,6 +30,9 @@ def test_plain_loop_equals_the_engine_trial_by_trial(which):
                              "drawdown": "even", "commitment_fee": 0.006},
             "reserves": {"dsra_months": 6, "maintenance_years": 2, "deposit_rate": 0.01},
             "waterfall": {"lockup_dscr": 1.45}})
+    elif which == "demo_swept":
+        scn = scenario.load(DEMO).with_overrides({"reserves": {"dsra_months": 6, "maintenance_years": 3},
+                                                  "waterfall": {"lockup_dscr": 1.45, "cash_sweep": True}})
     else:
         raw = make_raw(**{"finance.depreciation": "macrs_5", "finance.tax_rate": 0.3})
         raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": 0.04,
@@ -47,8 +50,8 @@ def test_plain_loop_equals_the_engine_trial_by_trial(which):
         # numpy-financial npv/irr against the engine's vectorised NPV and Newton IRR
         engine = mc.samples[key] if key in mc.samples else mc.waterfall[key]
         np.testing.assert_allclose(values, engine, rtol=1e-9, atol=1e-6, err_msg=key)
-    assert ("lockup_any" in looped) == (which in ("demo_reserved", "demo_built"))
-    if which in ("demo_reserved", "demo_built"):
+    assert ("lockup_any" in looped) == (which in ("demo_reserved", "demo_built", "demo_swept"))
+    if which in ("demo_reserved", "demo_built", "demo_swept"):
         assert looped["lockup_any"].sum() > 0 and looped["dsra_drawn"].sum() > 0
 
 

@@ -126,11 +126,13 @@ def plain_funding(capex: float, debt: float, fee: float, dsra: float, c, rate: f
 
 
 def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, months: float, build_years: int,
-                    deposit: float, lockup: float, first_share: float = 1.0) -> dict:
+                    deposit: float, lockup: float, first_share: float = 1.0, sweep=None) -> dict:
     """The cash waterfall of one trial in plain Python (the order of lcoe.finance.waterfall):
     lists over t = 0..L; ``overhauls`` the nominal overhaul cost of each year. Returns the equity
     cash flow and whether any year was locked up, the DSRA drawn, debt service left unpaid, and
-    the cash trapped over the life."""
+    the cash trapped over the life. ``sweep``: None, or (pre-tax cash, taxable income before
+    interest, scheduled interest, scheduled closing balance, tax rate) for a cash sweep, which
+    also gives back the swept CFADS and debt service."""
     L = len(cfads) - 1
 
     def dsra_target(t):
@@ -146,9 +148,17 @@ def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, mont
         return total
 
     dsra, mra, trapped = dsra_target(0), mra_target(0), 0.0
+    left, pool = 1.0, 0.0          # the share of the scheduled debt still owed; the tax loss pool
+    cfads, ds = list(cfads), list(ds)
+    scheduled = list(ds)
     equity = [equity0 - dsra - mra]
     flags = {"lockup_any": 0.0, "dsra_drawn": 0.0, "unpaid_any": 0.0, "cash_trapped": 0.0}
     for t in range(1, L + 1):
+        if sweep is not None:
+            pre, taxable, interest, balance, rate = sweep
+            ds[t] = left * scheduled[t]
+            tax, pool = _carry_forward(taxable[t] - left * interest[t], pool, rate)
+            cfads[t] = pre[t] - tax
         cash = cfads[t] + deposit * (dsra + mra + trapped)
         if mra > mra_target(t):
             cash += mra - mra_target(t)
@@ -168,7 +178,7 @@ def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, mont
         if cash < 0:
             unpaid, cash = -cash, 0.0
             flags["unpaid_any"] = 1.0
-        target = dsra_target(t)
+        target = dsra_target(t) * (left if sweep is not None else 1.0)
         if dsra > target:
             cash += dsra - target
             dsra = target
@@ -180,7 +190,14 @@ def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, mont
             top = min(cash, mra_target(t) - mra)
             mra += top
             cash -= top
-        if lockup > 0 and ds[t] > 0 and cfads[t] / ds[t] < lockup:
+        if sweep is not None and lockup > 0 and ds[t] > 0 and cfads[t] / ds[t] < lockup:
+            flags["lockup_any"] = 1.0
+            owed = left * sweep[3][t]
+            prepay = min(cash, owed)
+            if owed > 0:
+                left *= 1.0 - prepay / owed
+            paid, trapped = cash - prepay + trapped, 0.0
+        elif lockup > 0 and ds[t] > 0 and cfads[t] / ds[t] < lockup:
             trapped += cash
             flags["lockup_any"] = 1.0
             flags["cash_trapped"] += cash
@@ -190,7 +207,7 @@ def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, mont
         if t == L:
             paid += dsra + mra + trapped
         equity.append(paid - unpaid)
-    return {"equity": equity, **flags}
+    return {"equity": equity, "cfads": cfads, "ds": ds, **flags}
 
 
 def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cost) -> dict:
@@ -235,6 +252,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
             raise ValueError("bench: the plain loop takes a financial close on the first of a month")
         first_share = (13 - cod.month) / 12.0
     energy, costs, project, cfads, ds_line, works_line = [0.0], [0.0], [-capex], [0.0], [0.0], [0.0]
+    pre_line, taxable_line = [0.0], [0.0]
     equity = [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
     pool_u = pool_l = 0.0
     for t in range(1, L + 1):
@@ -278,6 +296,8 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         cfads.append(pre_tax - tax_l)
         equity.append(pre_tax - tax_l - float(sched.debt_service[0, t - 1]))
         ds_line.append(float(sched.debt_service[0, t - 1]))
+        pre_line.append(pre_tax)
+        taxable_line.append(pre_tax - dep)
         works_line.append(works * (1 + esc) ** t)
     flags = {}
     res, wfall = scn.reserves, scn.waterfall
@@ -285,11 +305,18 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         dsra0 = res.dsra_months / 12.0 * ds_line[1] / first_share if res is not None else 0.0
         equity[0] = -(plain_funding(capex, float(sched.debt[0, 0]), float(sched.fee[0, 0]), dsra0, cons,
                                     scn.finance.debt.interest_rate if scn.finance.debt else 0.0) - dsra0)
+    swept_ds = [0.0] + [float(x) for x in sched.debt_service[0]]
     if res is not None or wfall is not None:
+        sweep = None
+        if wfall is not None and wfall.cash_sweep:
+            owed = [0.0] + [float(o + i - d) for o, i, d in zip(sched.balance_open[0], sched.interest[0],
+                                                                  sched.debt_service[0])]
+            sweep = (pre_line, taxable_line, [0.0] + [float(x) for x in sched.interest[0]], owed, tax_rate)
         flags = plain_waterfall(cfads, ds_line, works_line, equity[0], res.dsra_months if res else 0.0,
                                 res.maintenance_years if res else 0, res.deposit_rate if res else 0.0,
-                                wfall.lockup_dscr if wfall else 0.0, first_share)
+                                wfall.lockup_dscr if wfall else 0.0, first_share, sweep)
         equity = flags.pop("equity")
+        cfads, swept_ds = flags.pop("cfads"), flags.pop("ds")
     rate = get("finance.discount_rate", f.discount_rate)
     real = (1 + rate) / (1 + get("finance.inflation", f.inflation)) - 1
     disc = [(1 + rate) ** -t for t in range(L + 1)]
@@ -314,7 +341,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         i_rate = get("finance.debt.interest_rate", f.debt.interest_rate)
         dscr, pv = [], 0.0
         for t in range(1, L + 1):
-            ds = float(sched.debt_service[0, t - 1])
+            ds = swept_ds[t]
             if ds > 0:
                 dscr.append(cfads[t] / ds)
                 pv += cfads[t] * (1 + i_rate) ** -(t - 1 + first_share)   # the debt's clock

@@ -330,7 +330,8 @@ def _row(a, i):
 def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, energy_factor, price_credit,
                fixed_real, variable, esc_index, lease, decom, shares, tax_rate, capex, interest, debt_service,
                equity0, dc_nominal, dc_real, dc_equity, dc_debt, debt, guess_project, guess_equity, tol,
-               max_iter, x_low, x_high, has_waterfall, dsra_target, mra_target, deposit_rate, lockup_dscr, out):
+               max_iter, x_low, x_high, has_waterfall, dsra_target, mra_target, deposit_rate, lockup_dscr,
+               sweep, balance_close, out):
     """The lean yearly lines and every Monte Carlo metric of each trial, one row at a time.
 
     The same formulas, in the same order of operations, as ``lcoe.finance.cashflow.evaluate``
@@ -358,7 +359,11 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
     cfads = np.empty(L + 1)
     dscr = np.empty(L + 1)
     ds_row = np.empty(L + 1)
-    lines = np.zeros((16, L + 1))
+    lines = np.zeros((22, L + 1))
+    pre1 = np.zeros(L + 1)
+    tx1 = np.zeros(L + 1)
+    int1 = np.zeros(L + 1)
+    bal1 = np.zeros(L + 1)
     x_project = 1.0 / (1.0 + guess_project)
     x_equity = 1.0 / (1.0 + guess_equity)
     for i in range(n):
@@ -414,9 +419,21 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
             npv_project += project[t + 1] * dc_nominal[ni, t + 1]
         lock_any = drawn = unpaid = trapped = 0.0
         if has_waterfall:
+            if sweep:
+                bci = _row(balance_close, i)
+                for t in range(L):
+                    pre1[t + 1] = pre[t]
+                    tx1[t + 1] = taxable_u[t]
+                    int1[t + 1] = interest[ii, t]
+                    bal1[t + 1] = balance_close[bci, t]
             waterfall_one(cfads, ds_row, dsra_target[_row(dsra_target, i)], mra_target[_row(mra_target, i)],
                           deposit_rate[_row(deposit_rate, i)], lockup_dscr[_row(lockup_dscr, i)], equity0[e0i],
-                          lines)
+                          lines, sweep, pre1, tx1, int1, bal1, tax_rate[tri])
+            if sweep:
+                for t in range(1, L + 1):
+                    cfads[t] = lines[17, t]
+                    ds_row[t] = lines[18, t]
+                    dscr[t] = cfads[t] / ds_row[t] if ds_row[t] > 0 else np.nan
             for t in range(L + 1):
                 equity[t] = lines[15, t]
                 if lines[14, t] > 0:
@@ -448,12 +465,17 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
 
 
 @njit(cache=True, nogil=True)
-def waterfall_one(cfads, ds, a, b, rate, lock, equity0, lines):
+def waterfall_one(cfads, ds, a, b, rate, lock, equity0, lines, sweep, pre, taxable, interest, balance, tax_rate):
     """The cash waterfall of one row (``lcoe.finance.waterfall``, which documents the order and
     holds the array version): ``cfads``, ``ds`` and the DSRA and MRA targets ``a``, ``b`` over
-    t = 0..L; ``lines`` (16, L + 1) receives the lines in the order of ``waterfall.LINES``."""
+    t = 0..L; ``lines`` (22, L + 1) receives the lines in the order of ``waterfall.LINES``.
+    With ``sweep`` the cash of a locked-up year prepays the debt: the later debt service,
+    interest and balance fall pro rata, and each year's tax (losses carried forward) and CFADS
+    follow from ``pre`` (pre-tax cash), ``taxable`` (before interest) and the interest paid."""
     L1 = cfads.shape[0]
     lines[:, :] = 0.0
+    K = 1.0
+    pool = 0.0
     D = a[0]
     M = b[0]
     T = 0.0
@@ -463,10 +485,28 @@ def waterfall_one(cfads, ds, a, b, rate, lock, equity0, lines):
     lines[12, 0] = M
     lines[15, 0] = equity0 - D - M
     for t in range(1, L1):
+        c_t = cfads[t]
+        d_t = ds[t]
+        if sweep:
+            d_t = K * ds[t]
+            x = taxable[t] - K * interest[t]
+            tax = 0.0
+            if x <= 0.0:
+                pool -= x
+            elif pool >= x:
+                pool -= x
+            else:
+                tax = tax_rate * (x - pool)
+                pool = 0.0
+            c_t = pre[t] - tax
+            lines[19, t] = K * interest[t]
+            lines[20, t] = tax
+        lines[17, t] = c_t
+        lines[18, t] = d_t
         inc = rate * (D + M + T)
         mrel = max(M - b[t], 0.0)
         M = M - mrel
-        after = cfads[t] + inc + mrel - ds[t]
+        after = c_t + inc + mrel - d_t
         dd = min(D, max(-after, 0.0))
         D = D - dd
         after = after + dd
@@ -475,15 +515,25 @@ def waterfall_one(cfads, ds, a, b, rate, lock, equity0, lines):
         after = after + dt
         u = max(-after, 0.0)
         after = after + u
-        rel = max(D - a[t], 0.0)
-        top = min(after, max(a[t] - D, 0.0))
+        a_t = K * a[t] if sweep else a[t]
+        rel = max(D - a_t, 0.0)
+        top = min(after, max(a_t - D, 0.0))
         D = D - rel + top
         after = after + rel - top
         mtop = min(after, max(b[t] - M, 0.0))
         M = M + mtop
         after = after - mtop
-        locked = lock > 0 and ds[t] > 0 and cfads[t] / ds[t] < lock
-        if locked:
+        locked = lock > 0 and d_t > 0 and c_t / d_t < lock
+        prepaid = 0.0
+        if locked and sweep:
+            owed = K * balance[t]
+            prepaid = min(after, owed)
+            K = K * (1.0 - prepaid / owed) if owed > 0 else K
+            trapped = 0.0
+            released = T
+            dist = after - prepaid + T
+            T = 0.0
+        elif locked:
             trapped = after
             released = 0.0
             dist = 0.0
@@ -517,11 +567,17 @@ def waterfall_one(cfads, ds, a, b, rate, lock, equity0, lines):
         lines[13, t] = T
         lines[14, t] = 1.0 if locked else 0.0
         lines[15, t] = dist - u
+        lines[16, t] = prepaid
+        if sweep:
+            lines[21, t] = K * balance[t]
 
 
 @njit(cache=True, nogil=True)
-def waterfall_rows(cfads, ds, a, b, rate, lock, equity0, out):
-    """:func:`waterfall_one` for each row; ``out`` (16, rows, L + 1)."""
+def waterfall_rows(cfads, ds, a, b, rate, lock, equity0, out, sweep, pre, taxable, interest, balance, tax_rate):
+    """:func:`waterfall_one` for each row; ``out`` (22, rows, L + 1); with ``sweep`` the rows'
+    pre-tax cash, taxable income before interest, scheduled interest and closing balance, and
+    tax rate (each (rows, L + 1) or (rows,))."""
     for i in range(cfads.shape[0]):
-        waterfall_one(cfads[i], ds[i], a[i], b[i], rate[i], lock[i], equity0[i], out[:, i, :])
+        waterfall_one(cfads[i], ds[i], a[i], b[i], rate[i], lock[i], equity0[i], out[:, i, :], sweep, pre[i],
+                      taxable[i], interest[i], balance[i], tax_rate[i])
     return out

@@ -411,12 +411,27 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     structure = wf.structure_of(scn, inp)
     equity0, funding = equity_before_reserves(scn, inp, capex, sched, structure)
     lines = None
+    shown = None    # (interest, principal, closing balance) where a cash sweep moved them
     if structure is None:
         equity_line = _line(inp.n, L, equity0)
         np.subtract(cfads, ds, out=equity_line[:, 1:])
     else:
-        lines = waterfall_lines(structure, cfads_line, ds, equity0, tm)
+        swept = None   # the schedule at close stays the one a locked case meets; the flows show the swept lines
+        if structure.sweep:
+            zero = np.zeros((inp.n, 1))
+            t0 = lambda a: np.hstack([zero, np.broadcast_to(a, (inp.n, L))])  # noqa: E731
+            swept = (t0(pre_tax), t0(pre_tax - dep), t0(sched.interest),
+                     t0(sched.balance_open + sched.interest - sched.debt_service), tax_rate)
+        lines = waterfall_lines(structure, cfads_line, ds, equity0, tm, swept)
         equity_line = lines["equity_cash_flow"]
+        if swept is not None:          # the sweep moved the debt service, interest, tax and CFADS
+            cfads_line = lines["cfads"]
+            cfads = cfads_line[:, 1:]
+            ds = lines["debt_service"][:, 1:]
+            tax = lines["tax"][:, 1:]
+            dscr_line = _line(inp.n, L, np.nan)
+            np.divide(cfads, np.where(ds > 0, ds, np.nan), out=dscr_line[:, 1:])
+            shown = (lines["interest"][:, 1:], ds - lines["interest"][:, 1:], lines["balance"][:, 1:])
 
     def with_t0(a, t0=0.0, keep=False):
         if lean and not keep:
@@ -429,11 +444,14 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         return out
 
     balance_close = None if lean else sched.balance_open + sched.interest - ds
+    if shown is not None:
+        balance_close = None if lean else shown[2]
     return Flows(
         years=np.arange(0, L + 1), energy_mwh=energy_line, availability=with_t0(tm.availability),
         price_per_mwh=with_t0(price), revenue=with_t0(revenue, keep=True), opex=opex_line,
         capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t, keep=True), depreciation=with_t0(dep),
-        interest=with_t0(sched.interest), principal=with_t0(sched.principal),
+        interest=with_t0(sched.interest if shown is None else shown[0]),
+        principal=with_t0(sched.principal if shown is None else shown[1]),
         balance=with_t0(balance_close, sched.debt.ravel()), tax=with_t0(tax), tax_unlevered=with_t0(tax_u),
         cfads=cfads_line, debt_service=with_t0(ds, keep=True), dscr=dscr_line,
         project_cash_flow=project_line, equity_cash_flow=equity_line,
@@ -485,10 +503,11 @@ def waterfall_targets(structure, debt_service, tm: Terms):
             wf.mra_targets(oh, structure.mra_years))
 
 
-def waterfall_lines(structure, cfads_line, debt_service, equity0, tm: Terms) -> dict:
-    """The waterfall of a batch (lcoe.finance.waterfall); ``cfads_line`` (n, L + 1)."""
+def waterfall_lines(structure, cfads_line, debt_service, equity0, tm: Terms, sweep=None) -> dict:
+    """The waterfall of a batch (lcoe.finance.waterfall); ``cfads_line`` (n, L + 1); ``sweep``
+    the lines a cash sweep needs (see :func:`lcoe.finance.waterfall.run_rows`)."""
     ds_line, a, b = waterfall_targets(structure, debt_service, tm)
-    return wf.run_rows(cfads_line, ds_line, equity0, a, b, structure.deposit_rate, structure.lockup_dscr)
+    return wf.run_rows(cfads_line, ds_line, equity0, a, b, structure.deposit_rate, structure.lockup_dscr, sweep)
 
 
 def _line(rows: int, years: int, t0) -> np.ndarray:

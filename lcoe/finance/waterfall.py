@@ -19,6 +19,13 @@ sheets; lenders' models vary in the details):
    in a year that passes, the cash left and any trapped cash are distributed;
 7. in year L every balance is released and distributed.
 
+With a cash sweep (``waterfall.cash_sweep``) step 6 differs: the cash left in a locked-up year
+prepays the senior debt (up to what is owed) instead of being trapped. The prepayment is pro
+rata: every later debt service and interest fall by the share of the debt repaid, so each
+year's tax (losses carried forward) and CFADS are worked out again in the loop from the pre-tax
+cash, the taxable income before interest and the swept interest; the DSRA target follows the
+swept debt service.
+
 At t = 0 the DSRA is funded to its first target (N/12 of year 1's debt service), a use of
 funds paid by equity. Equity cash flow: -(equity contribution) at t = 0, then distributions
 less sponsor-funded debt service. Without reserves and lock-up this is CFADS - debt service,
@@ -40,8 +47,12 @@ from lcoe.finance import _kernels  # compiled loops; tests set it to None to run
 # the yearly lines of the waterfall, in the order of the compiled kernel's output
 LINES = ("reserve_interest", "mra_release", "dsra_draw", "lockup_draw", "unpaid_debt_service", "dsra_release",
          "dsra_topup", "mra_topup", "cash_trapped", "trapped_released", "distributions", "dsra_balance",
-         "mra_balance", "lockup_balance", "lockup", "equity_cash_flow")
+         "mra_balance", "lockup_balance", "lockup", "equity_cash_flow", "prepayment", "cfads", "debt_service",
+         "interest", "tax", "balance")
 N_LINES = len(LINES)
+# the lines the yearly rows show; with a cash sweep the last five replace the engine's own lines
+SHOWN = LINES[:15] + ("prepayment",)
+SWEPT = ("cfads", "debt_service", "interest", "tax", "balance")
 
 
 @dataclass(frozen=True)
@@ -53,6 +64,7 @@ class Structure:
     mra_years: int = 0
     deposit_rate: object = 0.0
     lockup_dscr: object = 0.0
+    sweep: bool = False
 
 
 def structure_of(scn, inp=None) -> Structure | None:
@@ -66,7 +78,8 @@ def structure_of(scn, inp=None) -> Structure | None:
         dsra_months=0.0 if res is None else read("reserves.dsra_months", res.dsra_months),
         mra_years=0 if res is None else res.maintenance_years,
         deposit_rate=0.0 if res is None else read("reserves.deposit_rate", res.deposit_rate),
-        lockup_dscr=0.0 if wf is None else read("waterfall.lockup_dscr", wf.lockup_dscr))
+        lockup_dscr=0.0 if wf is None else read("waterfall.lockup_dscr", wf.lockup_dscr),
+        sweep=bool(wf is not None and wf.cash_sweep))
 
 
 def dsra_targets(debt_service, months, period=None) -> np.ndarray:
@@ -103,12 +116,21 @@ def mra_targets(overhaul_nominal, years_before: int) -> np.ndarray:
     return out
 
 
-def run_rows(cfads, debt_service, equity0, dsra_target, mra_target, deposit_rate, lockup_dscr) -> dict:
+def run_rows(cfads, debt_service, equity0, dsra_target, mra_target, deposit_rate, lockup_dscr, sweep=None) -> dict:
     """The waterfall of a batch: ``cfads``, ``debt_service`` (rows or 1, L + 1) with column 0 =
     t = 0; targets (rows or 1, L + 1); ``equity0`` the equity contribution before reserves
-    (rows,) (negative); rates per row or one. Returns line name -> (rows, L + 1) array."""
+    (rows,) (negative); rates per row or one. ``sweep``: None, or (pre-tax cash, taxable income
+    before interest, scheduled interest, scheduled closing balance, tax rate), the lines
+    (rows or 1, L + 1) and the rate per row, for a cash sweep. Returns line name -> (rows, L + 1)."""
     cfads = np.asarray(cfads, float)
     n, L1 = cfads.shape[0], cfads.shape[1]
+    if sweep is not None:
+        pre, taxable, interest, balance = (np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (n, L1)))
+                                           for x in sweep[:4])
+        tax_rate = np.ascontiguousarray(np.broadcast_to(np.asarray(sweep[4], float).reshape(-1), (n,)))
+    else:
+        pre = taxable = interest = balance = np.zeros((n, L1))
+        tax_rate = np.zeros(n)
     ds = np.broadcast_to(np.asarray(debt_service, float), (n, L1))
     a = np.broadcast_to(np.asarray(dsra_target, float), (n, L1))
     b = np.broadcast_to(np.asarray(mra_target, float), (n, L1))
@@ -119,35 +141,59 @@ def run_rows(cfads, debt_service, equity0, dsra_target, mra_target, deposit_rate
         _kernels.waterfall_rows(np.ascontiguousarray(cfads), np.ascontiguousarray(ds), np.ascontiguousarray(a),
                                 np.ascontiguousarray(b), np.ascontiguousarray(rate), np.ascontiguousarray(lock),
                                 np.ascontiguousarray(np.broadcast_to(np.asarray(equity0, float).reshape(-1), (n,))),
-                                out)
+                                out, sweep is not None, pre, taxable, interest, balance, tax_rate)
         return dict(zip(LINES, out))
     out = {k: np.zeros((n, L1)) for k in LINES}
     D, M, T = a[:, 0].copy(), b[:, 0].copy(), np.zeros(n)
+    K, pool = np.ones(n), np.zeros(n)
     out["dsra_topup"][:, 0], out["mra_topup"][:, 0] = D, M
     out["dsra_balance"][:, 0], out["mra_balance"][:, 0] = D, M
     out["equity_cash_flow"][:, 0] = np.asarray(equity0, float).reshape(-1) - D - M
     for t in range(1, L1):
+        c_t, d_t = cfads[:, t], ds[:, t]
+        if sweep is not None:
+            d_t = K * ds[:, t]
+            x = taxable[:, t] - K * interest[:, t]
+            used = np.where(x > 0, np.minimum(pool, x), 0.0)
+            tax = np.where(x > 0, tax_rate * (x - used), 0.0)
+            pool = np.where(x > 0, pool - used, pool - x)
+            c_t = pre[:, t] - tax
+            out["interest"][:, t], out["tax"][:, t] = K * interest[:, t], tax
+        out["cfads"][:, t], out["debt_service"][:, t] = c_t, d_t
         inc = rate * (D + M + T)
         mrel = np.maximum(M - b[:, t], 0.0)
         M = M - mrel
-        after = cfads[:, t] + inc + mrel - ds[:, t]
+        after = c_t + inc + mrel - d_t
         dd = np.minimum(D, np.maximum(-after, 0.0))
         D, after = D - dd, after + dd
         dt = np.minimum(T, np.maximum(-after, 0.0))
         T, after = T - dt, after + dt
         u = np.maximum(-after, 0.0)
         after = after + u
-        rel = np.maximum(D - a[:, t], 0.0)
-        top = np.minimum(after, np.maximum(a[:, t] - D, 0.0))
+        a_t = K * a[:, t] if sweep is not None else a[:, t]
+        rel = np.maximum(D - a_t, 0.0)
+        top = np.minimum(after, np.maximum(a_t - D, 0.0))
         D, after = D - rel + top, after + rel - top
         mtop = np.minimum(after, np.maximum(b[:, t] - M, 0.0))
         M, after = M + mtop, after - mtop
         with np.errstate(divide="ignore", invalid="ignore"):
-            locked = (lock > 0) & (ds[:, t] > 0) & (cfads[:, t] / np.where(ds[:, t] > 0, ds[:, t], 1.0) < lock)
-        trapped = np.where(locked, after, 0.0)
-        released = np.where(locked, 0.0, T)
-        dist = np.where(locked, 0.0, after + T)
-        T = np.where(locked, T + after, 0.0)
+            locked = (lock > 0) & (d_t > 0) & (c_t / np.where(d_t > 0, d_t, 1.0) < lock)
+        prepaid = np.zeros(n)
+        if sweep is not None:
+            owed = K * balance[:, t]
+            prepaid = np.where(locked, np.minimum(after, owed), 0.0)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                K = np.where(locked & (owed > 0), K * (1.0 - prepaid / np.where(owed > 0, owed, 1.0)), K)
+            out["balance"][:, t] = K * balance[:, t]
+            trapped = np.zeros(n)
+            released = T
+            dist = after - prepaid + T
+            T = np.zeros(n)
+        else:
+            trapped = np.where(locked, after, 0.0)
+            released = np.where(locked, 0.0, T)
+            dist = np.where(locked, 0.0, after + T)
+            T = np.where(locked, T + after, 0.0)
         if t == L1 - 1:                      # the end of the life: every balance is released
             dist = dist + D + M + T
             rel, released, mrel = rel + D, released + T, mrel + M
@@ -156,6 +202,6 @@ def run_rows(cfads, debt_service, equity0, dsra_target, mra_target, deposit_rate
                      ("unpaid_debt_service", u), ("dsra_release", rel), ("dsra_topup", top), ("mra_topup", mtop),
                      ("cash_trapped", trapped), ("trapped_released", released), ("distributions", dist),
                      ("dsra_balance", D), ("mra_balance", M), ("lockup_balance", T),
-                     ("lockup", locked.astype(float)), ("equity_cash_flow", dist - u)):
+                     ("lockup", locked.astype(float)), ("equity_cash_flow", dist - u), ("prepayment", prepaid)):
             out[k][:, t] = v
     return out

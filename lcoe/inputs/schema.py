@@ -339,6 +339,7 @@ class Reserves(_Model):
 class Waterfall(_Model):
     """The lock-up test of the cash waterfall."""
     lockup_dscr: Annotated[float, Field(ge=1.0, le=5.0)] = 1.10        # no distributions below this DSCR
+    cash_sweep: bool = False      # in a locked-up year the cash left prepays the debt instead of waiting
 
 
 class SpeedTerm(_Model):
