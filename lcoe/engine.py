@@ -211,7 +211,7 @@ def trial_metrics(scn, energy: en.EnergyResult, *, overrides=None, sample: Sampl
     else:
         wf_args = (False, yearly(0.0, L + 1), yearly(0.0, L + 1), per_row(0.0), per_row(0.0), False, yearly(0.0))
     out = np.empty((len(TRIAL_KEYS), n))
-    equity0, _ = cashflow.equity_before_reserves(scn, tm.inp, cap, schedule, structure)
+    equity0, _ = cashflow.equity_before_reserves(scn, tm.inp, cap, schedule, structure, lines=False)
     if overrides:
         refuse_unread(overrides, tm.inp.read, locked=True)
     _kernels.trial_rows(ratio, gross, per_row(tm.loss_factor), yearly(tm.operating_availability()), yearly(tm.downtime),

@@ -171,3 +171,16 @@ def test_a_locked_debt_keeps_its_first_year(built):
     raw["lender_cases"]["late"] = {"construction.months": 24}
     with pytest.raises(ScenarioError, match=r"lender_cases.late.construction.months = 24: a lender case cannot"):
         sc.from_dict(raw, source="x.toml", base_dir=DEMO.parent)
+
+
+@pytest.mark.parametrize("order", ["equity_first", "pro_rata"])
+def test_the_compiled_funding_loop_is_the_array_one(monkeypatch, order):
+    rng = np.random.default_rng(1)
+    capex = rng.uniform(500, 1500, 50)
+    debt = capex * rng.uniform(0.3, 0.8, 50)
+    shares, lengths = build.drawdown_shares("s_curve", 20), build.quarters(20)
+    args = (capex, debt, 0.01 * debt, rng.uniform(0, 30, 50), shares, lengths, 0.06, rng.uniform(0, 0.01, 50), order)
+    compiled = build.equity_rows(*args)
+    np.testing.assert_allclose(compiled, build.fund(*args).equity, rtol=1e-12)
+    monkeypatch.setattr(build, "_kernels", None)
+    np.testing.assert_array_equal(build.equity_rows(*args), build.fund(*args).equity)

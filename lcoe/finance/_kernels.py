@@ -581,3 +581,46 @@ def waterfall_rows(cfads, ds, a, b, rate, lock, equity0, out, sweep, pre, taxabl
         waterfall_one(cfads[i], ds[i], a[i], b[i], rate[i], lock[i], equity0[i], out[:, i, :], sweep, pre[i],
                       taxable[i], interest[i], balance[i], tax_rate[i])
     return out
+
+
+@njit(cache=True, nogil=True)
+def fund_rows(capex, debt, fee, dsra, shares, qrate, cshare, equity_first, tol, max_iter, out):
+    """The equity of each row's construction funding (``lcoe.finance.construction.fund``, which
+    documents it and holds the array version): per-row ``capex``, ``debt``, ``fee``, ``dsra``
+    (1 or n,), the quarters' ``shares`` and interest ``qrate``, the commitment fee per quarter
+    ``cshare`` (1 or n, Q). ``out`` (n,) receives uses - debt."""
+    q = shares.shape[0]
+    for i in range(out.shape[0]):
+        cap = capex[_row(capex, i)]
+        d = debt[_row(debt, i)]
+        f = fee[_row(fee, i)]
+        a = dsra[_row(dsra, i)]
+        ci = _row(cshare, i)
+        idc = 0.0
+        cf = 0.0
+        limit = tol * max(cap, 1.0)
+        for _ in range(max_iter):
+            uses = cap + f + idc + cf + a
+            left = uses - d
+            g = d / uses if uses > 0 else 0.0
+            e0 = min(f, left) if equity_first else f * (1.0 - g)
+            left -= e0
+            bal = f - e0
+            new_idc = 0.0
+            new_cf = 0.0
+            for k in range(q):
+                ik = bal * qrate[k]
+                ck = max(d - bal, 0.0) * cshare[ci, k]
+                use = cap * shares[k] + ik + ck + (a if k == q - 1 else 0.0)
+                e = min(use, max(left, 0.0)) if equity_first else use * (1.0 - g)
+                left -= e
+                bal += use - e
+                new_idc += ik
+                new_cf += ck
+            done = abs(new_idc - idc) <= limit and abs(new_cf - cf) <= limit
+            idc = new_idc
+            cf = new_cf
+            if done:
+                break
+        out[i] = cap + f + idc + cf + a - d
+    return out

@@ -473,10 +473,11 @@ def period_share(scn):
     return None if share[0] == 1.0 else share
 
 
-def equity_before_reserves(scn, inp: Inputs, capex, sched: Schedule, structure):
+def equity_before_reserves(scn, inp: Inputs, capex, sched: Schedule, structure, lines: bool = True):
     """(the equity contribution at t = 0 before the reserves' first funding, per row (negative);
     the construction funding or None). Without ``[construction]``: -(capex + upfront fee - debt);
-    with it, IDC and the commitment fee are uses too (lcoe.finance.construction.fund)."""
+    with it, IDC and the commitment fee are uses too (lcoe.finance.construction.fund; with
+    ``lines=False`` only the equity, by the compiled row loop, and no funding lines)."""
     plain = -(capex + sched.fee - sched.debt).ravel()
     c = scn.construction
     if c is None:
@@ -487,9 +488,12 @@ def equity_before_reserves(scn, inp: Inputs, capex, sched: Schedule, structure):
     if structure is not None:
         dsra0 = wf.dsra_targets(np.asarray(sched.debt_service, float), structure.dsra_months,
                                 period_share(scn))[:, 0]
-    funding = build.fund(capex, sched.debt, sched.fee, dsra0, build.drawdown_shares(c.drawdown, c.months),
-                         build.quarters(c.months), float(np.asarray(rate, float).ravel()[0]),
-                         inp("construction.commitment_fee", c.commitment_fee), c.funding)
+    args = (capex, sched.debt, sched.fee, dsra0, build.drawdown_shares(c.drawdown, c.months),
+            build.quarters(c.months), float(np.asarray(rate, float).ravel()[0]),
+            inp("construction.commitment_fee", c.commitment_fee), c.funding)
+    if not lines:
+        return -(build.equity_rows(*args) - dsra0), None
+    funding = build.fund(*args)
     return -(funding.equity - funding.dsra), funding
 
 
