@@ -134,3 +134,10 @@ def test_the_report_has_the_lender_cases_block_and_table():
     line = next(x for x in table.splitlines() if x.strip().startswith("P99 1-yr energy"))
     assert f"{block['p99_1yr']['min_dscr']:.3f}" in line
     assert all(len(x) <= 100 for x in table.splitlines() if "DSCR" in x and "Case" in x)
+
+
+def test_too_many_lender_cases_are_refused():
+    from lcoe.inputs.errors import ScenarioError
+    from lcoe.inputs.schema import MAX_VARIANTS
+    with pytest.raises(ScenarioError, match=rf"lender_cases: {MAX_VARIANTS + 1} lender cases; a scenario runs at most"):
+        _with_cases(**{f"c{i}": {"maintenance.fixed_per_kw_year": 40.0} for i in range(MAX_VARIANTS + 1)})

@@ -213,6 +213,10 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
         if isinstance(variants, dict) and len(variants) > MAX_VARIANTS:
             raise ScenarioError(f"{len(variants)} variants; a scenario compares at most {MAX_VARIANTS}",
                                 key="variants", has_value=False)
+        cases = raw.get("lender_cases")
+        if isinstance(cases, dict) and len(cases) > MAX_VARIANTS:
+            raise ScenarioError(f"{len(cases)} lender cases; a scenario runs at most {MAX_VARIANTS}",
+                                key="lender_cases", has_value=False)
         version = raw.get("schema_version")
         if version is None:
             raise ScenarioError(f"is required (this program reads version {SCHEMA_VERSION})", key="schema_version",
