@@ -23,12 +23,14 @@ class Report:
     montecarlo: object | None = None                # montecarlo.MonteCarloResult
     sensitivity: object | None = None               # sensitivity.SensitivitySet (shown by the workbook only)
     lender: list | None = None                      # lender.LenderResult per case (debt locked at close)
+    as_run: dict = field(default_factory=dict)      # changes made on the command line (variant, set, seed)
 
     def to_dict(self) -> dict:
         c = self.case
         warnings = list(c.warnings)
         out = {
             "scenario": c.scenario.project.name,
+            **({"as_run": dict(self.as_run)} if self.as_run else {}),
             "warnings": warnings,
             "energy": c.energy.report(),
             **directions_blocks(c.energy),

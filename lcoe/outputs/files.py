@@ -66,10 +66,12 @@ def _identity(path: Path) -> tuple | None:
 
 
 def check_output(path, *, option: str, inputs: Iterable[tuple[str, Path]] = (), force: bool = False,
-                 stdout: bool = True) -> Path | None:
+                 stdout: bool = True, suffix: str | None = None) -> Path | None:
     """Refuse an output path that would destroy or misplace something; None for ``-`` (standard output).
 
     ``inputs`` are (label, path) pairs of the files the run reads: the output may be none of them.
+    ``suffix`` (``.xlsx``, ``.csv``): the file name must end with it, in any case, so that a file is
+    never written under another format's name.
     """
     text = os.fspath(path) if path is not None else ""
     if not text.strip():
@@ -80,6 +82,14 @@ def check_output(path, *, option: str, inputs: Iterable[tuple[str, Path]] = (), 
         return None
     if "\x00" in text:
         raise ScenarioError("the path contains a NUL character", key=option, value=text)
+    p = _safe_path(text, option, inputs, force)
+    if suffix is not None and p.suffix.lower() != suffix:
+        raise ScenarioError(f"writes a {suffix} file: give a name ending in {suffix}", key=option, value=text)
+    return p
+
+
+def _safe_path(text: str, option: str, inputs, force: bool) -> Path:
+    """The checks of :func:`check_output` on a file path (not standard output)."""
     p = Path(text)
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
