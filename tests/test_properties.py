@@ -345,6 +345,8 @@ def _has_reason(path, report) -> bool:
             any(word in w for w in warnings if not w.startswith("variant "))
     if head == "lender_cases":
         return any(w.startswith(f"lender_cases.{path[1]}.{path[2]} is null: ") for w in warnings)
+    if head in ("financing", "sources_and_uses"):   # the report's own blocks name the null by its dotted key
+        return any(f"{'.'.join(map(str, path))} is null" in w for w in warnings)
     if head == "montecarlo":
         key = path[2] if path[1] == "p90_standard_error" else path[1]
         return any(f"montecarlo.{key} is null" in w or f"montecarlo: {key} undefined" in w or

@@ -30,6 +30,19 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("file")
     _command(c, "lcoe.cli.run:cmd_check")
 
+    n = sub.add_parser("new", help="write a commented scenario for a new site, with a power-curve template",
+                       description="Write PATH (.toml), a complete scenario whose comments give every key's unit, "
+                                   "range and default, and PATH's stem + _curve.csv beside it; both invented, ready "
+                                   "to run and to edit. Existing files are never replaced.")
+    n.add_argument("path", metavar="PATH", help="the new scenario file (.toml)")
+    _command(n, "lcoe.cli.scaffold:cmd_new")
+
+    k = sub.add_parser("keys", help="every scenario key with its unit, range, default and meaning",
+                       description="Print the reference of the scenario keys, built from the schema the files "
+                                   "are checked against.")
+    k.add_argument("section", nargs="?", metavar="SECTION", help="one section, e.g. finance or finance.debt")
+    _command(k, "lcoe.cli.scaffold:cmd_keys")
+
     r = sub.add_parser("run", help="energy, costs, cash flow and metrics of a scenario")
     r.add_argument("file")
     r.add_argument("--json", action="store_true", help="print the JSON report")

@@ -22,7 +22,7 @@ from lcoe.analysis.sensitivity import (
     sweep,
     tornado,
 )
-from lcoe.analysis.study import clean
+from lcoe.analysis.study import clean, file_block, units_block
 from lcoe.cli import progress
 from lcoe.cli.options import key_number
 from lcoe.engine import run
@@ -69,8 +69,11 @@ def _head(scn, width) -> list[str]:
     return heading(scn.project.name, scn.source, width=width)
 
 
-def _print_json(obj) -> None:
-    print(json.dumps(clean(obj), indent=2, allow_nan=False))
+def _print_json(obj, scn) -> None:
+    """The JSON of a command: after the scenario's name, the file it was read from (path, SHA-256)
+    and the units, as in the report of ``lcoe run``."""
+    head = {"scenario": obj.pop("scenario"), **file_block(scn), "units": units_block(scn)}
+    print(json.dumps(clean({**head, **obj}), indent=2, allow_nan=False))
 
 
 def _widths(args) -> tuple[int, int | None]:
@@ -116,7 +119,7 @@ def _cmd_sweep(args, scn) -> int:
     energy = energy_depends(scn, rows)
     if args.json:
         _print_json({"scenario": scn.project.name, "key": args.key, "energy_depends_on_key": energy, "rows": rows,
-                     "warnings": notes})
+                     "warnings": notes}, scn)
         return 0
     cur = scn.project.currency
     width, tw = _widths(args)
@@ -167,7 +170,7 @@ def _cmd_tornado(args, scn) -> int:
     notes = null_reasons(scn, rows, [metric])
     if args.json:
         _print_json({"scenario": scn.project.name, "metric": metric,
-                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes})
+                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes}, scn)
         return 0
     cur = scn.project.currency
     width, tw = _widths(args)
@@ -236,7 +239,7 @@ def _cmd_solve(args, scn) -> int:
                  for v, name in ((args.low, "--low"), (args.high, "--high")))
     res = solve(scn, target_metric=metric, target_value=value, vary_key=args.key, low=low, high=high)
     if args.json:
-        _print_json({"scenario": scn.project.name, **res})
+        _print_json({"scenario": scn.project.name, **res}, scn)
         return 0
     cur = scn.project.currency
     width, _ = _widths(args)

@@ -57,6 +57,19 @@ def terminate_cleanly():
         signal.signal(signal.SIGTERM, previous)
 
 
+def _hold_sigterm():
+    """Block SIGTERM in this thread (POSIX); returns the previous mask, or None where not possible."""
+    if not hasattr(signal, "pthread_sigmask"):
+        return None
+    return signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGTERM})
+
+
+def _release_sigterm(held) -> None:
+    """Restore the mask of :func:`_hold_sigterm`; a SIGTERM that came meanwhile is delivered now."""
+    if held is not None:
+        signal.pthread_sigmask(signal.SIG_SETMASK, held)
+
+
 def _identity(path: Path) -> tuple | None:
     try:
         st = os.stat(path)
@@ -155,12 +168,17 @@ def write_atomic(path: str | Path, write: Callable[[Path], None], *, option: str
     tmp_path = None
     with terminate_cleanly():             # from before the temporary file exists until it is renamed
         try:
+            # SIGTERM is held back while the temporary file is made and its name recorded, so that
+            # a signal can never fall between the two and leave the file behind
+            held = _hold_sigterm()
             try:
                 fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
+                tmp_path = Path(tmp)
             except OSError as exc:
                 raise ScenarioError(f"cannot write in {folder} ({exc.strerror})", key=option,
                                     value=str(path)) from None
-            tmp_path = Path(tmp)
+            finally:
+                _release_sigterm(held)
             os.close(fd)
             write(tmp_path)
             os.chmod(tmp_path, 0o666 & ~_umask())   # mkstemp makes owner-only files; use the usual mode

@@ -75,6 +75,38 @@ ENERGY_LABELS = {
 }
 
 
+SIZING_LABELS = {"p50": "P50", "p90_1yr": "P90 (1 yr)", "p90_10yr": "P90 (10 yr)", "p99_1yr": "P99 (1 yr)"}
+#: the headline's own words for the LCOE: what it is (SCENARIO.md: pre-tax, unfinanced, no credits)
+HEADLINE_LCOE = {"lcoe_nominal_per_mwh": "LCOE nominal, pre-tax, unlevered",
+                 "lcoe_real_per_mwh": "LCOE real, pre-tax, unlevered"}
+
+
+def headline_lines(d: dict, cur: str, w: int) -> list[str]:
+    """The plant and its capex per kW, every metric, then the financing the metrics rest on."""
+    p, fin = d["project"], d["financing"]
+
+    def row(label, text):
+        return f"  {label:<{w}} {text:>14}"
+
+    out = [row("Plant [MW]", f"{p['plant_mw']:,.1f}"),
+           row("Turbines x rated power [kW]", f"{p['turbines']:,} x {p['rated_power_kw']:,.0f}"),
+           row(f"Capex per kW [{cur}/kW]", fmt(d["costs"]["capex_per_kw"], "{:,.0f}"))]
+    for k in d["metrics"]:
+        name, unit, how = METRIC_LABELS[k]
+        label = f"{HEADLINE_LCOE.get(k, name)} [{unit.format(cur=cur)}]"
+        out.append(row(label, fmt(d["metrics"][k], how)))
+    out += [row("Gearing, debt / capex [%]", fmt(fin["gearing"], "pct")),
+            row("Discount rate, nominal [%]", fmt(fin["discount_rate"], "pct")),
+            row("Equity target return, nominal [%]", fmt(fin["equity_target_return"], "pct"))]
+    debt = fin.get("debt")
+    if debt is None:
+        return out + [row("Debt sized on", "all equity")]
+    cap = "binds" if debt["gearing_cap_binds"] else "not reached"
+    return out + [row("Debt sized on", SIZING_LABELS[debt["sizing_case"]]),
+                  row("Target DSCR on that case [x]", f"{debt['target_dscr']:.3f}"),
+                  row("Gearing cap [%]", fmt(debt["max_gearing"], "pct")) + f"  ({cap})"]
+
+
 def fmt(value, how: str) -> str:
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
@@ -100,10 +132,9 @@ def to_table(report: Report, *, yearly: bool = True, width: int | None = WIDTH, 
     if d.get("as_run"):
         lines[-1:-1] = textwrap.wrap("As run: " + as_run_text(d["as_run"]), max(40, width or WIDTH),
                                      subsequent_indent="  ")
-    w = 38
+    w = 44
     lines.append("Headline")
-    for k in d["metrics"]:
-        lines.append(f"  {_label(METRIC_LABELS, k, cur):<{w}} {fmt(d['metrics'][k], METRIC_LABELS[k][2]):>14}")
+    lines.extend(headline_lines(d, cur, w))
     lines.append("")
     lines.append("Energy")
     for k, (name, unit, how) in ENERGY_LABELS.items():
@@ -254,9 +285,12 @@ def long_term_table(lt: dict, width: int | None = WIDTH) -> list[str]:
 
 ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.0f}"),
                   ("price_per_mwh", "Price [{cur}/MWh]", "{:.2f}"), ("revenue", "Revenue [{cur} k]", "k"),
-                  ("opex", "O&M [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"), ("cfads", "CFADS [{cur} k]", "k"),
-                  ("debt_service", "Debt service [{cur} k]", "k"), ("dscr", "DSCR [x]", "{:.3f}"),
-                  ("project_cash_flow", "Project CF [{cur} k]", "k"), ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
+                  ("opex", "O&M [{cur} k]", "k"), ("capex", "Capex [{cur} k]", "k"),
+                  ("decommissioning", "Decom. [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"),
+                  ("cfads", "CFADS [{cur} k]", "k"), ("interest", "Interest [{cur} k]", "k"),
+                  ("principal", "Principal [{cur} k]", "k"), ("debt_service", "Debt service [{cur} k]", "k"),
+                  ("dscr", "DSCR [x]", "{:.3f}"), ("project_cash_flow", "Project CF [{cur} k]", "k"),
+                  ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
 
 
 WATERFALL_COLUMNS = [("year", "Year", "{:d}"), ("cfads", "CFADS", "k"), ("debt_service", "Debt svc", "k"),
