@@ -111,8 +111,12 @@ class InputSheet:
         return c
 
     def _exported(self, first: int, last: int, ncols: int):
-        """Each row of an input table keeps its values as exported (columns J on) and a changed flag (H)."""
+        """Each row of an input table keeps its values as exported (columns J on, grouped and closed: the
+        flag's working, not printed) and a changed flag (H)."""
         ws = self.ws
+        for i in range(1, ncols + 1):
+            dim = ws.column_dimensions[get_column_letter(9 + i)]
+            dim.outlineLevel, dim.hidden = 1, True
         for r in range(first, last + 1):
             parts = []
             for i in range(1, ncols + 1):
