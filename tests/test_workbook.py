@@ -707,6 +707,10 @@ def test_flex_table(flexes, label, mode):
     if r.case is None:
         assert failed == ["Locked inputs are as exported (rated power, wind and turbine, layout, debt table)"]
         assert all(named(r.values, k) == workbook.book.FAILED for k in SHOWN)
+        ws = r.values["Summary"]
+        shown = {ws.cell(row, 4).value: ws.cell(row, 2).value for row in range(11, ws.max_row + 1)}
+        for nm in ("net_capacity_factor", "capex_total", "debt_capacity", "gross_aep_mwh"):
+            assert shown[nm] == workbook.book.FAILED, nm     # the energy and cost block is blanked too
         return
     if mode == "locked" or not failed:
         assert failed == [], failed

@@ -159,7 +159,8 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
         row += 1
         b.text(ws, row, 1, label)
         expr = cf.x("opex", 1) if nm == "opex_year1" else nm
-        b.formula(ws, row, 2, expr, fmt)
+        flag = "checks_ok" if nm.startswith("debt_") and nm != "decommissioning_net" else "project_checks_ok"
+        b.formula(ws, row, 2, f"IF({flag}=1,{expr},\"{FAILED}\")", fmt)
         if nm == "opex_year1":
             b.name("opex_year1", ws, absolute(2, row))
         b.text(ws, row, 3, b.unit(unit), font=ITALIC)
