@@ -299,7 +299,7 @@ def _value_at(scn, dotted: str):
     node = scn
     for part in dotted.split("."):
         node = getattr(node, part)
-    return node if isinstance(node, (int, float, str, bool)) else "set"
+    return node if isinstance(node, (int, float, str, bool)) else None   # a table: named, not shown
 
 
 def build(report) -> Workbook:
@@ -312,9 +312,10 @@ def build(report) -> Workbook:
     scn = case.scenario
     unshown = scn.lender_structure()
     if unshown:
+        value = _value_at(scn, unshown[0])
         raise ScenarioError("the workbook does not yet show this part of the lender structure; write it "
-                            "without the key (the engine and `lcoe run` include it)", key=unshown[0],
-                            value=_value_at(scn, unshown[0]))
+                            "without it (the engine and `lcoe run` include it)", key=unshown[0], value=value,
+                            has_value=value is not None)
     book = Book(scn.project.currency)
     summary = book.sheet(SUMMARY)
     write_inputs(book, report)
