@@ -21,7 +21,7 @@ import streamlit as st
 from lcoe.ui import charts, inputs, uploads
 
 from lcoe import engine as model
-from lcoe.analysis import lifetime, study
+from lcoe.analysis import lender, lifetime, study
 from lcoe.analysis import montecarlo as unc_mod
 from lcoe.analysis import sensitivity as sens_mod
 from lcoe.demo_files import assumptions_dir
@@ -256,7 +256,8 @@ def main() -> None:
                 st.write(f"- {say(w)}")
 
     tabs = st.tabs(TABS, key="view", on_change="rerun")
-    views = [lambda: tab_energy(scn, case), lambda: tab_cash(scn, case, cur),
+    views = [lambda: tab_energy(scn, case),
+             lambda: (tab_cash(scn, case, cur), lender_panel(case, text, base_dir, source, cur)),
              lambda: tab_lifetime(scn, text, base_dir, source, cur),
              lambda: tab_speed(scn, text, base_dir, source, cur),
              lambda: tab_montecarlo(scn, case, text, cur),
@@ -387,6 +388,40 @@ def tab_cash(scn, case, cur) -> None:
         st.caption(f"Debt sculpted to {d.target_dscr:.2f}x on the {d.sizing_case} case; the P50 case meets the same "
                    f"schedule. Minimum DSCR {rp.fmt(case.metrics['min_dscr'], '{:.3f}')}x, "
                    f"LLCR {rp.fmt(case.metrics['llcr'], '{:.3f}')}x.")
+
+
+@st.cache_data(max_entries=16, show_spinner=False)
+def lender_rows(text: str, base_dir: str, source: str) -> list:
+    """The lender cases of the current inputs, debt locked at the base sizing (lcoe.analysis.lender)."""
+    case = case_of(text, base_dir, source)
+    return [r.to_dict() for r in lender.lender_cases(case.scenario, case)]
+
+
+def lender_panel(case, text, base_dir, source, cur) -> None:
+    """Sources and uses, then the lender cases: the figures of `lcoe run`, as tables."""
+    su = case.sources_and_uses()
+    st.markdown("**Sources and uses of funds**")
+    uses = [(rp.USES_LABELS[k], v) for k, v in su["uses"].items()]
+    sources = [("Senior debt", su["sources"]["debt"]), ("Equity", su["sources"]["equity"]),
+               ("Total sources", su["sources"]["total"])]
+    st.dataframe(pd.DataFrame({"Uses": [u for u, _ in uses], f"[{cur} M]": [rp.fmt(v, "m") for _, v in uses],
+                               "Sources": [x for x, _ in sources] + [""] * (len(uses) - len(sources)),
+                               f"[{cur} M] ": [rp.fmt(v, "m") for _, v in sources] + [""] * (len(uses) - len(sources))}),
+                 hide_index=True, key="sources_uses")
+    when = (f" Financial close {su['financial_close']}, operation {su['commercial_operation']}."
+            if "commercial_operation" in su else "")
+    st.caption(f"Gearing (debt / uses) {rp.fmt(su['gearing'], 'pct')} %; sources and uses "
+               f"{'balance' if su['balanced'] else 'do NOT balance'}.{when}")
+    if case.scenario.finance.debt is None:
+        return
+    st.markdown("**Lender cases (debt and debt service locked at the base sizing)**")
+    rows = lender_rows(text, base_dir, source)
+    table = [{"Case": r["label"], **{h: ("n/a" if r[k] is None else f"{r[k] / 1e3:,.0f}" if how == "k"
+                                         else rp.fmt(r[k], how)) for k, h, how in rp.LENDER_COLUMNS}}
+             for r in rows]
+    st.dataframe(pd.DataFrame(table), hide_index=True, key="lender_cases")
+    st.caption(f"Lock-up in years; DSRA drawn and unpaid debt service over the life in {cur} thousands; "
+               "equity IRR in %.")
 
 
 def _extension_default(scn) -> tuple[int, float]:
