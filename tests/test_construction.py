@@ -184,3 +184,16 @@ def test_the_compiled_funding_loop_is_the_array_one(monkeypatch, order):
     np.testing.assert_allclose(compiled, build.fund(*args).equity, rtol=1e-12)
     monkeypatch.setattr(build, "_kernels", None)
     np.testing.assert_array_equal(build.equity_rows(*args), build.fund(*args).equity)
+
+
+def test_the_workbook_refuses_the_lender_demo_in_one_line(tmp_path):
+    """The workbook does not show the construction period yet: one line naming the table, exit 2,
+    nothing written."""
+    import subprocess
+    import sys
+    from conftest import ROOT
+    out = tmp_path / "book.xlsx"
+    r = subprocess.run([sys.executable, "-m", "lcoe", "run", str(ROOT / "assumptions" / "tallowmere_ridge_lender.toml"),
+                        "--trials", "0", "--workbook", str(out)], capture_output=True, text=True)
+    assert r.returncode == 2 and not out.exists()
+    assert "construction: the workbook does not yet show this part of the lender structure" in r.stderr

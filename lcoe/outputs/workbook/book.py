@@ -380,7 +380,7 @@ def _value_at(scn, dotted: str):
     node = scn
     for part in dotted.split("."):
         node = getattr(node, part)
-    return node if isinstance(node, (int, float, str, bool)) else "set"
+    return node if isinstance(node, (int, float, str, bool)) else None   # a table: named, not shown
 
 
 def horizon_of(scn, minimum: int = MIN_HORIZON) -> int:
@@ -400,9 +400,10 @@ def build(report, *, source_sha256: str | None = None) -> Workbook:
     scn = case.scenario
     unshown = scn.lender_structure()
     if unshown:
+        value = _value_at(scn, unshown[0])
         raise ScenarioError("the workbook does not yet show this part of the lender structure; write it "
-                            "without the key (the engine and `lcoe run` include it)", key=unshown[0],
-                            value=_value_at(scn, unshown[0]))
+                            "without it (the engine and `lcoe run` include it)", key=unshown[0], value=value,
+                            has_value=value is not None)
     horizon = horizon_of(scn)
     book = Book(scn.project.currency)
     cover = book.sheet(COVER)
