@@ -186,14 +186,18 @@ def test_the_compiled_funding_loop_is_the_array_one(monkeypatch, order):
     np.testing.assert_array_equal(build.equity_rows(*args), build.fund(*args).equity)
 
 
-def test_the_workbook_refuses_the_lender_demo_in_one_line(tmp_path):
-    """The workbook does not show the construction period yet: one line naming the table, exit 2,
-    nothing written."""
+def test_the_workbook_refuses_a_cash_sweep_in_one_line(tmp_path):
+    """The workbook shows the construction period, reserves and lock-up, not yet a cash sweep: one line naming
+    the key, exit 2, nothing written."""
     import subprocess
     import sys
     from conftest import ROOT
+    src = tmp_path / "sweep.toml"
+    text = (ROOT / "assumptions" / "tallowmere_ridge_lender.toml").read_text()
+    text = text.replace('../demo/', str(ROOT / "demo") + "/").replace("lockup_dscr = 1.10", "lockup_dscr = 1.10\ncash_sweep = true")
+    src.write_text(text)
     out = tmp_path / "book.xlsx"
-    r = subprocess.run([sys.executable, "-m", "lcoe", "run", str(ROOT / "assumptions" / "tallowmere_ridge_lender.toml"),
-                        "--trials", "0", "--workbook", str(out)], capture_output=True, text=True)
-    assert r.returncode == 2 and not out.exists()
-    assert "construction: the workbook does not yet show this part of the lender structure" in r.stderr
+    r = subprocess.run([sys.executable, "-m", "lcoe", "run", str(src), "--trials", "0", "--workbook", str(out)],
+                       capture_output=True, text=True)
+    assert r.returncode == 2 and not out.exists(), r.stderr
+    assert "waterfall.cash_sweep = true: the workbook does not yet show this part of the lender structure" in r.stderr.lower()
