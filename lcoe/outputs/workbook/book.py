@@ -261,9 +261,9 @@ def _write_checks(book: Book, ws, en: Timeline, cf: Timeline, dt: Timeline, scn)
         tol_c = f"{CHECK_TOL}*MAX(capex_total,1)"
         checks.append(("Construction: sources equal uses", f"IF(ABS(sources_total-uses_total)<={tol_c},1,0)",
                        "sources_total", "uses_total", "debt", "<= 1e-9 x capex (Debt sheet)"))
-        checks.append(("Construction funding as worked out: capex, debt, fee and first reserve as at close",
-                       "construction_as_close", "capex_total", "capex_held", "debt",
-                       "the IDC, fees and equity are engine values for these; re-run lcoe after changing them"))
+        checks.append(("Construction funding: the debt is drawn in full by COD and the passes converged",
+                       "construction_as_close", "sources_total", "uses_total", "debt",
+                       "debt drawn = debt and the last two passes' IDC and fee agree, <= 1e-9 x capex (Debt sheet)"))
     for key, metric, label in (("project", "project_irr", "Project"), ("equity", "equity_irr", "Equity")):
         res, val = irr_check(key, f"{metric}_raw")
         checks.append((f"{label} IRR: NPV at the IRR is zero", res, f"IF(ISNUMBER({metric}_raw),{val},\"n/a\")", "0",

@@ -429,23 +429,6 @@ def write_inputs(book: Book, report, horizon: int) -> InputSheet:
     inp.table("Debt schedule at close, held (the locked mode)", ("Year", "Debt service", "Interest"), held,
               ("int", "money", "money"), {2: "held_debt_service", 3: "held_interest"}, engine=True,
               note="lcoe.finance.debt.size_debt: sculpted at close; zero after the tenor")
-    fund = fl.funding
-    if fund is not None:
-        src = "lcoe.finance.construction.fund"
-        why = "the construction loop: IDC and fees depend on when the debt is drawn"
-        for name, label, val in (("capex_held", "Capex at close", fund.capex[0]),
-                                 ("upfront_fee_held", "Upfront debt fee at close", fund.upfront_fee[0]),
-                                 ("idc_held", "Interest during construction, capitalised", fund.idc[0]),
-                                 ("commitment_fee_held", "Commitment fee during construction", fund.commitment_fee[0]),
-                                 ("dsra_first_held", "Debt service reserve, first funding at COD", fund.dsra[0]),
-                                 ("equity_held", "Equity contribution (with the first reserve funding)",
-                                  fund.equity[0])):
-            v(name, label, float(val), "{cur}", src, "money", why, engine=True)
-        rows = [(k + 1, float(fund.capex_q[0, k]), float(fund.idc_q[0, k]), float(fund.commitment_q[0, k]),
-                 float(fund.debt_q[0, k]), float(fund.equity_q[0, k])) for k in range(fund.capex_q.shape[1])]
-        inp.table("Construction funding by quarter from close (the upfront fee in quarter 1)",
-                  ("Quarter", "Capex", "IDC", "Commitment fee", "Debt drawn", "Equity"), rows,
-                  ("int", "money", "money", "money", "money", "money"), {}, engine=True, note=src)
     n_years = max(len(x) for x in MACRS.values())
     macrs_rows = [(t + 1, *[MACRS[k][t] if t < len(MACRS[k]) else None for k in MACRS]) for t in range(n_years)]
     first, last = inp.table("MACRS depreciation tables, percent of base by year (US IRS Publication 946, "
@@ -488,8 +471,8 @@ def write_lender_structure(inp: InputSheet, case) -> None:
           locked=w is None)
     share = period_share(scn)
     if con is not None:
-        why = "locked: the construction funding is the engine's (Debt sheet); change it in the scenario"
-        inp.head("Construction period (locked; the funding lines are engine values on the Debt sheet)")
+        why = "locked: sets the quarters and the partial first year; change it in the scenario and re-run lcoe"
+        inp.head("Construction period (locked; the funding by quarter is live on the Debt sheet)")
         v("financial_close", "Financial close", con.financial_close.isoformat(), "date",
           "construction.financial_close", "text", why, locked=True)
         v("construction_months", "Months from close to commercial operation", con.months, "months",

@@ -147,8 +147,10 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline, scn) -> Timeline:
     op = lambda t: cf.x("op", t)  # noqa: E731
     gross = "gross_aep_mwh*loss_factor*(1-downtime_fraction)"
     keys = []
-    # the equity contribution before the reserves, with the debt held at close
-    equity0 = "(capex_total+debt_fee_held-debt_held)" if scn.construction is None else "(equity_held-dsra_first_held)"
+    # the equity contribution before the reserves, with the debt held at close (with a construction period:
+    # the funding passes of the Debt sheet, which hold that debt in the locked mode; n/a in the resized mode)
+    equity0 = ("(capex_total+debt_fee_held-debt_held)" if scn.construction is None
+               else "IF(debt_locked=1,equity_before_reserves,NA())")
     for i, (label, ef, da, omf, pf) in enumerate(LENDER_CASES):
         r = head + 1 + i
         b.text(ws, r, 1, label, font=BOLD)

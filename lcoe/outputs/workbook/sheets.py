@@ -46,6 +46,7 @@ from lcoe.outputs.workbook.cells import (
 )
 from lcoe.finance.cashflow import period_share
 from lcoe.finance.waterfall import structure_of
+from lcoe.outputs.workbook.construction import write_funding
 from lcoe.outputs.workbook.reserves import waterfall_block
 from lcoe.physics.wind import Z_90, Z_99
 
@@ -203,32 +204,26 @@ def write_energy_trace(book: Book, en: Timeline, scn, site) -> int:
 
 # --------------------------------------------------------------------------- Cash flow and Debt
 
-def sources_and_uses(dt: Timeline, scn, cf: Timeline) -> None:
-    """Sources and uses of the construction period: engine values (the funding loop of
-    lcoe.finance.construction), and a check that the capex, debt, fee and first reserve funding
-    they were worked out for are those of the sheet."""
-    b = dt.b
-    dt.single("su_note", "Sources and uses are engine values (IDC and fees depend on when the debt is drawn): "
-                         "change the capex, the debt or the reserve in the scenario and re-run lcoe", "-",
-              '""', "text")
-    for key, label, nm in (("u_capex", "Uses: capex", "capex_held"), ("u_fee", "Uses: upfront debt fee", "upfront_fee_held"),
-                           ("u_idc", "Uses: interest during construction", "idc_held"),
-                           ("u_cf", "Uses: commitment fee on undrawn debt", "commitment_fee_held"),
-                           ("u_dsra", "Uses: debt service reserve, first funding", "dsra_first_held")):
-        dt.single(key, label, "{cur}", nm, "money", fill=ENGINE_FILL)
-    dt.single("u_total", "Uses, total", "{cur}", "+".join(dt.v(k) for k in ("u_capex", "u_fee", "u_idc", "u_cf", "u_dsra")),
-              "money", name="uses_total")
-    dt.single("s_debt", "Sources: debt", "{cur}", "debt_held", "money", fill=ENGINE_FILL)
-    dt.single("s_equity", "Sources: equity", "{cur}", "equity_held", "money", fill=ENGINE_FILL)
+def sources_and_uses(dt: Timeline, scn, cf: Timeline, cells: dict) -> None:
+    """Sources and uses of the construction period (live: the funding passes below the yearly lines,
+    lcoe.outputs.workbook.construction); ``cells`` is filled by ``write_funding`` before rendering."""
+    for key, label, expr in (("u_capex", "Uses: capex", lambda: "capex_total"),
+                             ("u_fee", "Uses: upfront debt fee", lambda: "debt_fee"),
+                             ("u_idc", "Uses: interest during construction, capitalised", lambda: cells["idc"]),
+                             ("u_cf", "Uses: commitment fee on undrawn debt", lambda: cells["commitment"]),
+                             ("u_dsra", "Uses: debt service reserve, first funding at COD", lambda: cells["dsra0"])):
+        dt.single(key, label, "{cur}", expr, "money")
+    dt.single("u_total", "Uses, total", "{cur}",
+              "+".join(dt.v(k) for k in ("u_capex", "u_fee", "u_idc", "u_cf", "u_dsra")), "money", name="uses_total")
+    dt.single("s_debt", "Sources: debt drawn by COD", "{cur}", lambda: cells["debt_drawn"], "money")
+    dt.single("s_equity", "Sources: equity paid in", "{cur}", lambda: cells["equity_paid"], "money")
     dt.single("s_total", "Sources, total", "{cur}", f"{dt.v('s_debt')}+{dt.v('s_equity')}", "money",
               name="sources_total")
-    dt.single("equity", "Equity contribution before the reserves' first funding", "{cur}",
-              "equity_held-dsra_first_held", "money", name="equity_before_reserves")
-    dsra0 = (lambda: cf.x("w_dtgt", 0)) if structure_of(scn) is not None else (lambda: "0")  # noqa: E731
+    dt.single("equity", "Equity contribution before the reserves' first funding, uses - debt - reserve", "{cur}",
+              f"uses_total-debt_at_close-{dt.v('u_dsra')}", "money", name="equity_before_reserves")
     tol = f"{CHECK_TOL}*MAX(capex_total,1)"
-    dt.single("su_same", "Construction funding as worked out: capex, debt, fee and first reserve as at close (1 = yes)",
-              "flag", lambda: f"IF(AND(ABS(capex_total-capex_held)<={tol},ABS(debt_at_close-debt_held)<={tol},"
-                              f"ABS(debt_fee-upfront_fee_held)<={tol},ABS({dsra0()}-dsra_first_held)<={tol}),1,0)",
+    dt.single("su_same", "Funding converged: debt drawn by COD = the debt, last two passes agree (1 = yes)", "flag",
+              lambda: f"IF(AND(ABS({dt.v('s_debt')}-debt_at_close)<={tol},{cells['change']}<={tol}),1,0)",
               "flag", name="construction_as_close")
 
 
@@ -369,7 +364,8 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
         dt.single("equity", "Equity at close, capex + fee - debt", "{cur}", "capex_total+debt_fee-debt_at_close",
                   "money", name="equity_before_reserves")
     else:
-        sources_and_uses(dt, scn, cf)
+        funding_cells = {}
+        sources_and_uses(dt, scn, cf, funding_cells)
 
     dt.section("Sizing case (energy x factor, the same prices and costs)")
     dt.line("tenor", "Tenor year within the life (1 = yes)", "flag",
@@ -524,6 +520,10 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
             lambda t: f"(1+IF(debt_locked=1,interest_rate_held,interest_rate))^-{en.x('clock', t)}", "factor",
             name="df_interest")
 
+    if scn.construction is not None:
+        dsra0 = cf.x("w_dtgt", 0) if structure_of(scn) is not None else "0"
+        funding_cells.update(write_funding(dt, scn, dsra0, dt.pass_rows))
+        funding_cells["dsra0"] = dsra0
     en.render()
     cf.render()
     dt.render()
