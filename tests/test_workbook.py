@@ -644,9 +644,16 @@ def _locked_to(schedule, years):
         a = np.asarray(a)
         return a[:, :years] if years <= L else np.hstack([a, np.zeros((a.shape[0], years - L))])
     assert not np.any(schedule.debt_service[0, min(years, L):])
+    period = None
+    if schedule.period is not None:     # a partial first year: the same first year, full years after it
+        period = np.ones(years)
+        period[0] = schedule.period[0]
+    target = schedule.target_dscr
+    if np.ndim(target) == 2:
+        target = fit(target)
     return replace(schedule, debt_service=fit(schedule.debt_service), interest=fit(schedule.interest),
                    principal=fit(schedule.principal), balance_open=fit(schedule.balance_open),
-                   sizing_cfads=fit(schedule.sizing_cfads))
+                   sizing_cfads=fit(schedule.sizing_cfads), period=period, target_dscr=target)
 
 
 @pytest.fixture(scope="module")

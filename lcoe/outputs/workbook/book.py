@@ -313,6 +313,7 @@ NOTES_WIDTH = 110
 
 def _write_notes(book: Book, report, sens_note: str | None):
     ws = book.sheet(NOTES)
+    scn = report.case.scenario
     b = book
     ws.column_dimensions["A"].width = NOTES_WIDTH
     lines = [
@@ -333,6 +334,16 @@ def _write_notes(book: Book, report, sens_note: str | None):
          "reference: the balance is rolled backward from zero at maturity with the interest tax shield in closed "
          "form, and a few passes carry the tax losses and the gearing cap (Debt sheet). The debt capacity of the "
          "current inputs and the headroom are shown in both modes.", None),
+        *([("Lender structure: the construction funding by quarter (Debt sheet, below the yearly lines) is worked "
+            "in a fixed number of passes, each on the last one's interest during construction and commitment fee "
+            "(no circular reference; a check tests that the last two agree). Year 1 runs from the COD to 31 "
+            "December: energy and fixed O&M pro rata, and the debt's interest, sizing and LLCR on the clock of "
+            "elapsed years.", None)] if scn.construction is not None else []),
+        *([("Cash waterfall (Cash flow sheet): deposit interest, maintenance reserve above target released, debt "
+            "service, DSRA then lock-up account drawn, unpaid service funded by the sponsor, DSRA to N/12 of next "
+            "year's service, maintenance reserve towards its build-up target, lock-up test, distributions; every "
+            "balance released in year L. Equity IRR and NPV come from the contribution and the distributions.",
+            None)] if structure_of(scn) is not None else []),
         ("The operating life is live: the yearly sheets run to a fixed horizon and an operating mask ends energy, "
          "revenue and costs after the life; decommissioning falls in year L.", None),
         ("A failed check blanks the results that depend on it (\"check failed\"); the break-even price, Monte "

@@ -150,7 +150,7 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline, scn) -> Timeline:
     # the equity contribution before the reserves, with the debt held at close (with a construction period:
     # the funding passes of the Debt sheet, which hold that debt in the locked mode; n/a in the resized mode)
     equity0 = ("(capex_total+debt_fee_held-debt_held)" if scn.construction is None
-               else "IF(debt_locked=1,equity_before_reserves,NA())")
+               else "IF(debt_locked=1,equity_before_reserves,0)")
     for i, (label, ef, da, omf, pf) in enumerate(LENDER_CASES):
         r = head + 1 + i
         b.text(ws, r, 1, label, font=BOLD)
@@ -204,7 +204,10 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline, scn) -> Timeline:
         b.formula(ws, r, 7, f"IF(COUNT({dscr})>0,AVERAGE({dscr}),\"n/a\")", "ratio")
         b.formula(ws, r, 8, f"IF(debt_held>0,SUMPRODUCT(({ds}>0)*{cfads},(1+interest_rate_held)^-{xref(en.ws, en.span('clock'))})"
                             f"/debt_held,\"n/a\")", "ratio")
-        b.formula(ws, r, 9, f"IFERROR(IF(AND(MIN({eq})<0,MAX({eq})>0),IRR({eq},0.1),\"n/a\"),\"n/a\")", "pct")
+        irr = f"IFERROR(IF(AND(MIN({eq})<0,MAX({eq})>0),IRR({eq},0.1),\"n/a\"),\"n/a\")"
+        if scn.construction is not None:     # the funding passes hold the debt at close in the locked mode only
+            irr = f"IF(debt_locked=1,{irr},\"locked mode only\")"
+        b.formula(ws, r, 9, irr, "pct")
         b.formula(ws, r, 10, f"COUNTIF({dscr},\"<1\")", "int")
         for j, nm in ((6, "min_dscr"), (7, "avg_dscr"), (8, "llcr"), (9, "equity_irr"), (10, "years_below_1")):
             b.name(f"lender_case_{i}_{nm}", ws, absolute(j, r))

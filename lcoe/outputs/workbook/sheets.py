@@ -50,7 +50,7 @@ from lcoe.outputs.workbook.construction import write_funding
 from lcoe.outputs.workbook.reserves import waterfall_block
 from lcoe.physics.wind import Z_90, Z_99
 
-RESIZE_PASSES = 8   # passes of the backward roll that carry the tax losses (each corrects the last)
+RESIZE_PASSES = 10   # passes of the backward roll that carry the tax losses (each corrects the last)
 
 
 def partial(scn, ref: str) -> str:
