@@ -2,7 +2,7 @@
 
 One rule for a change of life, used wherever a life is changed on purpose
 (:func:`life_overrides`): overhauls planned after the last operating year are left
-out, and a debt tenor longer than the life is cut to the life. Each change is stated
+out, and a debt tenor or a PPA term longer than the life is cut to the life. Each change is stated
 in words, so that a screen or a table can say what was adjusted.
 """
 
@@ -16,7 +16,8 @@ def life_overrides(scn, life: int) -> tuple[dict, list[str]]:
 
     Returns ``(overrides, notes)``: ``overrides`` holds ``project.lifetime_years``, the
     overhaul list without works after the life, and (where the debt's tenor is longer
-    than the life) ``finance.debt.tenor_years = life``.
+    than the life) ``finance.debt.tenor_years = life``; a PPA term longer than the life is cut
+    to it (it would have no effect past the life, but it reads as a promise).
     """
     life = int(life)
     notes = []
@@ -31,6 +32,10 @@ def life_overrides(scn, life: int) -> tuple[dict, list[str]]:
     if debt is not None and debt.tenor_years > life:
         over["finance.debt.tenor_years"] = life
         notes.append(f"debt tenor shortened from {debt.tenor_years} to {life} years to fit a {life}-year life")
+    term = scn.raw.get("revenue", {}).get("ppa_term_years")
+    if term is not None and int(term) > life:
+        over["revenue.ppa_term_years"] = life
+        notes.append(f"PPA term shortened from {int(term)} to {life} years to fit a {life}-year life")
     return over, notes
 
 
