@@ -15,6 +15,7 @@ import zipfile
 from pathlib import Path
 from urllib.parse import urlparse
 
+import numpy as np
 import pytest
 from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, ROOT, make_raw, require_tool
 
@@ -563,3 +564,243 @@ def test_a_trial_count_beyond_the_files_limit_is_refused_at_the_field():
     assert MAX_TRIALS == 10_000_000
     assert [e.value for e in at.error] == ["Trials 10,000,001: from 100 to 10,000,000; the Monte Carlo does not run."]
     assert at.button(key="mc_run").disabled
+
+
+# --------------------------------------------------------------------------- input that cannot be misread (issue 16)
+
+@pytest.mark.parametrize("dotted, typed, value", [
+    ("maintenance.fixed_per_kw_year", "36,5", 36.5), ("wind.mean_speed_mps", "7,9", 7.9),
+    ("maintenance.fixed_per_kw_year", " 36.5 ", 36.5), ("capex.turbine_per_kw", "0,125e4", 1250.0),
+], ids=["comma O&M", "comma speed", "point", "comma exponent"])
+def test_a_decimal_comma_is_read_as_a_decimal_point(dotted, typed, value):
+    """36,5 means 36.5 (decimal comma, ISO 80000-1 allows either mark), never 365."""
+    at = type_in(start(), dotted, typed).run()
+    assert not at.exception and not at.error
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO).with_overrides({dotted: value})))
+
+
+@pytest.mark.parametrize("typed, why", [
+    ("1,250", "'1,250': could be 1.250 or 1250; write it with a decimal point"),
+    ("1,250.5", "'1,250.5': use one decimal mark and no thousands separators"),
+    ("12 50", "'12 50': is not a number"), ("abc", "'abc': is not a number"), ("", "'': enter a number"),
+], ids=["ambiguous", "both marks", "space", "word", "blank"])
+def test_a_number_that_could_be_misread_is_refused_at_its_field(typed, why):
+    at = start()
+    before = shown_headline(at)
+    type_in(at, "capex.turbine_per_kw", typed).run()
+    assert not at.exception
+    assert [e.value for e in at.sidebar.error] == [f"Turbine price {why}"]
+    assert shown_headline(at) == before                      # the last valid figures stay
+    (warning,) = [w.value for w in at.warning if "Stale" in w.value]
+    assert f"Turbine price {why}" in warning
+
+
+def test_an_out_of_range_value_keeps_the_page_and_speaks_in_the_fields_unit():
+    """Availability 150 %: the schema allows at most 1 (a fraction), shown as 100 % at the field."""
+    at = start(view="Cash flow and debt")
+    type_in(at, "maintenance.fixed_per_kw_year", "40")      # a valid change before the bad one
+    at.run()
+    good = shown_headline(at)
+    assert good == expected_headline(model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 40.0})))
+    type_in(at, "operations.availability_mature", "150").run()
+    assert not at.exception
+    assert [e.value for e in at.sidebar.error] == ["Availability, later years 150 %: at most 100 %"]
+    assert shown_headline(at) == good                        # the last valid inputs, not the file's
+    assert any("Stale" in w.value for w in at.warning)
+    assert len(at.get("vega_lite_chart")) == 2               # the open tab's charts are still drawn
+    texts = " ".join(e.value for e in list(at.error) + list(at.warning))
+    assert str(ROOT) not in texts and "operations.availability_mature" not in texts
+    type_in(at, "operations.availability_mature", "96").run()
+    assert not at.warning or not any("Stale" in w.value for w in at.warning)
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO).with_overrides(
+        {"maintenance.fixed_per_kw_year": 40.0, "operations.availability_mature": 0.96})))
+
+
+def test_a_refusal_across_fields_is_put_at_the_field_it_names():
+    """The loader's cross-check (hub height above the rotor radius) in the field's label and unit."""
+    at = type_in(start(), "turbine.hub_height_m", "60").run()
+    assert not at.exception
+    with pytest.raises(ScenarioError) as err:
+        sc.load(DEMO).with_overrides({"turbine.hub_height_m": 60.0})
+    assert [e.value for e in at.sidebar.error] == [f"Hub height 60 m: {err.value.message}"]
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))
+
+
+def test_parse_number_reads_both_decimal_marks_and_guesses_nothing():
+    from lcoe.ui.inputs import parse_number
+    assert parse_number("36,5") == 36.5 and parse_number("0,125") == 0.125 and parse_number("-2,5") == -2.5
+    assert parse_number("1e3") == 1000.0 and parse_number("15.0", integer=True) == 15
+    for bad in ("1,250", "12,345", "1,2,3", "1.2.3", "nan", "inf", "1,5%", "--1"):
+        with pytest.raises(ValueError):
+            parse_number(bad)
+    with pytest.raises(ValueError):
+        parse_number("15.5", integer=True)
+
+
+# --------------------------------------------------------------------------- one rule for a change of life
+
+@pytest.mark.parametrize("life", [15, 11])
+def test_a_shorter_life_is_adjusted_by_the_engines_rule_and_says_so(life):
+    """Life 15 (tenor 16) and life 11 (overhaul in year 12) are no longer refused: the same rule as the
+    lifetime study (lcoe.analysis.lifetime.life_overrides) adjusts them, stated on screen."""
+    from lcoe.analysis import lifetime
+    at = type_in(start(), "project.lifetime_years", life).run()
+    assert not at.exception and not at.error
+    scn = sc.load(DEMO)
+    over, notes = lifetime.life_overrides(scn, life)
+    assert f"debt tenor shortened from 16 to {life} years to fit a {life}-year life" in notes
+    (info,) = [i.value for i in at.info if i.value.startswith("Operating life")]
+    assert info == f"Operating life {life} years: " + "; ".join(notes) + "."
+    assert shown_headline(at) == expected_headline(model.run(scn.with_overrides(over)))
+    if life == 11:
+        assert "overhaul 'blade refurbishment' in year 12 left out: after a 11-year life" in info
+
+
+# --------------------------------------------------------------------------- Monte Carlo views
+
+def test_monte_carlo_shows_the_lender_probabilities_and_energy_spread_of_the_engine():
+    unc = pytest.importorskip("lcoe.analysis.montecarlo")
+    at = start(view="Monte Carlo")
+    at.text_input(key="mc_trials").set_value("2000")
+    at.button(key="mc_run").click().run()
+    assert not at.exception and not at.error
+    scn = sc.load(DEMO)
+    res = unc.monte_carlo(scn, model.run(scn), trials=2000)
+    rep = res.report()
+    shown = {m.label: m.value for m in at.metric}
+    assert shown["Chance minimum DSCR < 1.00x [%]"] == rp.fmt(rep["prob_min_dscr_below_1"], "pct")
+    assert shown[f"Chance minimum DSCR < target {res.target_dscr:.2f}x [%]"] == rp.fmt(
+        rep["prob_min_dscr_below_target"], "pct")
+    assert shown[f"Chance equity IRR < target {rp.fmt(res.equity_target, 'pct')} % [%]"] == rp.fmt(
+        rep["prob_equity_irr_below_target"], "pct")
+    e = res.stats("net_aep_mean_mwh")
+    assert shown["Net energy, mean year P50 / P90 [MWh/yr]"] == f"{e['p50']:,.0f} / {e['p90']:,.0f}"
+    caption = " ".join(c.value for c in at.caption)
+    assert "the median of the figure is not the figure of the median inputs" in caption
+    assert "The deterministic figures above are the P50 case" not in caption
+    at.selectbox(key="mc_pick").set_value("min_dscr").run()
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    assert f"target {res.target_dscr:.2f}x" in spec and "1.00x: cash just covers debt service" in spec
+
+
+def test_a_refused_trial_count_refuses_the_run():
+    at = start(view="Monte Carlo")
+    at.text_input(key="mc_trials").set_value("50").run()
+    assert [e.value for e in at.error] == ["Trials 50: from 100 to 10,000,000; the Monte Carlo does not run."]
+    assert at.button(key="mc_run").disabled
+    assert "mc" not in at.session_state
+    at.text_input(key="mc_trials").set_value("2,5").run()
+    assert [e.value for e in at.error] == ["Trials '2,5': must be a whole number; the Monte Carlo does not run."]
+
+
+def test_the_workbook_right_after_a_run_holds_its_monte_carlo_sheet(media):
+    openpyxl = pytest.importorskip("openpyxl")
+    at = start(view="Monte Carlo")
+    at.text_input(key="mc_trials").set_value("1000")
+    at.button(key="mc_run").click().run()
+    assert not at.exception and not at.error
+    wb = openpyxl.load_workbook(io.BytesIO(download(at, media, "dl_workbook")))
+    assert "Monte Carlo" in wb.sheetnames
+    ws = wb["Monte Carlo"]
+    cells = [str(c.value) for row in ws.iter_rows(max_row=12) for c in row if c.value is not None]
+    assert any("1,000" in c or c == "1000" for c in cells), cells[:30]
+
+
+# --------------------------------------------------------------------------- own site: uploads and the bundle
+
+def _bundle_zip(at, media) -> bytes:
+    data = download(at, media, "dl_bundle")
+    assert zipfile.is_zipfile(io.BytesIO(data))
+    return data
+
+
+def test_the_bundle_is_accepted_by_lcoe_check_wherever_unpacked_and_keeps_the_comments(media, tmp_path, capsys):
+    at = start()
+    type_in(at, "maintenance.fixed_per_kw_year", "41,5")
+    type_in(at, "project.lifetime_years", "22").run()
+    data = _bundle_zip(at, media)
+    where = tmp_path / "somewhere" / "else"
+    with zipfile.ZipFile(io.BytesIO(data)) as z:
+        names = z.namelist()
+        z.extractall(where)
+    (toml_name,) = [n for n in names if n.endswith(".toml")]
+    assert any(n.endswith("/data/tallowmere_curve.csv") for n in names)
+    path = where / toml_name
+    assert cli.main(["check", str(path)]) == 0, capsys.readouterr().err
+    text = path.read_text(encoding="utf-8")
+    first_comment = DEMO.read_text(encoding="utf-8").splitlines()[0]
+    assert first_comment in text                              # the file's own comments are kept
+    assert "could not be kept" not in text
+    expected = model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 41.5,
+                                                       "project.lifetime_years": 22,
+                                                       "finance.debt.tenor_years": 16}))
+    assert model.run(sc.load(path)).metrics == expected.metrics
+    assert shown_headline(at) == expected_headline(expected)
+
+
+def test_an_upload_of_scenario_curve_and_series_uses_the_uploaded_files():
+    """The hourly demo under new file names, its curve and series uploaded beside it (several files)."""
+    curve = (ROOT / "demo" / "tallowmere_curve.csv").read_bytes()
+    series = (ROOT / "demo" / "tallowmere_wind_hourly.csv").read_bytes()
+    data = DEMO_HOURLY.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"my_curve.csv"').replace(
+        b'"../demo/tallowmere_wind_hourly.csv"', b'"my_site_wind.csv"')
+    assert b"my_site_wind.csv" in data and b"my_curve.csv" in data
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("my_site.toml", data, "application/toml"))
+    at.file_uploader(key="upload_data").set_value([("my_curve.csv", curve, "text/csv"),
+                                                   ("my_site_wind.csv", series, "text/csv")]).run()
+    assert not at.exception and not at.error
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO_HOURLY)))
+
+
+def test_a_bundle_zip_uploads_back_to_the_same_figures(media):
+    at = start(scenario_file=DEMO_HOURLY.name)
+    type_in(at, "capex.turbine_per_kw", "1100").run()
+    data = _bundle_zip(at, media)
+    figures = shown_headline(at)
+    again = start()
+    again.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    again.file_uploader(key="upload").set_value(("bundle.zip", data, "application/zip")).run()
+    assert not again.exception and not again.error
+    assert shown_headline(again) == figures
+
+
+def test_a_zip_without_one_scenario_is_refused_in_one_line():
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w") as z:
+        z.writestr("a.toml", DEMO.read_bytes())
+        z.writestr("b.toml", DEMO.read_bytes())
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("two.zip", buf.getvalue(), "application/zip")).run()
+    assert [e.value for e in at.error] == ["two.zip: must hold exactly one scenario file (.toml), found 2"]
+
+
+# --------------------------------------------------------------------------- wind speed and wind data
+
+def test_the_wind_speed_tab_is_the_engines_sweep_centred_on_the_site():
+    from lcoe.analysis import sensitivity as sens
+    at = start(view="Wind speed")
+    assert not at.exception and not at.error
+    scn = sc.load(DEMO)
+    values = [float(x) for x in np.round(7.4 * np.linspace(0.7, 1.3, 25), 4)]
+    rows = sens.sweep(scn, "wind.mean_speed_mps", values)
+    site = rows[12]
+    assert site["value"] == 7.4
+    caption = " ".join(c.value for c in at.caption)
+    assert f"At the site: {site['elasticity']:.2f}" in caption
+    table = at.dataframe[0].value
+    assert list(table["Elasticity [-]"]) == [f"{r['elasticity']:.2f}" for r in rows]
+    assert float(table.iloc[0, 0]) == pytest.approx(0.7 * 7.4, abs=0.005)
+    assert float(table.iloc[-1, 0]) == pytest.approx(1.3 * 7.4, abs=0.005)
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    assert '"type": "log"' in spec or '"type":"log"' in spec
+
+
+def test_the_wind_data_tab_shows_the_hourly_series():
+    at = start(scenario_file=DEMO_HOURLY.name, view="Wind data")
+    assert not at.exception and not at.error
+    assert len(at.get("vega_lite_chart")) == 4
+    text = " ".join(m.value for m in at.markdown)
+    assert "17,520 of 17,520 steps present (100.0 %)" in text
