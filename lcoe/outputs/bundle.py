@@ -157,6 +157,10 @@ def _is_items(v) -> bool:
 def _edit(lines, old: dict, new: dict, path: tuple, item: str | None) -> None:
     for key in list(old):
         if key not in new:
+            if _is_items(old[key]) and item is None:
+                for x in old[key]:
+                    _drop_item(lines, path + (key,), x["name"])
+                continue
             if isinstance(old[key], (dict, list)) and not _is_scalar_list(old[key]):
                 raise _NoFit
             _set(lines, path, item, key, None, delete=True)
@@ -207,6 +211,16 @@ def edit_text(text: str, raw: dict) -> str | None:
 
 # --------------------------------------------------------------------------- the bundle
 
+ITEM_TABLES = ("component", "overhaul", "correlation", "energy", "speed")
+
+
+def _prune(raw):
+    """An empty list of items (no overhauls left after a shorter life) is the same as none: left out."""
+    if isinstance(raw, dict):
+        return {k: _prune(v) for k, v in raw.items() if not (k in ITEM_TABLES and v == [])}
+    return raw
+
+
 def _safe(name: str) -> str:
     out = re.sub(r"[^A-Za-z0-9._-]", "_", name).strip("._") or "file"
     return out[:80]
@@ -219,7 +233,7 @@ def bundle_files(scn, file_text: str | None = None, name: str = "scenario") -> d
     ``file_text`` is the text of the file the inputs came from (its comments are kept).
     """
     folder = _safe(name)
-    raw = tomllib.loads(sc.to_toml(scn.raw))       # a deep copy, as the file would read
+    raw = _prune(tomllib.loads(sc.to_toml(scn.raw)))       # a deep copy, as the file would read
     files: dict[str, bytes] = {}
     taken: dict[Path, str] = {}
     for (holder, field), _key, rel in list(data_paths(raw)):
