@@ -90,9 +90,10 @@ def case_of(text: str, base_dir: str, source: str, breakeven: bool = False) -> m
 
 
 @st.cache_data(max_entries=16, show_spinner=False)
-def lifetime_study(text: str, base_dir: str, source: str, ext_year: int, ext_cost: float) -> pd.DataFrame:
+def lifetime_study(text: str, base_dir: str, source: str, ext_year: int, ext_cost: float,
+                   growth: float) -> pd.DataFrame:
     """Metrics for lives of 15..35 years, with and without a life-extension overhaul (lcoe.analysis.lifetime)."""
-    rows = lifetime.study(scenario_of(text, base_dir, source), LIFETIMES, ext_year, ext_cost)
+    rows = lifetime.study(scenario_of(text, base_dir, source), LIFETIMES, ext_year, ext_cost, growth)
     return pd.DataFrame(rows)
 
 
@@ -496,16 +497,36 @@ def _extension_default(scn) -> tuple[int, float]:
     return 20, 0.1 * scn.capex.turbine_per_kw * scn.turbine.rated_power_kw
 
 
+def study_field(col, label: str, key: str, value: float, integer: bool = False, low: float = 0.0,
+                high: float = float("inf")):
+    """A number typed for a study (not a scenario input), read as the sidebar reads numbers; None if refused."""
+    text = col.text_input(label, value=str(int(value)) if integer else f"{value:g}", key=key)
+    try:
+        x = inputs.parse_number(text, integer=integer)
+    except ValueError as exc:
+        col.error(f"{label.split(' [')[0]} '{text.strip()}': {exc}")
+        return None
+    if not low <= x <= high:
+        col.error(f"{label.split(' [')[0]} {x:g}: from {low:g} to {high:g}")
+        return None
+    return x
+
+
+WEAR_GROWTH = 0.05    # the study's starting value for the wear without the overhaul: an assumption, shown and editable
+
+
 def tab_lifetime(scn, text, base_dir, source, cur) -> None:
     st.markdown("**LCOE and NPV against the operating life, with and without a life-extension overhaul**")
     year0, cost0 = _extension_default(scn)
-    a, b, _ = st.columns([1, 1, 2])
-    year = a.number_input("Extension overhaul in year [year]", value=year0, step=1, format="%d", key="ext_year")
-    cost_k = b.number_input(f"Extension overhaul cost [{cur} k per turbine]", value=cost0 / 1e3, step=10.0,
-                            format="%.0f", key="ext_cost")
+    a, b, c, _ = st.columns([1, 1, 1, 1])
+    year = study_field(a, "Extension overhaul in year [year]", "ext_year", year0, integer=True, low=1, high=59)
+    cost_k = study_field(b, f"Extension overhaul cost [{cur} k per turbine]", "ext_cost", round(cost0 / 1e3, 3))
+    growth = study_field(c, "Failure-rate growth without it [%/yr]", "ext_wear", 100 * WEAR_GROWTH, high=100.0)
+    if year is None or cost_k is None or growth is None:
+        return
     try:
         with st.spinner("Running 42 lives..."):
-            df = lifetime_study(text, base_dir, source, int(year), float(cost_k) * 1e3)
+            df = lifetime_study(text, base_dir, source, int(year), float(cost_k) * 1e3, float(growth) / 100.0)
     except ScenarioError as exc:
         st.error(say(exc))
         return
@@ -517,10 +538,15 @@ def tab_lifetime(scn, text, base_dir, source, cur) -> None:
     with right:
         charts.draw(charts.lines, data=df, x="life", xtitle="Operating life [years]", y="npv",
                     ytitle=f"Project NPV [{cur} M]", color="plan", mark_x=float(scn.lifetime))
+    shortest = df.loc[df["life"] == df["life"].min(), "notes"].iloc[0]
     st.caption(f"With: an overhaul of {cost_k:,.0f} {cur} k per turbine in year {int(year)} for every life longer "
-               f"than {int(year)} years. Overhauls after the life are left out and a debt tenor longer than the life "
-               "is cut to it; everything else is as in the sidebar. Dashed line: the current life. Where the line with "
-               f"the overhaul falls below its value at {int(year)} years, the extension pays for itself.")
+               f"than {int(year)} years; it resets the wear. Without: each component's failure rate grows by "
+               f"{growth:g} % a year after year {int(year)} (compounding), with its downtime and repair cost; the "
+               f"{growth:g} % is this study's assumption, set your own. Availability ageing is the scenario's in "
+               "both. Each life follows the same rule as the sidebar's life input: overhauls after the life left "
+               "out, a longer debt tenor or PPA term cut to the life"
+               + (f" (at {int(df['life'].min())} years: {shortest})" if shortest else "") + ". Dashed line: the "
+               "current life.")
 
 
 def tab_speed(scn, text, base_dir, source, cur) -> None:
