@@ -804,3 +804,101 @@ def test_the_wind_data_tab_shows_the_hourly_series():
     assert len(at.get("vega_lite_chart")) == 4
     text = " ".join(m.value for m in at.markdown)
     assert "17,520 of 17,520 steps present (100.0 %)" in text
+
+
+# --------------------------------------------------------------------------- named cases
+
+def _pin(at, name: str):
+    at.text_input(key="pin_name").set_value(name)
+    at.button(key="pin").click().run()
+    assert not at.exception
+    return at
+
+
+def test_three_named_cases_side_by_side_with_the_current_inputs():
+    at = start()
+    _pin(at, "as filed")
+    type_in(at, "maintenance.fixed_per_kw_year", "45").run()
+    _pin(at, "dear O&M")
+    type_in(at, "project.lifetime_years", "30").run()
+    _pin(at, "long life")
+    type_in(at, "capex.turbine_per_kw", "1080").run()
+    at.session_state["view"] = "Compare"
+    at.run()
+    assert not at.exception and not at.error
+    table = at.dataframe[0].value.set_index("Figure")
+    assert list(table.columns) == ["as filed", "dear O&M", "long life", "current", "Current - reference"]
+    scn = sc.load(DEMO)
+    cases = {"as filed": scn, "dear O&M": scn.with_overrides({"maintenance.fixed_per_kw_year": 45.0}),
+             "long life": scn.with_overrides({"maintenance.fixed_per_kw_year": 45.0, "project.lifetime_years": 30}),
+             "current": scn.with_overrides({"maintenance.fixed_per_kw_year": 45.0, "project.lifetime_years": 30,
+                                            "capex.turbine_per_kw": 1080.0})}
+    for name, one in cases.items():
+        assert table.loc["LCOE, nominal [EUR/MWh]", name] == f"{model.run(one).metrics['lcoe_nominal_per_mwh']:.2f}"
+    # the headline's changes are against the last pinned case, unless another is chosen
+    ref = model.run(cases["long life"]).metrics["lcoe_nominal_per_mwh"]
+    now = model.run(cases["current"]).metrics["lcoe_nominal_per_mwh"]
+    assert {m.label: m.delta for m in at.metric}["LCOE, nominal [EUR/MWh]"] == f"{now - ref:+.2f}"
+    at.selectbox(key="against_pick").set_value("as filed").run()
+    first = model.run(cases["as filed"]).metrics["lcoe_nominal_per_mwh"]
+    assert {m.label: m.delta for m in at.metric}["LCOE, nominal [EUR/MWh]"] == f"{now - first:+.2f}"
+    at.selectbox(key="unpin_pick").set_value("dear O&M").run()
+    at.button(key="unpin").click().run()
+    assert list(at.dataframe[0].value.columns) == ["Figure", "as filed", "long life", "current",
+                                                   "Current - reference"]
+
+
+def test_a_variant_of_the_file_loads_into_the_inputs_for_editing():
+    at = start(view="Compare")
+    at.selectbox(key="variant_pick").set_value("life_30_extension").run()
+    at.button(key="load_variant").click().run()
+    assert not at.exception and not at.error
+    var = sc.load(DEMO).variant("life_30_extension")
+    assert shown_headline(at) == expected_headline(model.run(var))
+    assert at.text_input(key=input_key(at, "project.lifetime_years")).value == "30"
+    type_in(at, "maintenance.fixed_per_kw_year", "39").run()      # edit the variant
+    assert shown_headline(at) == expected_headline(model.run(var.with_overrides(
+        {"maintenance.fixed_per_kw_year": 39.0})))
+    at.selectbox(key="variant_pick").set_value("(the file as written)").run()
+    at.button(key="load_variant").click().run()
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))
+
+
+# --------------------------------------------------------------------------- plain words, search
+
+def test_codes_are_shown_in_plain_words():
+    at = start(view="Cash flow and debt")
+    options = {w.key.split("|", 3)[3]: w.options for w in at.selectbox if w.key and w.key.startswith("in|")}
+    assert options["finance.depreciation"][0] == "Straight line"
+    assert "P90 energy, one year" in options["finance.debt.sizing_case"]
+    shown = " ".join(str(x) for v in options.values() for x in v)
+    assert "_" not in shown
+    caption = " ".join(c.value for c in at.caption)
+    assert "p90_1yr" not in caption and "P90 energy, one year case" in caption
+
+
+def test_the_search_box_shows_only_matching_inputs_and_keeps_the_others():
+    at = start()
+    type_in(at, "maintenance.fixed_per_kw_year", "44").run()
+    at.text_input(key="find").set_value("tenor").run()
+    assert not at.exception and not at.error
+    drawn = [w.key.split("|", 3)[3] for w in at.text_input if w.key and w.key.startswith("in|")]
+    assert drawn == ["finance.debt.tenor_years"]
+    expected = model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 44.0}))
+    assert shown_headline(at) == expected_headline(expected)          # the hidden change still counts
+    type_in(at, "finance.debt.tenor_years", "14").run()
+    at.text_input(key="find").set_value("").run()
+    assert at.text_input(key=input_key(at, "maintenance.fixed_per_kw_year")).value == "44"
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO).with_overrides(
+        {"maintenance.fixed_per_kw_year": 44.0, "finance.debt.tenor_years": 14})))
+    at.text_input(key="find").set_value("no such input").run()
+    assert "No input's label holds 'no such input'." in [c.value for c in at.sidebar.caption]
+
+
+def test_the_tornado_names_each_inputs_low_and_high_value():
+    from lcoe.analysis import sensitivity as sens
+    at = start(view="Tornado")
+    rows = sens.tornado(sc.load(DEMO))
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    turbine = next(r for r in rows if r["key"] == "capex.turbine_per_kw")
+    assert f"Turbine price [EUR/kW]: {turbine['low_value']:,.0f} to {turbine['high_value']:,.0f}" in spec

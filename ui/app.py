@@ -482,7 +482,8 @@ def tab_cash(scn, case, cur) -> None:
             return
         rules = pd.DataFrame({"y": [d.target_dscr, 1.0], "what": [f"target {d.target_dscr:.2f}x", "1.00x"]})
         charts.draw(charts.dscr_by_year, years=y[["year", "dscr"]], rules=rules)
-        st.caption(f"Debt sculpted to {d.target_dscr:.2f}x on the {d.sizing_case} case; the P50 case meets the same "
+        st.caption(f"Debt sculpted to {d.target_dscr:.2f}x on the {inputs.plain(d.sizing_case)} case; the P50 case "
+                   "meets the same "
                    f"schedule. Minimum DSCR {rp.fmt(case.metrics['min_dscr'], '{:.3f}')}x, "
                    f"LLCR {rp.fmt(case.metrics['llcr'], '{:.3f}')}x.")
 
@@ -774,6 +775,7 @@ def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
         if r["metric_base"] is None:
             continue
         label = labels.get(r["key"]) or extra.get(r["key"]) or r["key"]
+        label += f": {inputs.value_text(scn, r['key'], r['low_value'])} to {inputs.value_text(scn, r['key'], r['high_value'])}"
         order.append(label)
         for side in ("low", "high"):
             if r[f"metric_at_{side}"] is not None:
@@ -785,7 +787,8 @@ def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
     base = rows[0]["metric_base"]
     charts.draw(charts.tornado, bars=pd.DataFrame(bars), order=order, title=f"{name} [{unit}]", base=base * scale)
     st.caption(f"Each bar: {name} with one input at its low or high value (P10 / P90 of its Monte Carlo "
-               "distribution, else ±10 %), the others at the current inputs. Widest first.")
+               "distribution, else ±10 %; the two values follow each input's name, in its unit), the others at the "
+               "current inputs. Widest first.")
 
 
 def tab_compare(base, ident, text, base_dir, source, pins, cur) -> None:

@@ -121,7 +121,7 @@ def histogram(bins: pd.DataFrame, marks: pd.DataFrame, title: str) -> alt.Chart:
 def tornado(bars: pd.DataFrame, order: list, title: str, base: float) -> alt.Chart:
     """bars: input (label), side, start, end (the figure from its base to its value at the input's end)."""
     ch = alt.Chart(bars).mark_bar().encode(
-        y=alt.Y("input:N", sort=order, title=None, axis=alt.Axis(labelLimit=320)),
+        y=alt.Y("input:N", sort=order, title=None, axis=alt.Axis(labelLimit=0)),
         x=alt.X("start:Q", title=title, scale=alt.Scale(zero=False)), x2="end:Q", color=alt.Color("side:N", title=None,
                                     scale=alt.Scale(domain=["low input", "high input"], range=[AMBER, BLUE])),
         tooltip=["input", "side", "input_value", alt.Tooltip("end:Q", format=",.3f")])

@@ -378,6 +378,19 @@ def message_at_field(scn, drawn: Drawn, exc: ScenarioError) -> str | None:
     return text
 
 
+def value_text(scn, key: str, value) -> str:
+    """A value of a scenario key as its input shows it (display unit and format); others with separators."""
+    spec = next((x for _, specs in input_groups(scn) for x in specs if x["key"] == key), None)
+    if value is None:
+        return "n/a"
+    if spec is None or spec["kind"] == "choice":
+        return f"{value:,.0f}" if isinstance(value, (int, float)) and abs(value) >= 100 else f"{value:g}"
+    if spec["kind"] == "int":
+        return str(int(value))
+    shown = _TO_SHOW[spec["show"]](value)
+    return format(shown, "," + spec["fmt"][1:])
+
+
 def labels(scn) -> dict:
     """Dotted key -> the input's label with its unit, for every input the app offers."""
     out = {}
