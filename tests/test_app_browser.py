@@ -110,3 +110,68 @@ def test_headline_figures_in_the_browser(server, tmp_path):
     assert caution == 1
     assert errors == 0 and alerts == 0
     assert (tmp_path / "app.png").stat().st_size > 10_000
+
+
+# Text that does not fit: an element that clips its own text (ellipsis or hidden overflow) and is
+# narrower than that text, or a chart's text (axis title, tick, legend) reaching more than 4 px
+# past its chart's box (4 px: the glyph overhang of a rotated axis title, seen drawn in full).
+CLIPPED_JS = """() => {
+  const out = [];
+  const shown = (el) => { const r = el.getBoundingClientRect(); return r.width > 0 && r.height > 0; };
+  for (const el of document.querySelectorAll('[data-testid="stMain"] *, [data-testid="stSidebar"] *')) {
+    if (!shown(el) || ![...el.childNodes].some(n => n.nodeType === 3 && n.textContent.trim())) continue;
+    const cs = getComputedStyle(el);
+    const clips = cs.textOverflow === 'ellipsis' || cs.overflowX === 'hidden' || cs.overflowX === 'clip';
+    if (clips && el.scrollWidth > el.clientWidth + 1) out.push('text: ' + el.innerText.slice(0, 80));
+  }
+  for (const t of document.querySelectorAll('svg text')) {
+    const box = t.closest('[data-testid="stVegaLiteChart"], [data-testid="stAltairChart"], .vega-embed');
+    if (!box || !shown(t) || !t.textContent.trim()) continue;
+    const r = t.getBoundingClientRect(), s = box.getBoundingClientRect();
+    if (r.left < s.left - 4 || r.right > s.right + 4 || r.top < s.top - 4 || r.bottom > s.bottom + 4
+        || t.textContent.includes('\u2026')) out.push('chart: ' + t.textContent.slice(0, 80) + ' (' +
+          [r.left - s.left, s.right - r.right, r.top - s.top, s.bottom - r.bottom].map(Math.round).join(', ') + ')');
+  }
+  return out;
+}"""
+TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Wind data", "Monte Carlo", "Tornado", "Compare",
+        "Yearly table"]
+
+
+def _settled(page) -> None:
+    page.wait_for_timeout(800)
+    page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=120_000)
+    page.wait_for_timeout(1200)        # the charts draw after the run ends
+
+
+@pytest.mark.parametrize("width", [1280, 1920])
+def test_nothing_is_clipped_on_any_screen(server, width):
+    """Every label, button and chart text fits its element, at 1,280 and 1,920 px, on every tab (with a
+    pinned case and a Monte Carlo run, so those screens are full)."""
+    chromium = require_tool("chromium")
+    sync_api = pytest.importorskip("playwright.sync_api")
+    found = {}
+    with sync_api.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_page(viewport={"width": width, "height": 1000})
+            page.goto(server, wait_until="domcontentloaded")
+            page.locator('[data-testid="stMetricValue"]').first.wait_for(timeout=120_000)
+            _settled(page)
+            page.get_by_role("button", name="Pin", exact=True).click()
+            _settled(page)
+            for tab in TABS:
+                page.get_by_role("tab", name=tab, exact=True).click()
+                _settled(page)
+                if tab == "Monte Carlo":
+                    page.get_by_role("textbox", name="Trials [-]").fill("2000")
+                    page.get_by_role("textbox", name="Trials [-]").press("Enter")
+                    _settled(page)
+                    page.get_by_role("button", name="Run the Monte Carlo").click()
+                    page.get_by_text("Chance minimum DSCR").first.wait_for(timeout=120_000)
+                    _settled(page)
+                found[tab] = page.evaluate(CLIPPED_JS)
+            assert page.locator('[data-testid="stException"]').count() == 0
+        finally:
+            browser.close()
+    assert {tab: items for tab, items in found.items() if items} == {}

@@ -137,8 +137,9 @@ def change_text(now, then, how: str) -> str | None:
 
 
 def headline(case: model.Case, pinned: model.Case | None, cur: str) -> None:
-    for row in (HEADLINE[:5], HEADLINE[5:]):
-        for col, (block, key) in zip(st.columns(5), row):
+    """Nine figures, three to a row: wide enough for every label and unit at 1,280 px."""
+    for row in (HEADLINE[:3], HEADLINE[3:6], HEADLINE[6:]):
+        for col, (block, key) in zip(st.columns(3), row):
             name, unit, how = label_of(block, key, cur)
             now = value_of(case, block, key)
             delta = change_text(now, value_of(pinned, block, key), how) if pinned is not None else None
@@ -359,7 +360,7 @@ def main() -> None:
 
 def actions(base, scn, text, base_dir, source, overrides, changed, pins) -> None:
     """Pin a named case and the downloads, under the headline."""
-    c1, c2, c3, c4, c5, c6 = st.columns([1.3, 0.8, 1, 1, 1, 1], vertical_alignment="bottom")
+    c1, c2, _ = st.columns([2, 1, 3], vertical_alignment="bottom")
     default = f"case {len(pins) + 1}"
     name = c1.text_input("Name of the case to pin", key="pin_name", placeholder=default)
     if c2.button("Pin", key="pin", help="Keep these inputs under this name; the figures then show the change "
@@ -374,21 +375,22 @@ def actions(base, scn, text, base_dir, source, overrides, changed, pins) -> None
         st.rerun()
     slug = _slug(base.project.name)
     mc = current_mc(text)
-    c3.download_button("Workbook (.xlsx)", data=lambda: workbook_bytes(text, base_dir, source, mc),
+    row = st.container(horizontal=True)        # the buttons wrap to a second line rather than clip
+    row.download_button("Workbook (.xlsx)", data=lambda: workbook_bytes(text, base_dir, source, mc),
                        file_name=f"{slug}.xlsx", key="dl_workbook", on_click="ignore",
                        mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                        help="The lender workbook of these inputs, with live formulas"
                             + (" and the Monte Carlo run" if mc is not None else ""))
     original = st.session_state.get("file_text", {}).get(st.session_state.get("ident"))
-    c4.download_button("Bundle (.zip)", data=lambda: bundle_bytes(base, text, base_dir, source, original),
+    row.download_button("Bundle (.zip)", data=lambda: bundle_bytes(base, text, base_dir, source, original),
                        file_name=f"{slug}_bundle.zip", mime="application/zip", key="dl_bundle", on_click="ignore",
                        help="These inputs as a scenario file with its data files, paths relative inside the zip: "
                             "`lcoe check` accepts it wherever it is unpacked")
-    c5.download_button("Scenario (.toml)", data=text.encode("utf-8"), file_name=f"{slug}_inputs.toml",
+    row.download_button("Scenario (.toml)", data=text.encode("utf-8"), file_name=f"{slug}_inputs.toml",
                        mime="application/toml", key="dl_scenario", on_click="ignore",
                        help="These inputs as a scenario file; its data paths are relative to the file's folder "
                             "(take the bundle to carry the data files with it)")
-    c6.download_button("Yearly table (.csv)", data=csv_bytes(text, base_dir, source), file_name=f"{slug}_yearly.csv",
+    row.download_button("Yearly table (.csv)", data=csv_bytes(text, base_dir, source), file_name=f"{slug}_yearly.csv",
                        mime="text/csv", key="dl_csv", on_click="ignore")
 
 
@@ -577,10 +579,10 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
     lc = pd.DataFrame([{"speed": r["value"], "lcoe": r["metrics"]["lcoe_nominal_per_mwh"]} for r in rows]).dropna()
     what = "Mean wind speed" if key.endswith("mean_speed_mps") else "Weibull scale A"
     xtitle = f"{what} at {w.height_m:g} m [m/s]"
-    a, b, c = st.columns(3)
+    a, b = st.columns(2)
     with a:
-        charts.draw(charts.loglog, data=aep, x="speed", xtitle=xtitle + ", log scale", y="aep",
-                    ytitle="Net AEP P50 [MWh/yr], log scale", color="what", mark_x=now)
+        charts.draw(charts.loglog, data=aep, x="speed", xtitle=xtitle + ", log", y="aep",
+                    ytitle="Net AEP P50 [MWh/yr], log", color="what", mark_x=now)
         st.caption("On log-log axes a power law is a straight line; the grey line has slope 3 (energy with the "
                    "cube of the speed). The model's line is flatter: the power curve reaches rated power.")
     with b:
@@ -589,6 +591,7 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
         st.caption(f"At the site: {rp.fmt(site['elasticity'], '{:.2f}')}, so 1 % more wind gives about "
                    f"{rp.fmt(site['elasticity'], '{:.1f}')} % more energy (central differences of the sweep, as "
                    "`lcoe sweep` prints them).")
+    c, d = st.columns(2)
     with c:
         mc = current_mc(text)
         band = None
@@ -606,8 +609,9 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
                            "Elasticity [-]": rp.fmt(r["elasticity"], "{:.2f}"),
                            f"LCOE, nominal [{cur}/MWh]": rp.fmt(r["metrics"]["lcoe_nominal_per_mwh"], "{:.2f}")}
                           for r in rows])
-    with st.expander("The sweep as a table"):
-        st.dataframe(table, hide_index=True, width="stretch")
+    with d:
+        st.markdown("**The sweep**")
+        st.dataframe(table, hide_index=True, width="stretch", height=300)
 
 
 def tab_series(scn, text, base_dir, source) -> None:

@@ -45,12 +45,12 @@ def power_curve(curve: pd.DataFrame, pdf: pd.DataFrame | None = None) -> alt.Cha
     """curve: speed [m/s], power [kW]; pdf: speed, pdf [per m/s] (optional)."""
     x = alt.X("speed:Q", title="Wind speed at hub height [m/s]")
     line = alt.Chart(curve).mark_line(color=BLUE, strokeWidth=2.5).encode(
-        x=x, y=alt.Y("power:Q", title="Power per turbine at the site's air density [kW]"),
+        x=x, y=alt.Y("power:Q", title="Power per turbine, site density [kW]"),
         tooltip=[alt.Tooltip("speed:Q", format=".1f"), alt.Tooltip("power:Q", format=",.0f")])
     if pdf is None:
         return line.properties(height=320)
     area = alt.Chart(pdf).mark_area(color=AMBER, opacity=0.35).encode(
-        x=x, y=alt.Y("pdf:Q", title="Wind-speed probability density [per m/s]"))
+        x=x, y=alt.Y("pdf:Q", title="Probability density [per m/s]"))
     return alt.layer(area, line).resolve_scale(y="independent").properties(height=320)
 
 
@@ -111,7 +111,8 @@ def histogram(bins: pd.DataFrame, marks: pd.DataFrame, title: str) -> alt.Chart:
         x=alt.X("lo:Q", title=title, bin="binned"), x2="hi:Q", y=alt.Y("count:Q", title="Trials"))
     palette = ["#1d7a3a", RED, "#6a3d9a", "#333333", AMBER][:len(marks)]
     rule = alt.Chart(marks).mark_rule(strokeWidth=2.5).encode(
-        x="x:Q", color=alt.Color("what:N", title=None, legend=alt.Legend(orient="bottom", labelLimit=400),
+        x="x:Q", color=alt.Color("what:N", title=None, legend=alt.Legend(orient="bottom", direction="vertical",
+                                                                          labelLimit=0),
                                  scale=alt.Scale(domain=list(marks["what"]), range=palette)),
         strokeDash=alt.StrokeDash("what:N", legend=None, scale=alt.Scale(
             domain=list(marks["what"]), range=[[1, 0], [1, 0], [6, 3], [2, 2], [6, 3]][:len(marks)])))
@@ -139,7 +140,8 @@ def lines(data: pd.DataFrame, x: str, xtitle: str, y: str, ytitle: str, color: s
            "y": alt.Y(f"{y}:Q", title=ytitle, scale=alt.Scale(zero=False, type=kind), axis=alt.Axis(titleLimit=0)),
            "tooltip": [alt.Tooltip(f"{x}:Q"), alt.Tooltip(f"{y}:Q", format=",.3f")]}
     if color:
-        enc["color"] = alt.Color(f"{color}:N", title=None, legend=alt.Legend(orient="bottom", labelLimit=400),
+        enc["color"] = alt.Color(f"{color}:N", title=None, legend=alt.Legend(orient="bottom", direction="vertical",
+                                                                            labelLimit=0),
                                  scale=alt.Scale(range=[BLUE, GREY, GREEN, AMBER]))
         enc["tooltip"].append(f"{color}:N")
     ch = alt.Chart(data).mark_line(point=True).encode(**enc)
@@ -197,11 +199,11 @@ def cases_by_year(data: pd.DataFrame, ytitle: str, order: list, bars: bool = Fal
     enc = {"x": alt.X("year:O", title="Operating year"),
            "y": alt.Y("value:Q", title=ytitle, scale=alt.Scale(zero=bars), axis=alt.Axis(titleLimit=0)),
            "color": alt.Color("case:N", title=None, scale=alt.Scale(domain=order, range=colors),
-                              legend=alt.Legend(orient="bottom", labelLimit=300, columns=2)),
+                              legend=alt.Legend(orient="bottom", direction="vertical", labelLimit=0)),
            "tooltip": ["year", "case", alt.Tooltip("value:Q", format=",.3f")]}
     if bars:
         enc["xOffset"] = alt.XOffset("case:N", sort=order)
-        return alt.Chart(data).mark_bar().encode(**enc).properties(height=260)
+        return alt.Chart(data).mark_bar().encode(**enc).properties(height=340)
     enc["strokeDash"] = alt.StrokeDash("case:N", legend=None, scale=alt.Scale(
         domain=order, range=[[1, 0] if n == "current" else [6, 3] for n in order]))
-    return alt.Chart(data).mark_line(point=True).encode(**enc).properties(height=260)
+    return alt.Chart(data).mark_line(point=True).encode(**enc).properties(height=340)
