@@ -496,7 +496,7 @@ def test_app_command_finds_the_app_and_serves_it_headless():
     app = appcmd.find_app()
     assert app == APP
     argv = appcmd.streamlit_argv(app, 8765, "127.0.0.1")
-    assert argv[1:5] == ["-m", "streamlit", "run", str(APP)]
+    assert argv[1:5] == ["-m", "lcoe.cli.serve", "run", str(APP)]
     opts = dict(zip(argv[5::2], argv[6::2]))
     assert opts == {"--server.headless": "true", "--server.port": "8765", "--server.address": "127.0.0.1",
                     "--browser.gatherUsageStats": "false", "--client.toolbarMode": "minimal",
