@@ -14,7 +14,7 @@ import time
 import urllib.request
 
 import pytest
-from conftest import DEMO, ROOT, require_tool
+from conftest import DEMO, DEMO_HOURLY, ROOT, require_tool
 
 from lcoe import engine as model
 from lcoe.inputs import scenario as sc
@@ -171,7 +171,69 @@ def test_nothing_is_clipped_on_any_screen(server, width):
                     page.get_by_text("Chance minimum DSCR").first.wait_for(timeout=120_000)
                     _settled(page)
                 found[tab] = page.evaluate(CLIPPED_JS)
+            # the hourly demo's wind data: the record's four charts
+            page.locator('[data-testid="stSidebar"] [data-testid="stSelectbox"]').first.click()
+            page.get_by_role("option", name=DEMO_HOURLY.name, exact=True).click()
+            _settled(page)
+            page.get_by_role("tab", name="Wind data", exact=True).click()
+            _settled(page)
+            found["Wind data (hourly)"] = page.evaluate(CLIPPED_JS)
+            hourly_charts = page.locator('[data-testid="stVegaLiteChart"], [data-testid="stAltairChart"]').count()
             assert page.locator('[data-testid="stException"]').count() == 0
         finally:
             browser.close()
     assert {tab: items for tab, items in found.items() if items} == {}
+    assert hourly_charts == 4
+
+
+def _headline(page) -> dict:
+    metrics = page.locator('[data-testid="stMetric"]')
+    return {metrics.nth(i).locator('[data-testid="stMetricLabel"]').inner_text().strip():
+            metrics.nth(i).locator('[data-testid="stMetricValue"]').inner_text().strip() for i in range(metrics.count())}
+
+
+def _expected(scn) -> dict:
+    case = model.run(scn)
+    out = {}
+    for block, key in HEADLINE:
+        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
+        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
+        out[f"{name} [{unit.format(cur=scn.project.currency)}]"] = rp.fmt(value, how)
+    return out
+
+
+def _type(page, group: str, label: str, text: str) -> None:
+    box = page.get_by_role("textbox", name=label, exact=True)
+    if not box.is_visible():
+        page.get_by_text(group, exact=True).click()
+    box.fill(text)
+    box.press("Enter")
+    _settled(page)
+
+
+def test_a_decimal_comma_and_an_out_of_range_value_typed_in_the_browser(server):
+    """"36,5" in Fixed O&M is 36.5 (not 365); availability 150 % is refused at its field, the page keeps
+    the last valid figures and says they are stale."""
+    chromium = require_tool("chromium")
+    sync_api = pytest.importorskip("playwright.sync_api")
+    scn = sc.load(DEMO)
+    with sync_api.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_page(viewport={"width": 1280, "height": 1000})
+            page.goto(server, wait_until="domcontentloaded")
+            page.locator('[data-testid="stMetricValue"]').first.wait_for(timeout=120_000)
+            _settled(page)
+            _type(page, "Lifetime and maintenance", "Fixed O&M [EUR/kW/yr]", "36,5")
+            after_comma = _headline(page)
+            _type(page, "Losses and availability", "Availability, later years [%]", "150")
+            after_bad = _headline(page)
+            field_errors = page.locator('[data-testid="stSidebar"] [data-testid="stAlertContentError"]').all_inner_texts()
+            stale = page.get_by_text("Stale: the figures below are those of the last valid inputs").count()
+            charts_drawn = page.locator('[data-testid="stVegaLiteChart"], [data-testid="stAltairChart"]').count()
+        finally:
+            browser.close()
+    assert after_comma == _expected(scn.with_overrides({"maintenance.fixed_per_kw_year": 36.5}))
+    assert after_bad == after_comma
+    assert [t.strip() for t in field_errors] == ["Availability, later years 150 %: at most 100 %"]
+    assert stale == 1 and charts_drawn >= 2
