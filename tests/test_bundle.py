@@ -57,10 +57,48 @@ def test_edit_text_changes_values_in_place_and_keeps_every_comment():
     assert "# a site (comment at the top)" in out and "# a hash inside a string is not a comment" in out
 
 
-def test_edit_text_says_none_where_the_change_does_not_fit_the_layout():
+def test_edit_text_appends_an_item_and_says_none_for_a_moved_one():
     raw = tomllib.loads(FILE)
-    raw["maintenance"]["overhaul"].append({"name": "new", "year": 5, "cost_per_turbine": 3.0})   # an added item
+    raw["maintenance"]["overhaul"].append({"name": "new", "year": 5, "cost_per_turbine": 3.0})
+    out = bundle.edit_text(FILE, raw)
+    assert out is not None and tomllib.loads(out) == raw and "year = 12    # mid-life" in out
+    raw = tomllib.loads(FILE)
+    raw["maintenance"]["overhaul"].reverse()
     assert bundle.edit_text(FILE, raw) is None
+
+
+def test_a_bundle_leaves_out_what_lcoe_check_would_refuse_for_the_inputs_and_says_so(tmp_path, capsys):
+    """Life 12 (from 25): the PPA of 15 years, cut to 12, covers the whole life, so the merchant
+    price's draws change nothing (the engine's rule, montecarlo.refuse_idle_inputs): that input is
+    left out with its reason, and the bundle passes `lcoe check` with the same figures."""
+    scn = sc.load(DEMO)
+    over, _ = lifetime.life_overrides(scn, 12)
+    changed = scn.with_overrides(over)
+    files = bundle.bundle_files(changed, DEMO.read_text(encoding="utf-8"), "short")
+    for name, data in files.items():
+        (tmp_path / name).parent.mkdir(parents=True, exist_ok=True)
+        (tmp_path / name).write_bytes(data)
+    assert cli.main(["check", str(tmp_path / "short" / "short.toml")]) == 0, capsys.readouterr().err
+    text = files["short/short.toml"].decode()
+    assert "# Left out: montecarlo.vary.revenue.merchant_price_per_mwh, these inputs do not use it" in text
+    raw = tomllib.loads(text)
+    assert "revenue.merchant_price_per_mwh" not in raw["montecarlo"]["vary"]
+    assert model.run(sc.load(tmp_path / "short" / "short.toml")).metrics == model.run(changed).metrics
+
+
+def test_a_loaded_variant_bundles_with_the_variants_that_still_fit(tmp_path, capsys):
+    """The 30-year variant adds an extension overhaul in year 25: the file's 20-year variant no longer
+    fits it and is left out, said in the file; the added overhaul is appended, the comments kept."""
+    var = sc.load(DEMO).variant("life_30_extension")
+    files = bundle.bundle_files(var, DEMO.read_text(encoding="utf-8"), "v")
+    for name, data in files.items():
+        (tmp_path / name).parent.mkdir(parents=True, exist_ok=True)
+        (tmp_path / name).write_bytes(data)
+    assert cli.main(["check", str(tmp_path / "v" / "v.toml")]) == 0, capsys.readouterr().err
+    text = files["v/v.toml"].decode()
+    assert "# Left out: variant life_20, it does not fit these inputs" in text
+    assert "could not be kept" not in text
+    assert model.run(sc.load(tmp_path / "v" / "v.toml")).metrics == model.run(var).metrics
 
 
 @pytest.mark.parametrize("path", [DEMO, DEMO_HOURLY, DEMO_LAYOUT], ids=["weibull", "hourly", "layout"])

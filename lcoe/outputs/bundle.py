@@ -18,8 +18,10 @@ import tomllib
 import zipfile
 from pathlib import Path
 
+from lcoe.analysis.montecarlo import refuse_idle_inputs
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.about import CAUTION
+from lcoe.inputs.errors import ScenarioError
 
 DATA_KEYS = ("turbine.power_curve", "wind.timeseries", "wind.long_term.reference", "layout.positions")
 DATA_FOLDER = "data"
@@ -150,6 +152,28 @@ def _drop_item(lines, path, item) -> None:
     del lines[start - 1:end]
 
 
+def _drop_table(lines, path) -> None:
+    """Delete the table ``[path]`` (its header and its lines); it must be a table of its own."""
+    blocks = [b for b in _blocks(lines) if b[0] == "table" and b[1] == path]
+    if len(blocks) != 1 or any(b[1][:len(path)] == path and len(b[1]) > len(path) for b in _blocks(lines)):
+        raise _NoFit
+    _, _, start, end = blocks[0]
+    del lines[start - 1:end]
+
+
+def _add_item(lines, path, item: dict) -> None:
+    """Append ``[[path]]`` with ``item``'s keys after the last block of that list (a plain value each)."""
+    if any(isinstance(v, (dict, list)) and not _is_scalar_list(v) for v in item.values()):
+        raise _NoFit
+    ends = [end for kind, name, _, end in _blocks(lines) if kind == "array" and name == path]
+    at = ends[-1] if ends else len(lines)
+    while at > 0 and not lines[at - 1].strip():
+        at -= 1                # before the blank lines that part it from the next table
+    header = "[[" + ".".join(_key_text(p) for p in path) + "]]"
+    body = [header] + [f"{_key_text(k)} = {_value_text(v)}" for k, v in item.items()]
+    lines[at:at] = ([""] if at else []) + body
+
+
 def _is_items(v) -> bool:
     return isinstance(v, list) and bool(v) and all(isinstance(x, dict) and isinstance(x.get("name"), str) for x in v)
 
@@ -160,6 +184,9 @@ def _edit(lines, old: dict, new: dict, path: tuple, item: str | None) -> None:
             if _is_items(old[key]) and item is None:
                 for x in old[key]:
                     _drop_item(lines, path + (key,), x["name"])
+                continue
+            if isinstance(old[key], dict) and item is None:
+                _drop_table(lines, path + (key,))
                 continue
             if isinstance(old[key], (dict, list)) and not _is_scalar_list(old[key]):
                 raise _NoFit
@@ -173,13 +200,16 @@ def _edit(lines, old: dict, new: dict, path: tuple, item: str | None) -> None:
         elif _is_items(was) and (_is_items(value) or value == []) and item is None:
             names_old = [x["name"] for x in was]
             names_new = [x["name"] for x in value]
-            if [n for n in names_old if n in names_new] != names_new:
-                raise _NoFit           # an added or moved item
+            kept = [n for n in names_old if n in names_new]
+            if names_new[:len(kept)] != kept:
+                raise _NoFit           # a moved item, or one added before a kept one
             for x in was:
                 if x["name"] not in names_new:
                     _drop_item(lines, path + (key,), x["name"])
-            for x in value:
+            for x in value[:len(kept)]:
                 _edit(lines, next(o for o in was if o["name"] == x["name"]), x, path + (key,), x["name"])
+            for x in value[len(kept):]:
+                _add_item(lines, path + (key,), x)
         elif isinstance(value, dict) or _is_items(value) or isinstance(was, dict) or _is_items(was):
             raise _NoFit
         else:
@@ -221,6 +251,38 @@ def _prune(raw):
     return raw
 
 
+def fitted(scn) -> tuple[dict, list[str]]:
+    """The scenario's tables without what ``lcoe check`` would refuse for these inputs, and what
+    was left out, in words: a variant that no longer fits them (a longer life's overhaul after a
+    shorter one's end), a Monte Carlo input they do not use (a merchant price when the PPA now
+    covers the whole life) with the correlations that name it."""
+    raw = _prune(tomllib.loads(sc.to_toml(scn.raw)))       # a deep copy, as the file would read
+    notes = []
+    for vname in list(raw.get("variants", {})):
+        try:
+            scn.variant(vname)
+        except ScenarioError as exc:
+            del raw["variants"][vname]
+            notes.append(f"variant {vname}, it does not fit these inputs ({exc.message})")
+    if "variants" in raw and not raw["variants"]:
+        del raw["variants"]
+    mc = raw.get("montecarlo", {})
+    for _ in range(len(mc.get("vary", {}))):
+        try:
+            refuse_idle_inputs(sc.from_dict(raw, source=scn.source, base_dir=scn.base_dir, check_variants=False))
+            break
+        except ScenarioError as exc:
+            key = (exc.key or "")[len("montecarlo.vary."):]
+            if not (exc.key or "").startswith("montecarlo.vary.") or key not in mc["vary"]:
+                raise
+            del mc["vary"][key]
+            mc["correlation"] = [c for c in mc.get("correlation", []) if key not in c.get("between", [])]
+            notes.append(f"montecarlo.vary.{key}, these inputs do not use it ({exc.message})")
+    if mc:
+        raw["montecarlo"] = _prune(mc)
+    return raw, notes
+
+
 def _safe(name: str) -> str:
     out = re.sub(r"[^A-Za-z0-9._-]", "_", name).strip("._") or "file"
     return out[:80]
@@ -233,7 +295,7 @@ def bundle_files(scn, file_text: str | None = None, name: str = "scenario") -> d
     ``file_text`` is the text of the file the inputs came from (its comments are kept).
     """
     folder = _safe(name)
-    raw = _prune(tomllib.loads(sc.to_toml(scn.raw)))       # a deep copy, as the file would read
+    raw, left_out = fitted(scn)
     files: dict[str, bytes] = {}
     taken: dict[Path, str] = {}
     for (holder, field), _key, rel in list(data_paths(raw)):
@@ -252,7 +314,8 @@ def bundle_files(scn, file_text: str | None = None, name: str = "scenario") -> d
         holder[field] = taken[path]
     kept = edit_text(file_text, raw) if file_text else None
     note = (f"# {folder}.toml: written by the lcoe app with its data files in {DATA_FOLDER}/ beside it "
-            "(paths relative to this file).\n# " + CAUTION.replace("\n", " ") + "\n")
+            "(paths relative to this file).\n# " + CAUTION.replace("\n", " ") + "\n"
+            + "".join(f"# Left out: {why}.\n" for why in left_out))
     if kept is None:
         text = note + ("# The original file's comments could not be kept: its layout did not fit the changes.\n"
                        if file_text else "") + sc.to_toml(raw)
