@@ -17,7 +17,7 @@ from urllib.parse import urlparse
 
 import numpy as np
 import pytest
-from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, ROOT, make_raw, require_tool
+from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, ROOT, expected_headline, make_raw, require_tool
 
 from lcoe import cli
 from lcoe import engine as model
@@ -33,9 +33,6 @@ import streamlit.testing.v1.app_test as app_test_module  # noqa: E402
 
 APP = ROOT / "ui" / "app.py"
 ASSUMPTIONS = ROOT / "assumptions"
-HEADLINE = [("metrics", "lcoe_nominal_per_mwh"), ("metrics", "lcoe_real_per_mwh"), ("metrics", "project_npv"),
-            ("metrics", "equity_irr"), ("metrics", "min_dscr"), ("metrics", "debt_amount"),
-            ("energy", "net_aep_p50_mwh"), ("energy", "net_aep_p90_1yr_mwh"), ("energy", "net_capacity_factor")]
 GROUPS = ["Wind", "Turbine", "Losses and availability", "Lifetime and maintenance", "Costs", "Revenue",
           "Finance and debt"]
 TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Wind data", "Monte Carlo", "Tornado", "Compare",
@@ -81,17 +78,6 @@ def start(**session) -> AppTest:
     at.run()
     assert not at.exception, at.exception
     return at
-
-
-def expected_headline(case: model.Case) -> dict:
-    """Label -> text of the headline figures, from the engine and the report's formats."""
-    cur = case.scenario.project.currency
-    out = {}
-    for block, key in HEADLINE:
-        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
-        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
-        out[f"{name} [{unit.format(cur=cur)}]"] = rp.fmt(value, how)
-    return out
 
 
 def shown_headline(at) -> dict:

@@ -14,18 +14,14 @@ import time
 import urllib.request
 
 import pytest
-from conftest import DEMO, DEMO_HOURLY, ROOT, require_tool
+from conftest import DEMO, DEMO_HOURLY, ROOT, expected_headline, require_tool
 
 from lcoe import engine as model
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.about import CAUTION
-from lcoe.outputs import report as rp
 
 pytestmark = pytest.mark.slow
 
-HEADLINE = [("metrics", "lcoe_nominal_per_mwh"), ("metrics", "lcoe_real_per_mwh"), ("metrics", "project_npv"),
-            ("metrics", "equity_irr"), ("metrics", "min_dscr"), ("metrics", "debt_amount"),
-            ("energy", "net_aep_p50_mwh"), ("energy", "net_aep_p90_1yr_mwh"), ("energy", "net_capacity_factor")]
 CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
                  "--disable-sync", "--no-first-run"]
 
@@ -77,13 +73,7 @@ def test_headline_figures_in_the_browser(server, tmp_path):
     chromium = require_tool("chromium")
     sync_api = pytest.importorskip("playwright.sync_api")
     scn = sc.load(DEMO)
-    case = model.run(scn)
-    cur = scn.project.currency
-    expected = {}
-    for block, key in HEADLINE:
-        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
-        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
-        expected[f"{name} [{unit.format(cur=cur)}]"] = rp.fmt(value, how)
+    expected = expected_headline(model.run(scn))
 
     with sync_api.sync_playwright() as p:
         browser = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
@@ -192,16 +182,6 @@ def _headline(page) -> dict:
             metrics.nth(i).locator('[data-testid="stMetricValue"]').inner_text().strip() for i in range(metrics.count())}
 
 
-def _expected(scn) -> dict:
-    case = model.run(scn)
-    out = {}
-    for block, key in HEADLINE:
-        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
-        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
-        out[f"{name} [{unit.format(cur=scn.project.currency)}]"] = rp.fmt(value, how)
-    return out
-
-
 def _type(page, group: str, label: str, text: str) -> None:
     box = page.get_by_role("textbox", name=label, exact=True)
     if not box.is_visible():
@@ -233,7 +213,7 @@ def test_a_decimal_comma_and_an_out_of_range_value_typed_in_the_browser(server):
             charts_drawn = page.locator('[data-testid="stVegaLiteChart"], [data-testid="stAltairChart"]').count()
         finally:
             browser.close()
-    assert after_comma == _expected(scn.with_overrides({"maintenance.fixed_per_kw_year": 36.5}))
+    assert after_comma == expected_headline(model.run(scn.with_overrides({"maintenance.fixed_per_kw_year": 36.5})))
     assert after_bad == after_comma
     assert [t.strip() for t in field_errors] == ["Availability, later years 150 %: at most 100 %"]
     assert stale == 1 and charts_drawn >= 2

@@ -42,6 +42,13 @@ tenor_years = 16  # years
 '''
 
 
+def _unpack(files: dict, where) -> dict:
+    for name, data in files.items():
+        (where / name).parent.mkdir(parents=True, exist_ok=True)
+        (where / name).write_bytes(data)
+    return files
+
+
 def test_edit_text_changes_values_in_place_and_keeps_every_comment():
     raw = tomllib.loads(FILE)
     raw["project"]["lifetime_years"] = 20
@@ -74,10 +81,7 @@ def test_a_bundle_leaves_out_what_lcoe_check_would_refuse_for_the_inputs_and_say
     scn = sc.load(DEMO)
     over, _ = lifetime.life_overrides(scn, 12)
     changed = scn.with_overrides(over)
-    files = bundle.bundle_files(changed, DEMO.read_text(encoding="utf-8"), "short")
-    for name, data in files.items():
-        (tmp_path / name).parent.mkdir(parents=True, exist_ok=True)
-        (tmp_path / name).write_bytes(data)
+    files = _unpack(bundle.bundle_files(changed, DEMO.read_text(encoding="utf-8"), "short"), tmp_path)
     assert cli.main(["check", str(tmp_path / "short" / "short.toml")]) == 0, capsys.readouterr().err
     text = files["short/short.toml"].decode()
     assert "# Left out: montecarlo.vary.revenue.merchant_price_per_mwh, these inputs do not use it" in text
@@ -90,10 +94,7 @@ def test_a_loaded_variant_bundles_with_the_variants_that_still_fit(tmp_path, cap
     """The 30-year variant adds an extension overhaul in year 25: the file's 20-year variant no longer
     fits it and is left out, said in the file; the added overhaul is appended, the comments kept."""
     var = sc.load(DEMO).variant("life_30_extension")
-    files = bundle.bundle_files(var, DEMO.read_text(encoding="utf-8"), "v")
-    for name, data in files.items():
-        (tmp_path / name).parent.mkdir(parents=True, exist_ok=True)
-        (tmp_path / name).write_bytes(data)
+    files = _unpack(bundle.bundle_files(var, DEMO.read_text(encoding="utf-8"), "v"), tmp_path)
     assert cli.main(["check", str(tmp_path / "v" / "v.toml")]) == 0, capsys.readouterr().err
     text = files["v/v.toml"].decode()
     assert "# Left out: variant life_20, it does not fit these inputs" in text
