@@ -64,6 +64,12 @@ def load_file(path: str, mtime_ns: int) -> sc.Scenario:
     return sc.load(path)
 
 
+@st.cache_data(max_entries=4, show_spinner=False)
+def site_files(stamped: tuple) -> list[str]:
+    """The scenario files of one site in assumptions/ (portfolios left out), read again when one changes."""
+    return [name for name, _ in stamped if not is_portfolio_file(ASSUMPTIONS / name)]
+
+
 def upload_folder() -> Path:
     """This session's folder for the data files uploaded with a scenario."""
     folder = st.session_state.get("upload_dir")
@@ -191,7 +197,7 @@ def _slug(name: str) -> str:
 
 def pick_scenario() -> tuple[sc.Scenario | None, str]:
     """The scenario chosen in the sidebar (a file, an upload, or a variant of either loaded for editing)."""
-    files = sorted(p.name for p in ASSUMPTIONS.glob("*.toml") if not is_portfolio_file(p))
+    files = site_files(tuple((p.name, p.stat().st_mtime_ns) for p in sorted(ASSUMPTIONS.glob("*.toml"))))
     first = files.index(DEMO_FILE) if DEMO_FILE in files else 0     # the demo site, not a portfolio's site
     st.sidebar.header("Scenario")
     choice = st.sidebar.selectbox("Scenario file from assumptions/", files + [UPLOAD], index=first,

@@ -172,10 +172,10 @@ FOLLOWS = {"operations.availability_first_year": "the later-years availability",
            "wind.shear_exponent": "the default 1/7"}
 
 
-def _help(scn, spec) -> str | None:
-    """A note for a key the file leaves out: it follows another input until the user sets it."""
+def _help(raw: dict, spec) -> str | None:
+    """A note for a key the file (its tables ``raw``) leaves out: it follows another input until the user sets it."""
     try:
-        sc.get_dotted(scn.raw, spec["key"])
+        sc.get_dotted(raw, spec["key"])
         return None
     except KeyError:
         pass
@@ -282,6 +282,7 @@ def input_widgets(scn, token: str, query: str = "") -> Drawn:
     store = st.session_state.setdefault("typed", {}).setdefault(token, {})
     opened = st.session_state.setdefault("opened", set())
     words = query.lower().split()
+    raw = scn.raw                     # one copy of the file's tables for every field's note
     out = Drawn()
     for gi, (group, specs) in enumerate(input_groups(scn)):
         texts = {}
@@ -304,7 +305,7 @@ def input_widgets(scn, token: str, query: str = "") -> Drawn:
             with st.sidebar.expander(group, expanded=expanded):
                 _notes(scn, group)
                 for spec in drawn:
-                    _draw(scn, spec, f"in|{token}|{gi}|{spec['key']}", texts, store, out)
+                    _draw(raw, spec, f"in|{token}|{gi}|{spec['key']}", texts, store, out)
         for spec in specs:
             key = spec["key"]
             if key in out.problems:
@@ -331,9 +332,9 @@ def _notes(scn, group: str) -> None:
                    f"rotor {scn.turbine.rotor_diameter_m:g} m")
 
 
-def _draw(scn, spec, wkey: str, texts: dict, store: dict, out: Drawn) -> None:
+def _draw(raw: dict, spec, wkey: str, texts: dict, store: dict, out: Drawn) -> None:
     label = f"{spec['label']} [{spec['unit']}]" if spec["unit"] else spec["label"]
-    hint = _help(scn, spec)
+    hint = _help(raw, spec)
     key = spec["key"]
     if spec["kind"] == "choice":
         opts = list(spec["options"])
