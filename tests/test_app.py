@@ -81,7 +81,8 @@ def start(**session) -> AppTest:
 
 
 def shown_headline(at) -> dict:
-    return {m.label: m.value for m in at.metric}
+    """The nine headline figures (drawn first; a Monte Carlo tab adds its own below)."""
+    return {m.label: m.value for m in list(at.metric)[:9]}
 
 
 def input_key(at, dotted: str) -> str:
@@ -888,3 +889,59 @@ def test_the_tornado_names_each_inputs_low_and_high_value():
     spec = at.get("vega_lite_chart")[0].proto.spec
     turbine = next(r for r in rows if r["key"] == "capex.turbine_per_kw")
     assert f"Turbine price [EUR/kW]: {turbine['low_value']:,.0f} to {turbine['high_value']:,.0f}" in spec
+
+
+# --------------------------------------------------------------------------- the whole journey (issue 16, done when)
+
+def test_a_first_time_user_brings_a_site_pins_cases_runs_the_monte_carlo_and_downloads(media, tmp_path, capsys):
+    """Upload a site (scenario, curve, series), edit lifetime and maintenance, pin three named cases,
+    run the Monte Carlo, read the lender probabilities, download a bundle and a workbook: the bundle
+    passes `lcoe check` elsewhere and gives the figures on screen; the workbook holds the same figures
+    and the Monte Carlo sheet."""
+    openpyxl = pytest.importorskip("openpyxl")
+    unc = pytest.importorskip("lcoe.analysis.montecarlo")
+    curve = (ROOT / "demo" / "tallowmere_curve.csv").read_bytes()
+    series = (ROOT / "demo" / "tallowmere_wind_hourly.csv").read_bytes()
+    data = DEMO_HOURLY.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"curve.csv"').replace(
+        b'"../demo/tallowmere_wind_hourly.csv"', b'"wind.csv"')
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("my_site.toml", data, "application/toml"))
+    at.file_uploader(key="upload_data").set_value([("curve.csv", curve, "text/csv"),
+                                                   ("wind.csv", series, "text/csv")]).run()
+    assert not at.exception and not at.error
+    _pin(at, "as uploaded")
+    type_in(at, "project.lifetime_years", "28")
+    type_in(at, "maintenance.fixed_per_kw_year", "39,5").run()
+    _pin(at, "28 years")
+    type_in(at, "maintenance.component.gearbox.failure_rate_per_turbine_year", "0,015").run()
+    _pin(at, "better gearbox")
+    assert [p["name"] for p in at.session_state["pins"]] == ["as uploaded", "28 years", "better gearbox"]
+    at.session_state["view"] = "Monte Carlo"
+    at.run()
+    at.text_input(key="mc_trials").set_value("1000").run()
+    at.button(key="mc_run").click().run()
+    assert not at.exception and not at.error
+    changes = {"project.lifetime_years": 28, "maintenance.fixed_per_kw_year": 39.5,
+               "maintenance.component.gearbox.failure_rate_per_turbine_year": 0.015}
+    scn = sc.load(DEMO_HOURLY).with_overrides(changes)
+    case = model.run(scn)
+    assert shown_headline(at) == expected_headline(case)
+    rep = unc.monte_carlo(scn, case, trials=1000).report()
+    shown = {m.label: m.value for m in at.metric}
+    assert shown["Chance minimum DSCR < 1.00x [%]"] == rp.fmt(rep["prob_min_dscr_below_1"], "pct")
+    # the bundle, unpacked elsewhere
+    with zipfile.ZipFile(io.BytesIO(download(at, media, "dl_bundle"))) as z:
+        z.extractall(tmp_path / "elsewhere")
+        (toml_name,) = [n for n in z.namelist() if n.endswith(".toml")]
+    path = tmp_path / "elsewhere" / toml_name
+    assert cli.main(["check", str(path)]) == 0, capsys.readouterr().err
+    assert expected_headline(model.run(sc.load(path))) == shown_headline(at)
+    # the workbook of the same inputs, with its Monte Carlo sheet
+    wb = openpyxl.load_workbook(io.BytesIO(download(at, media, "dl_workbook")))
+    assert "Monte Carlo" in wb.sheetnames
+    cells = _named_cells(wb)
+    sheet, row, _ = cells["lcoe_nominal_per_mwh"]
+    head = {wb[sheet].cell(10, c).value: c for c in range(1, 8)}
+    assert wb[sheet].cell(row, head["Engine when written"]).value == pytest.approx(
+        case.metrics["lcoe_nominal_per_mwh"], rel=1e-12)
