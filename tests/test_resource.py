@@ -119,6 +119,20 @@ def test_air_density_from_elevation_and_temperature_in_the_scenario():
     assert en.energy_of(given).air_density_kgm3 == 1.18
 
 
+@pytest.mark.parametrize("z, rho", [(0.0, 1.2250), (1000.0, 1.1117), (2000.0, 1.0066)])
+def test_scenario_without_temperature_takes_the_standard_atmosphere(z, rho):
+    """No wind.mean_temperature_c: the temperature is ISO 2533's 15 degC less 6.5 K per km, so the
+    density is the standard atmosphere's at the elevation (ISO 2533 table, from memory: 1.2250 kg/m^3
+    at 0 m, 1.1117 at 1000 m, 1.0066 at 2000 m; tolerance 5e-4), not 15 degC at every height."""
+    scn = make_scenario(wind__elevation_m=z, wind__mean_temperature_c=None)
+    assert scn.wind.mean_temperature_c is None
+    assert scn.wind.temperature_c == pytest.approx(15.0 - 0.0065 * z, abs=1e-12)
+    assert en.energy_of(scn).air_density_kgm3 == pytest.approx(rho, abs=5e-4)
+    given = make_scenario(wind__elevation_m=z, wind__mean_temperature_c=15.0)
+    if z > 0:   # 15 degC at 1000 m: some 2.3 % below the standard atmosphere (the old default)
+        assert en.energy_of(given).air_density_kgm3 < rho - 0.02
+
+
 # --------------------------------------------------------------------------- shear
 
 def test_power_law_shear_reference_case():

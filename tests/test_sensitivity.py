@@ -434,17 +434,20 @@ def _cli(capsys, *argv):
 
 def test_cli_sweep_json_and_table(capsys):
     """`lcoe sweep` on the demo: JSON parses (NaN as null), STEPS values from START to STOP (numpy.linspace)."""
-    rc, out, _ = _cli(capsys, "sweep", str(DEMO), "wind.mean_speed_mps", "5", "9", "5", "--json")
+    rc, out, _ = _cli(capsys, "sweep", str(DEMO), "--key", "wind.mean_speed_mps", "5", "9", "5", "--json")
     assert rc == 0
     d = json.loads(out)
     assert d["key"] == "wind.mean_speed_mps"
     assert [r["value"] for r in d["rows"]] == [5.0, 6.0, 7.0, 8.0, 9.0]
     el = [r["elasticity"] for r in d["rows"]]
     assert all(b < a for a, b in zip(el, el[1:]))
-    rc, out, _ = _cli(capsys, "sweep", str(DEMO), "capex.turbine_per_kw", "900", "1100", "3")
+    rc, out, _ = _cli(capsys, "sweep", str(DEMO), "--key", "capex.turbine_per_kw", "900", "1100", "3")
     assert rc == 0
     assert "Sweep of capex.turbine_per_kw [EUR/kW]" in out
-    assert "[EUR/MWh]" in out and "Net AEP P50" in out and "Indicative results only" in out
+    assert "[EUR/MWh]" in out and "Indicative results only" in out
+    # a cost leaves the energy as it is: no energy columns, no elasticity of 0.000
+    assert "Net AEP P50" not in out and "Elasticity" not in out
+    assert "the energy does not depend on this input" in " ".join(out.split())
     assert "1,100" in out
 
 
@@ -476,8 +479,8 @@ def test_cli_solve_json_and_table(capsys):
 
 
 @pytest.mark.parametrize("argv, match", [
-    (["sweep", str(DEMO), "wind.mean_sped_mps", "5", "9", "3"], "wind.mean_sped_mps: unknown key"),
-    (["sweep", str(DEMO), "losses.wake", "0.5", "1.5", "3"], "losses.wake = 1.0: must be < 1"),
+    (["sweep", str(DEMO), "--key", "wind.mean_sped_mps", "5", "9", "3"], "wind.mean_sped_mps: unknown key"),
+    (["sweep", str(DEMO), "--key", "losses.wake", "0.5", "1.5", "3"], "losses.wake = 1.0: must be < 1"),
     (["tornado", str(DEMO), "--metric", "irr"], "--metric = 'irr': unknown metric"),
     (["solve", str(DEMO), "--target", "lcoe_nominal_per_mwh", "--vary", "capex.turbine_per_kw"],
      "--target = 'lcoe_nominal_per_mwh': must be METRIC=VALUE"),

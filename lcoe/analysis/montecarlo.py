@@ -30,8 +30,7 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
-from scipy import stats
-from scipy.special import ndtr, ndtri
+from scipy.special import gammaln, ndtr, ndtri, xlogy
 
 from lcoe import engine as model
 from lcoe.finance import _kernels  # compiled loops; tests set it to None to run the array formulas
@@ -384,7 +383,10 @@ def draw_block(scn, n: int, rng: np.random.Generator, lifetime: int, *, long_ter
 
 @lru_cache(maxsize=256)
 def _poisson_cdf32(lam: float, kmax: int) -> np.ndarray:
-    cdf = np.cumsum(stats.poisson.pmf(np.arange(kmax + 1), lam)).astype(np.float32)
+    # the Poisson pmf exp(k ln lam - ln k! - lam), as scipy.stats.poisson.pmf writes it (xlogy, gammaln);
+    # scipy.special alone, as scipy.stats takes half a second to import
+    k = np.arange(kmax + 1)
+    cdf = np.cumsum(np.exp(xlogy(k, lam) - gammaln(k + 1) - lam)).astype(np.float32)
     cdf.flags.writeable = False
     return cdf
 

@@ -156,14 +156,15 @@ def elasticities(values, energies) -> list:
     return out
 
 
-def sweep(scn, key: str, values, *, breakeven: bool = False) -> list[dict]:
+def sweep(scn, key: str, values, *, breakeven: bool = False, progress=None) -> list[dict]:
     """The model at each value of one input, the others as in the scenario.
 
     Returns one dict per value: ``value``, ``energy`` (gross AEP, net P50 AEP [MWh/yr],
     net capacity factor [-]), ``metrics`` (every key of :data:`lcoe.engine.METRIC_KEYS`;
     the break-even PPA price only with ``breakeven=True``, else None; non-finite
     figures are None) and ``elasticity`` = d ln(net P50 AEP) / d ln(value) from the
-    neighbouring rows (see :func:`elasticities`).
+    neighbouring rows (see :func:`elasticities`). ``progress``, if given, is called with the
+    fraction done (0 to 1) as the values are run.
     """
     base_value(scn, key)
     integer = is_integer_key(scn, key)
@@ -171,24 +172,47 @@ def sweep(scn, key: str, values, *, breakeven: bool = False) -> list[dict]:
     if vals.size == 0:
         raise ScenarioError("a sweep needs at least one value", key=key, has_value=False)
     typed = [_typed(scn, key, float(v), integer) for v in vals]
+    batch = _batchable(key)
+    # the steps to report: each value's energy, its metrics (one batch, or each value) and break-even
+    steps, done = len(typed) * (1 + (not batch) + breakeven) + batch, 0
+
+    def tick():
+        nonlocal done
+        done += 1
+        if progress is not None:
+            progress(min(1.0, done / steps))
+
     scns = [_scenario_at(scn, key, v) for v in typed]
-    energies = [en.energy_of(s) for s in scns]
-    if _batchable(key):
+    energies = []
+    for s in scns:
+        energies.append(en.energy_of(s))
+        tick()
+    if batch:
         arr = np.asarray(typed, float)
         _, m, _ = model.evaluate(scn, overrides=_overrides(scn, key, arr))
         metric_rows = [_metric_row(m, i) for i in range(arr.size)]
+        tick()
     else:
         metric_rows = []
         for s, e in zip(scns, energies):
             _, m, _ = model.evaluate(s, energy=e)
             metric_rows.append(_metric_row(m, 0))
+            tick()
     if breakeven:
         for s, e, row in zip(scns, energies, metric_rows):
             row[BREAKEVEN] = _num(model.breakeven_price(s, e)[0])
+            tick()
     reports = [e.report() for e in energies]
     elast = elasticities(typed, [r["net_aep_p50_mwh"] for r in reports])
     return [{"value": float(v), "energy": {k: _num(r[k]) for k in ENERGY_KEYS}, "metrics": row, "elasticity": el}
             for v, r, row, el in zip(typed, reports, metric_rows, elast)]
+
+
+def energy_depends(scn, rows) -> bool:
+    """False where a swept key leaves the energy as it is: every row's energy equals the scenario's
+    (a cost, a price or a rate), so the energy columns and the elasticity (0) say nothing."""
+    base = en.energy_of(scn).report()
+    return any(r["energy"][k] != _num(base[k]) for r in rows for k in ENERGY_KEYS)
 
 
 # --------------------------------------------------------------------------- tornado
@@ -283,7 +307,7 @@ def _energy_row(scn, case, metric: str) -> dict:
             "basis": "energy P90/P10 (10 yr)", "at": at}
 
 
-def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None) -> list[dict]:
+def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=None) -> list[dict]:
     """One-at-a-time swings of each input between its low and high value, largest effect first.
 
     Rows: ``key``, ``base_value``, ``low_value``, ``high_value`` (see
@@ -294,7 +318,8 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None) -> list[d
     :func:`default_inputs`; an input from that default list that cannot be moved
     validly (a life shorter than the debt tenor, say) is left out, while a named
     input raises the ScenarioError. ``net_aep_p90_p10_10yr`` names the combined
-    energy uncertainty (values in MWh/yr).
+    energy uncertainty (values in MWh/yr). ``progress``, if given, is called with the fraction
+    of the inputs done (0 to 1).
     """
     check_metric(metric)
     case = model.run(scn, breakeven=metric == BREAKEVEN)
@@ -302,7 +327,9 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None) -> list[d
     named = inputs is not None
     keys = list(inputs) if named else default_inputs(scn)
     rows = []
-    for key in keys:
+    for i, key in enumerate(keys):
+        if progress is not None and i:
+            progress(i / len(keys))
         if key == ENERGY_INPUT:
             r = _energy_row(scn, case, metric)
             at_low, at_high = r.pop("at")
@@ -318,6 +345,8 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None) -> list[d
         rows.append({"key": key, "base_value": base_value(scn, key), "low_value": low, "high_value": high,
                      "basis": basis, "metric_base": metric_base, "metric_at_low": sw[0]["metrics"][metric],
                      "metric_at_high": sw[1]["metrics"][metric]})
+    if progress is not None:
+        progress(1.0)
     for r in rows:
         lo, hi = r["metric_at_low"], r["metric_at_high"]
         r["swing"] = None if lo is None or hi is None else hi - lo

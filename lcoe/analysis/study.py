@@ -22,19 +22,29 @@ class Report:
     variants: dict = field(default_factory=dict)    # name -> Case
     montecarlo: object | None = None                # montecarlo.MonteCarloResult
     sensitivity: object | None = None               # sensitivity.SensitivitySet (shown by the workbook only)
+    as_run: dict = field(default_factory=dict)      # changes made on the command line (variant, set, seed)
 
     def to_dict(self) -> dict:
         c = self.case
         warnings = list(c.warnings)
+        costs = costs_block(c)
+        costs["capex_per_kw"] = costs["capex_total"] / c.scenario.plant_kw    # (the workbook has the other three)
         out = {
             "scenario": c.scenario.project.name,
+            **file_block(c.scenario),
+            "units": units_block(c.scenario),
+            **({"as_run": dict(self.as_run)} if self.as_run else {}),
             "warnings": warnings,
+            "project": project_block(c.scenario),
             "energy": c.energy.report(),
             **directions_blocks(c.energy),
-            "costs": costs_block(c),
+            "costs": costs,
+            "financing": financing_block(c),
             "metrics": dict(c.metrics),
             "annual": c.annual(),
         }
+        if out["financing"]["gearing"] is None:
+            warnings.append("financing.gearing is null: the capex is zero")
         series = en.site_for(c.scenario).climate.series
         if series is not None:
             out["series"] = series_block(series)
@@ -94,6 +104,47 @@ def costs_block(case: Case) -> dict:
     f = case.flows
     return {"capex_total": float(f.capex_total[0, 0]), "opex_year1": float(f.opex[0, 1]),
             "decommissioning_net": float(f.decommissioning[0, -1])}
+
+
+def file_block(scn) -> dict:
+    """``scenario_file``: the path the scenario was read from and the SHA-256 of its bytes (only for a
+    scenario read from a file)."""
+    if scn.file_sha256 is None:
+        return {}
+    return {"scenario_file": {"path": scn.source, "sha256": scn.file_sha256}}
+
+
+def units_block(scn) -> dict:
+    """The units of every figure of the report (money in whole units of the currency, never thousands)."""
+    cur = scn.project.currency
+    return {"currency": cur, "money": cur, "money_scale": 1,
+            "annual_money": "nominal (each year's own money; inputs are year-0 money)",
+            "rates": "fraction (0.065 = 6.5 %)", "energy": "MWh", "annual_energy": "MWh per year",
+            "power": "kW", "price": f"{cur}/MWh", "capex_per_kw": f"{cur}/kW"}
+
+
+def project_block(scn) -> dict:
+    p = scn.project
+    return {"name": p.name, "currency": p.currency, "lifetime_years": p.lifetime_years, "turbines": p.turbines,
+            "rated_power_kw": scn.turbine.rated_power_kw, "plant_mw": scn.plant_kw / 1000.0}
+
+
+def financing_block(case: Case) -> dict:
+    """The rates and the debt's terms the case ran with (derived defaults applied), and its gearing;
+    ``debt`` only where the scenario has a [finance.debt] table."""
+    scn, f = case.scenario, case.flows
+    capex = float(f.capex_total[0, 0])
+    debt = scn.finance.debt
+    out = {"discount_rate": scn.finance.discount_rate, "equity_target_return": scn.equity_target_return,
+           "inflation": scn.finance.inflation, "tax_rate": scn.finance.tax_rate,
+           "gearing": float(f.debt[0, 0]) / capex if capex > 0 else None}
+    if debt is not None:
+        out["debt"] = {"sizing_case": debt.sizing_case, "target_dscr": debt.target_dscr,
+                       "max_gearing": debt.max_gearing,
+                       "gearing_cap_binds": bool(np.ravel(case.schedule.gearing_bound)[0]),
+                       "tenor_years": debt.tenor_years, "interest_rate": debt.interest_rate,
+                       "upfront_fee": debt.upfront_fee}
+    return out
 
 
 def build(scn, *, trials: int | None = None, variants: bool = True, progress=None,

@@ -12,7 +12,7 @@ import argparse
 import importlib
 import sys
 
-from lcoe.cli.options import finite_number, nonneg_int, whole_number
+from lcoe.cli.options import nonneg_int, sweep_number, whole_number
 from lcoe.inputs.about import CAUTION, __version__
 from lcoe.inputs.errors import ScenarioError
 
@@ -30,13 +30,32 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("file")
     _command(c, "lcoe.cli.run:cmd_check")
 
+    n = sub.add_parser("new", help="write a commented scenario for a new site, with a power-curve template",
+                       description="Write PATH (.toml), a complete scenario whose comments give every key's unit, "
+                                   "range and default, and PATH's stem + _curve.csv beside it; both invented, ready "
+                                   "to run and to edit. Existing files are never replaced.")
+    n.add_argument("path", metavar="PATH", help="the new scenario file (.toml)")
+    _command(n, "lcoe.cli.scaffold:cmd_new")
+
+    k = sub.add_parser("keys", help="every scenario key with its unit, range, default and meaning",
+                       description="Print the reference of the scenario keys, built from the schema the files "
+                                   "are checked against.")
+    k.add_argument("section", nargs="?", metavar="SECTION", help="one section, e.g. finance or finance.debt")
+    _command(k, "lcoe.cli.scaffold:cmd_keys")
+
     r = sub.add_parser("run", help="energy, costs, cash flow and metrics of a scenario")
     r.add_argument("file")
     r.add_argument("--json", action="store_true", help="print the JSON report")
     r.add_argument("--trials", type=nonneg_int, default=None, help="Monte Carlo trials (overrides the file)")
     r.add_argument("--workbook", metavar="PATH", help="write the lender workbook (.xlsx)")
-    r.add_argument("--csv", metavar="PATH", help="write the yearly table as CSV")
+    r.add_argument("--csv", metavar="PATH", help="write the yearly table as CSV (.csv, or - for standard output)")
     r.add_argument("--brief", action="store_true", help="table output without the yearly rows")
+    r.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
+                   help="change one input as if written in the file, e.g. capex.turbine_per_kw=1150 or "
+                        "finance.discount_rate=7%% (repeatable)")
+    r.add_argument("--variant", metavar="NAME", help="run one of the file's [variants] as the base case")
+    r.add_argument("--seed", type=nonneg_int, default=None, help="Monte Carlo seed (overrides the file)")
+    r.add_argument("--wide", action="store_true", help="print the tables whole, however wide")
     r.add_argument("--force", action="store_true",
                    help="replace a read-only output file or a symbolic link (never an input, a folder or a device)")
     _command(r, "lcoe.cli.run:cmd_run")
@@ -45,13 +64,14 @@ def build_parser() -> argparse.ArgumentParser:
                        description="Run the model at STEPS evenly spaced values of KEY from START to STOP (both "
                                    "included), the other inputs as in the file.")
     s.add_argument("file")
-    s.add_argument("key", help="dotted scenario key, e.g. wind.mean_speed_mps")
-    s.add_argument("start", type=finite_number)
-    s.add_argument("stop", type=finite_number)
+    s.add_argument("--key", required=True, help="dotted scenario key to vary, e.g. wind.mean_speed_mps")
+    s.add_argument("start", type=sweep_number, help="first value (a fraction may be written 5%%)")
+    s.add_argument("stop", type=sweep_number, help="last value")
     s.add_argument("steps", type=whole_number(1, 10000), help="number of values, START and STOP included")
     s.add_argument("--json", action="store_true", help="print JSON")
     s.add_argument("--breakeven", action="store_true", help="also solve the break-even PPA price at each value")
     s.add_argument("--metrics", metavar="LIST", help="comma-separated metrics for the table columns")
+    s.add_argument("--wide", action="store_true", help="print the table whole, however wide")
     _command(s, "lcoe.cli.sensitivity:cmd_sweep")
 
     t = sub.add_parser("tornado", help="one-at-a-time swings of the uncertain inputs, largest first",
@@ -59,9 +79,12 @@ def build_parser() -> argparse.ArgumentParser:
                                    "time, and sort by the effect on a metric.")
     t.add_argument("file")
     t.add_argument("--metric", default="lcoe_nominal_per_mwh", help="metric to rank by (default %(default)s)")
-    t.add_argument("--inputs", metavar="LIST", help="comma-separated keys (default: the vary keys, the main "
-                                                    "drivers and net_aep_p90_p10_10yr)")
+    t.add_argument("--key", action="append", metavar="KEY", help="an input to move (repeatable, or comma-separated; "
+                                                              "default: the vary keys, the main drivers and "
+                                                              "net_aep_p90_p10_10yr)")
+    t.add_argument("--inputs", action="append", dest="key", help=argparse.SUPPRESS)   # the former name
     t.add_argument("--json", action="store_true", help="print JSON")
+    t.add_argument("--wide", action="store_true", help="print the table whole, however wide")
     _command(t, "lcoe.cli.sensitivity:cmd_tornado")
 
     v = sub.add_parser("solve", help="the value of one input that meets a target metric",
@@ -69,9 +92,11 @@ def build_parser() -> argparse.ArgumentParser:
     v.add_argument("file")
     v.add_argument("--target", required=True, metavar="METRIC=VALUE",
                    help="e.g. lcoe_nominal_per_mwh=50 or equity_irr=0.10 (or 10%%)")
-    v.add_argument("--vary", required=True, metavar="KEY", help="dotted scenario key to vary")
-    v.add_argument("--low", type=finite_number, help="low end of the search range (default 0.1x the scenario value)")
-    v.add_argument("--high", type=finite_number, help="high end of the search range (default 10x)")
+    v.add_argument("--key", metavar="KEY", help="dotted scenario key to vary (required)")
+    v.add_argument("--vary", dest="key", help=argparse.SUPPRESS)                          # the former name
+    v.add_argument("--low", help="low end of the search range (default 0.1x the scenario value; a fraction "
+                                 "may be written 5%%)")
+    v.add_argument("--high", help="high end of the search range (default 10x)")
     v.add_argument("--json", action="store_true", help="print JSON")
     _command(v, "lcoe.cli.sensitivity:cmd_solve")
 
@@ -87,6 +112,7 @@ def build_parser() -> argparse.ArgumentParser:
     f.add_argument("--workers", type=whole_number(0, 64), default=None,
                    help="workers of the local cluster (default: one per core; 0: no Dask, a plain loop)")
     f.add_argument("--workbook", metavar="PATH", help="write the results as a workbook of values (.xlsx)")
+    f.add_argument("--wide", action="store_true", help="print the tables whole, however wide")
     _command(f, "lcoe.cli.portfolio:cmd_portfolio")
 
     b = sub.add_parser("bench", help="time the engine on the demo scenario (Monte Carlo, loop, deterministic)")
@@ -98,6 +124,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="sites of the portfolio benchmark (0: skip it; default %(default)s)")
     b.add_argument("--portfolio-trials", type=whole_number(1), default=2000,
                    help="trials of the portfolio benchmark (default %(default)s)")
+    b.add_argument("--no-startup", action="store_true",
+                   help="skip the start-up timings (help, a first and a later `lcoe run` in fresh processes)")
     b.add_argument("--json", action="store_true")
     _command(b, "lcoe.cli.bench:cmd_bench")
 
@@ -121,6 +149,9 @@ def main(argv=None) -> int:
     except SystemExit as exc:  # argparse prints its own one-line usage error
         return int(exc.code or 0) if exc.code in (0, None) else 2
     try:
+        if args.command != "app":
+            from lcoe.cli.kernels import announce_builds
+            announce_builds()
         return int(_resolve(args.func)(args) or 0)
     except ScenarioError as exc:
         print(f"error: {exc.line()}", file=sys.stderr)

@@ -7,15 +7,23 @@ deterministic run with the site cached, (d) the Weibull AEP integral, (e) the wa
 losses of a 50-turbine grid over a 12-sector rose in 1 m/s speed bins, (f) the portfolio
 Monte Carlo of many invented sites through the local Dask cluster with 1 and 2 workers,
 and the peak memory of the process. The loop and the engine are checked against each other on
-the subsample.
+the subsample. With ``startup`` (the command's default) it also times the command line as a user
+meets it, each in a fresh process started from an empty folder: ``--help`` and every command's help
+(``cli_help_s``, the slowest), a first ``lcoe run`` of the scenario with an empty numba cache, the
+compiled kernels built (``cold_run_s``), and the same run again, the kernels cached (``warm_run_s``,
+the median of three).
 """
 
 from __future__ import annotations
 
 import json
+import os
 import resource as _rusage
+import subprocess
 import sys
+import tempfile
 import time
+from pathlib import Path
 
 import numpy as np
 import numpy_financial as npf
@@ -46,6 +54,33 @@ def _median_time(fn, repeat: int) -> float:
         fn()
         times.append(time.perf_counter() - t)
     return float(np.median(times))
+
+
+HELP_COMMANDS = ((), ("check",), ("run",), ("sweep",), ("tornado",), ("solve",), ("portfolio",), ("bench",),
+                 ("app",))
+
+
+def _timed_command(argv, cwd, env=None) -> float:
+    """Wall time of ``python -m lcoe ARGV`` in a fresh process (output discarded); raises if it fails."""
+    t = time.perf_counter()
+    done = subprocess.run([sys.executable, "-m", "lcoe", *argv], cwd=cwd, env=env, stdout=subprocess.DEVNULL,
+                          stderr=subprocess.PIPE, text=True)
+    elapsed = time.perf_counter() - t
+    if done.returncode != 0:
+        raise AssertionError(f"bench: `lcoe {' '.join(argv)}` failed: {done.stderr.strip()[-300:]}")
+    return elapsed
+
+
+def startup_bench(path=DEMO, warm_runs: int = 3) -> dict:
+    """Start-up of the command line in fresh processes, from an empty folder (see the module's note)."""
+    path = str(Path(path).resolve())
+    with tempfile.TemporaryDirectory(prefix="lcoe-bench-") as tmp:
+        helps = {" ".join(c) or "lcoe": _timed_command([*c, "--help"], tmp) for c in HELP_COMMANDS}
+        env = dict(os.environ, NUMBA_CACHE_DIR=str(Path(tmp) / "numba-cache"))
+        cold = _timed_command(["run", path], tmp, env)
+        warm = [_timed_command(["run", path], tmp, env) for _ in range(max(1, warm_runs))]
+    return {"cli_help_s": max(helps.values()), "cli_help_by_command_s": helps, "cold_run_s": cold,
+            "warm_run_s": float(np.median(warm)), "warm_runs_s": warm}
 
 
 def _peak_rss_mb() -> float:
@@ -296,9 +331,9 @@ def portfolio_bench(sites: int = 200, trials: int = 2000) -> dict:
 
 
 def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: int = 5,
-              portfolio_sites: int = 0, portfolio_trials: int = 2000) -> dict:
+              portfolio_sites: int = 0, portfolio_trials: int = 2000, startup: bool = False) -> dict:
     """Time the engine; ``engine_s`` is the median of ``repeat`` Monte Carlo runs;
-    ``portfolio_sites`` > 0 adds :func:`portfolio_bench`."""
+    ``portfolio_sites`` > 0 adds :func:`portfolio_bench`, ``startup`` :func:`startup_bench`."""
 
     scn = scenario.load(path)
     case = model.run(scn)                      # warms the site cache (gross AEP table)
@@ -368,6 +403,8 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
     if portfolio_sites > 0:
         out.update(portfolio_bench(portfolio_sites, portfolio_trials))
         out["peak_rss_mb"] = _peak_rss_mb()
+    if startup:
+        out.update(startup_bench(path))
     return out
 
 
@@ -380,7 +417,8 @@ def cmd_bench(args) -> int:
     if args.repeat > 100:
         raise ScenarioError("must be at most 100", key="--repeat", value=args.repeat)
     res = run_bench(args.file or DEMO, trials=args.trials, loop_sample=args.loop_sample, repeat=args.repeat,
-                    portfolio_sites=args.portfolio_sites, portfolio_trials=args.portfolio_trials)
+                    portfolio_sites=args.portfolio_sites, portfolio_trials=args.portfolio_trials,
+                    startup=not args.no_startup)
     if args.json:
         print(json.dumps(res, indent=2))
         return 0
@@ -404,5 +442,11 @@ def cmd_bench(args) -> int:
         print(f"    1 worker:                                     {res['portfolio_s_1_worker']:.2f} s "
               f"(2 workers are {res['portfolio_speedup_1_to_2_workers']:.2f}x as fast; the trials alone "
               f"{res['portfolio_trials_speedup_1_to_2_workers']:.2f}x)")
+    if "cli_help_s" in res:
+        print("  Command line, fresh processes from an empty folder:")
+        print(f"    `--help` (the slowest of every command's):    {res['cli_help_s']:.2f} s")
+        print(f"    first `lcoe run`, kernels built:              {res['cold_run_s']:.2f} s")
+        print(f"    `lcoe run` again, kernels cached:             {res['warm_run_s']:.2f} s "
+              f"(median of {len(res['warm_runs_s'])})")
     print(f"  Peak memory:                                    {res['peak_rss_mb']:.0f} MB")
     return 0

@@ -11,6 +11,7 @@ from lcoe.inputs import portfolio as inputs
 from lcoe.inputs.errors import ScenarioError
 from lcoe.outputs import files
 from lcoe.outputs import portfolio as out
+from lcoe.outputs.tables import terminal_width
 from lcoe.outputs.workbook import portfolio as sheet
 
 
@@ -30,7 +31,7 @@ def runner_for(args):
 def cmd_portfolio(args) -> int:
     if args.workbook:
         files.check_output(args.workbook, option="--workbook", inputs=[("the portfolio", Path(args.file))],
-                           stdout=False)
+                           stdout=False, suffix=".xlsx")
     pf = inputs.load(args.file)
     with runner_for(args) as runner:
         result = analysis.run(pf, trials=args.trials, runner=runner)
@@ -40,7 +41,7 @@ def cmd_portfolio(args) -> int:
     if args.json:
         print(out.to_json(report))
     else:
-        sys.stdout.write(out.to_table(report))
+        sys.stdout.write(out.to_table(report, width=terminal_width(), wide=args.wide))
         if args.workbook:
             print(f"\nworkbook written: {args.workbook}")
     return 0

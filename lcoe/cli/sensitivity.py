@@ -13,18 +13,23 @@ from lcoe.analysis.sensitivity import (
     BREAKEVEN,
     ENERGY_INPUT,
     ENERGY_KEYS,
+    base_value,
     check_metric,
+    energy_depends,
     is_integer_key,
     null_reasons,
     solve,
     sweep,
     tornado,
 )
-from lcoe.analysis.study import clean
+from lcoe.analysis.study import clean, file_block, units_block
+from lcoe.cli import progress
+from lcoe.cli.options import key_number
 from lcoe.engine import run
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
 from lcoe.outputs.report import ENERGY_LABELS, METRIC_LABELS, fmt, heading
+from lcoe.outputs.tables import col, render, terminal_width, wrap
 
 # --------------------------------------------------------------------------- the commands
 
@@ -60,12 +65,21 @@ def _fmt_value(v, integer=False) -> str:
     return f"{v:.4g}"
 
 
-def _head(scn) -> list[str]:
-    return heading(scn.project.name, scn.source)
+def _head(scn, width) -> list[str]:
+    return heading(scn.project.name, scn.source, width=width)
 
 
-def _print_json(obj) -> None:
-    print(json.dumps(clean(obj), indent=2, allow_nan=False))
+def _print_json(obj, scn) -> None:
+    """The JSON of a command: after the scenario's name, the file it was read from (path, SHA-256)
+    and the units, as in the report of ``lcoe run``."""
+    head = {"scenario": obj.pop("scenario"), **file_block(scn), "units": units_block(scn)}
+    print(json.dumps(clean({**head, **obj}), indent=2, allow_nan=False))
+
+
+def _widths(args) -> tuple[int, int | None]:
+    """(the width of text, the width of tables: None with --wide)."""
+    width = terminal_width()
+    return width, None if getattr(args, "wide", False) else width
 
 
 SWEEP_COLUMNS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr", "equity_irr",
@@ -78,6 +92,15 @@ def _metric_list(text: str | None, default) -> list[str]:
     return [check_metric(m.strip(), label="--metrics") for m in text.split(",") if m.strip()]
 
 
+def sweep_columns(metrics: str | None, breakeven: bool) -> list[str]:
+    """The metric columns of a sweep: ``--metrics`` (or the default ones), and the break-even price
+    whenever ``--breakeven`` asks for it, also where ``--metrics`` does not name it."""
+    cols = _metric_list(metrics, SWEEP_COLUMNS)
+    if breakeven and BREAKEVEN not in cols:
+        cols.append(BREAKEVEN)
+    return cols
+
+
 def cmd_sweep(args) -> int:
     scn = sc.load(args.file)
     with sc.naming_the_file(scn):
@@ -85,35 +108,53 @@ def cmd_sweep(args) -> int:
 
 
 def _cmd_sweep(args, scn) -> int:
-    cols = _metric_list(args.metrics, SWEEP_COLUMNS + ((BREAKEVEN,) if args.breakeven else ()))
-    be = args.breakeven or BREAKEVEN in cols
-    values = np.linspace(args.start, args.stop, args.steps)
-    rows = sweep(scn, args.key, values, breakeven=be)
+    cols = sweep_columns(args.metrics, args.breakeven)
+    be = BREAKEVEN in cols
+    base_value(scn, args.key)            # an unknown key is named before its values are read
+    start, stop = (key_number(v, args.key, name) for v, name in ((args.start, "START"), (args.stop, "STOP")))
+    values = np.linspace(start, stop, args.steps)
+    with progress.bar(args, f"sweep of {args.key}") as tick:
+        rows = sweep(scn, args.key, values, breakeven=be, progress=tick)
     notes = null_reasons(scn, rows, cols)
+    energy = energy_depends(scn, rows)
     if args.json:
-        _print_json({"scenario": scn.project.name, "key": args.key, "rows": rows, "warnings": notes})
+        _print_json({"scenario": scn.project.name, "key": args.key, "energy_depends_on_key": energy, "rows": rows,
+                     "warnings": notes}, scn)
         return 0
     cur = scn.project.currency
+    width, tw = _widths(args)
     integer = is_integer_key(scn, args.key)
-    heads = [("Value", key_label(args.key, cur).split(" [")[-1].rstrip("]"))]
-    heads += [(ENERGY_LABELS[k][0], ENERGY_LABELS[k][1]) for k in ENERGY_KEYS]
-    heads += [("Elasticity", "dlnE/dlnx")]
-    heads += [(METRIC_LABELS[k][0], METRIC_LABELS[k][1].format(cur=cur)) for k in cols]
-    widths = [max(len(a), len(b) + 2, 9) for a, b in heads]
-    lines = _head(scn)
-    lines.append(f"Sweep of {key_label(args.key, cur)}: {len(rows)} value(s); elasticity = "
-                 "d ln(net AEP P50) / d ln(value) from the neighbouring rows; debt re-sized at each value")
-    lines.append("  " + "  ".join(f"{a:>{w}}" for (a, _), w in zip(heads, widths)))
-    lines.append("  " + "  ".join(f"{'[' + b + ']':>{w}}" for (_, b), w in zip(heads, widths)))
+    heads = [col("Value", "[" + key_label(args.key, cur).split(" [")[-1].rstrip("]") + "]")]
+    if energy:
+        heads += [col(ENERGY_LABELS[k][0], f"[{ENERGY_LABELS[k][1]}]") for k in ENERGY_KEYS]
+        heads += [col("Elasticity", "[dlnE/dlnx]")]
+    heads += [col(METRIC_LABELS[k][0], "[" + METRIC_LABELS[k][1].format(cur=cur) + "]") for k in cols]
+    cells = []
     for r in rows:
-        cells = [_fmt_value(r["value"], integer)]
-        cells += [fmt(r["energy"][k], ENERGY_LABELS[k][2]) for k in ENERGY_KEYS]
-        cells += ["n/a" if r["elasticity"] is None else f"{r['elasticity']:.3f}"]
-        cells += [fmt(r["metrics"][k], METRIC_LABELS[k][2]) for k in cols]
-        lines.append("  " + "  ".join(f"{c:>{w}}" for c, w in zip(cells, widths)))
+        line = [_fmt_value(r["value"], integer)]
+        if energy:
+            line += [fmt(r["energy"][k], ENERGY_LABELS[k][2]) for k in ENERGY_KEYS]
+            line += ["n/a" if r["elasticity"] is None else f"{r['elasticity']:.3f}"]
+        line += [fmt(r["metrics"][k], METRIC_LABELS[k][2]) for k in cols]
+        cells.append(line)
+    lines = _head(scn, width)
+    about = (f"Sweep of {key_label(args.key, cur)}: {len(rows)} value(s); debt re-sized at each value; "
+             + ("elasticity = d ln(net AEP P50) / d ln(value) from the neighbouring rows" if energy else
+                "the energy does not depend on this input, so its columns and the elasticity are left out"))
+    lines += wrap(about, width)
+    lines += render(heads, cells, width=tw)
+    if not energy:
+        notes = [n for n in notes if not n.startswith("elasticity")]
     lines.extend(f"warning: {w}" for w in notes)
     print("\n".join(lines))
     return 0
+
+
+def tornado_keys(args) -> list[str] | None:
+    """The inputs named with ``--key`` (repeated, or comma-separated); None for the default set."""
+    if not args.key:
+        return None
+    return [k.strip() for text in args.key for k in text.split(",") if k.strip()] or None
 
 
 def cmd_tornado(args) -> int:
@@ -124,34 +165,36 @@ def cmd_tornado(args) -> int:
 
 def _cmd_tornado(args, scn) -> int:
     metric = check_metric(args.metric, label="--metric")
-    inputs = [k.strip() for k in args.inputs.split(",") if k.strip()] if args.inputs else None
-    rows = tornado(scn, metric=metric, inputs=inputs)
+    with progress.bar(args, f"tornado on {metric}") as tick:
+        rows = tornado(scn, metric=metric, inputs=tornado_keys(args), progress=tick)
     notes = null_reasons(scn, rows, [metric])
     if args.json:
         _print_json({"scenario": scn.project.name, "metric": metric,
-                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes})
+                     "metric_base": rows[0]["metric_base"] if rows else None, "rows": rows, "warnings": notes}, scn)
         return 0
     cur = scn.project.currency
+    width, tw = _widths(args)
     name, unit, how = METRIC_LABELS[metric]
     label = f"{name} [{unit.format(cur=cur)}]"
     base = run(scn, breakeven=metric == BREAKEVEN).metrics[metric] if not rows else rows[0]["metric_base"]
-    lines = _head(scn)
+    lines = _head(scn, width)
     debt = "debt re-sized" if scn.finance.debt is not None else "all equity (no debt)"
-    lines.append(f"Tornado on {label}: base case {fmt(base, how)}; one input at a time from its low to its high "
-                 f"value, {debt}")
-    w = max([len(key_label(r["key"], cur)) for r in rows] + [5])
-    wb = max([len(r["basis"]) for r in rows] + [5])
-    lines.append(f"  {'Input':<{w}}  {'basis':<{wb}} {'low':>10} {'base':>10} {'high':>10}  {'at low':>10} "
-                 f"{'at high':>10} {'swing':>10}")
+    lines += wrap(f"Tornado on {label}: base case {fmt(base, how)}; one input at a time from its low to its high "
+                  f"value, {debt}", width)
+    # the effect first, then how each input was moved: a narrow terminal shows them as two blocks
+    heads = [col("Input", align="<"), col("at low", min_width=8), col("at high", min_width=8),
+             col("swing", min_width=8), col("", align="<", min_width=20), col("basis", align="<"),
+             col("low", min_width=8), col("base", min_width=8), col("high", min_width=8)]
     biggest = max([abs(r["swing"]) for r in rows if r["swing"] is not None] + [0.0])
+    cells = []
     for r in rows:
         integer = r["key"] != ENERGY_INPUT and is_integer_key(scn, r["key"])
         bar = "" if r["swing"] is None or biggest == 0 else "#" * round(20 * abs(r["swing"]) / biggest)
         swing = "n/a" if r["swing"] is None else (("+" if r["swing"] >= 0 else "") + fmt(r["swing"], how))
-        lines.append(f"  {key_label(r['key'], cur):<{w}}  {r['basis']:<{wb}} "
-                     f"{_fmt_value(r['low_value'], integer):>10} {_fmt_value(r['base_value'], integer):>10} "
-                     f"{_fmt_value(r['high_value'], integer):>10}  {fmt(r['metric_at_low'], how):>10} "
-                     f"{fmt(r['metric_at_high'], how):>10} {swing:>10}  {bar}")
+        cells.append([key_label(r["key"], cur), fmt(r["metric_at_low"], how), fmt(r["metric_at_high"], how), swing,
+                      bar, r["basis"], _fmt_value(r["low_value"], integer), _fmt_value(r["base_value"], integer),
+                      _fmt_value(r["high_value"], integer)])
+    lines += render(heads, cells, width=tw, gap=1)
     lines.append(f"  (at low / at high / swing in {unit.format(cur=cur)}; swing = at high - at low)")
     lines.extend(f"warning: {w}" for w in notes)
     print("\n".join(lines))
@@ -185,21 +228,30 @@ def cmd_solve(args) -> int:
 
 def _cmd_solve(args, scn) -> int:
     metric, value = parse_target(args.target)
+    if not args.key:
+        raise ScenarioError("name the input to vary, e.g. --key revenue.ppa_price_per_mwh", key="--key",
+                            has_value=False)
     if (args.low is None) != (args.high is None):
         raise ScenarioError("give both --low and --high, or neither", key="--low" if args.low is None else "--high",
                             has_value=False)
-    res = solve(scn, target_metric=metric, target_value=value, vary_key=args.vary, low=args.low, high=args.high)
+    base_value(scn, args.key)
+    low, high = (None if v is None else key_number(v, args.key, name)
+                 for v, name in ((args.low, "--low"), (args.high, "--high")))
+    res = solve(scn, target_metric=metric, target_value=value, vary_key=args.key, low=low, high=high)
     if args.json:
-        _print_json({"scenario": scn.project.name, **res})
+        _print_json({"scenario": scn.project.name, **res}, scn)
         return 0
     cur = scn.project.currency
+    width, _ = _widths(args)
     name, unit, how = METRIC_LABELS[metric]
-    lines = _head(scn)
-    lines.append(f"Goal seek: {key_label(res['key'], cur)} for {name} [{unit.format(cur=cur)}] = {fmt(value, how)}")
-    lines.append(f"  {'value found':<24} {res['value']:.6g}")
-    lines.append(f"  {'gives':<24} {fmt(res['achieved'], how)}")
-    lines.append(f"  {'scenario value':<24} {_fmt_value(res['base_value'])} (gives {fmt(res['metric_at_base'], how)})")
-    lines.append(f"  {'searched':<24} {res['low']:g} to {res['high']:g} (Brent's method, "
-                 f"{res['iterations']} iterations; debt re-sized at each value)")
+    lines = _head(scn, width)
+    lines += wrap(f"Goal seek: {key_label(res['key'], cur)} for {name} [{unit.format(cur=cur)}] = {fmt(value, how)}",
+                  width)
+    body = (("value found", f"{res['value']:.6g}"), ("gives", fmt(res["achieved"], how)),
+            ("scenario value", f"{_fmt_value(res['base_value'])} (gives {fmt(res['metric_at_base'], how)})"),
+            ("searched", f"{res['low']:g} to {res['high']:g} (Brent's method, {res['iterations']} iterations; "
+                         "debt re-sized at each value)"))
+    for label, text in body:
+        lines += wrap(text, width, indent=f"  {label:<24} ", subsequent=" " * 27)
     print("\n".join(lines))
     return 0

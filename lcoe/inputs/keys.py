@@ -154,6 +154,8 @@ def numeric_value(scn: ScenarioFields, key: str) -> float:
                     return float(scn.layout.decay_constant)
                 if key == "wind.shear_exponent":
                     return float(scn.wind.alpha)
+                if key == "wind.mean_temperature_c":
+                    return float(scn.wind.temperature_c)
                 raise ScenarioError("is not set in this scenario", key=key, has_value=False)
         else:
             model = node if isinstance(node, BaseModel) else None

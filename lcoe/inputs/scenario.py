@@ -39,7 +39,7 @@ from lcoe.inputs.schema import (  # noqa: F401
     Vary,
     _Cross,
 )
-from lcoe.inputs.toml import parse_toml, to_toml  # noqa: F401
+from lcoe.inputs.toml import parse_toml, read_toml, to_toml  # noqa: F401
 
 
 class Scenario(ScenarioFields):
@@ -49,6 +49,7 @@ class Scenario(ScenarioFields):
     _source: str = PrivateAttr(default="<scenario>")
     _raw: dict = PrivateAttr(default_factory=dict)
     _site_key_memo: str | None = PrivateAttr(default=None)
+    _sha256: str | None = PrivateAttr(default=None)
 
     @property
     def base_dir(self) -> Path:
@@ -57,6 +58,11 @@ class Scenario(ScenarioFields):
     @property
     def source(self) -> str:
         return self._source
+
+    @property
+    def file_sha256(self) -> str | None:
+        """SHA-256 (hex) of the scenario file as read by :func:`load`; None for a scenario built from data."""
+        return self._sha256
 
     @property
     def raw(self) -> dict:
@@ -83,6 +89,7 @@ class Scenario(ScenarioFields):
         if "variants" in self._raw:
             scn = scn.model_copy(update={"variants": self.variants})
             scn._raw = {**scn._raw, "variants": self._raw["variants"]}
+        scn._sha256 = self._sha256      # the file it came from, changed by the overrides
         return scn
 
     def variant(self, name: str) -> "Scenario":
@@ -511,5 +518,7 @@ def load(path: str | Path) -> Scenario:
     if not str(path).strip():
         raise ScenarioError("no scenario file given (the path is blank)")
     path = Path(path)
-    raw = parse_toml(path)
-    return from_dict(raw, source=str(path), base_dir=path.parent)
+    raw, digest = read_toml(path)
+    scn = from_dict(raw, source=str(path), base_dir=path.parent)
+    scn._sha256 = digest
+    return scn

@@ -12,6 +12,8 @@ from typing import Annotated, Any, Literal, get_args
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from lcoe.inputs.plausibility import plausibility_warnings
+
 SCHEMA_VERSION = 1
 
 Frac = Annotated[float, Field(ge=0.0, le=1.0)]
@@ -32,6 +34,22 @@ MAX_TRIALS = 10_000_000
 MAX_SEED = 2 ** 53 - 1
 #: the most variants a scenario compares
 MAX_VARIANTS = 200
+
+
+#: the standard atmosphere's sea-level temperature [degC] and its lapse rate in the troposphere [K/m]
+ISA_SEA_LEVEL_C = 15.0
+ISA_LAPSE_K_PER_M = 0.0065
+
+
+def isa_temperature_c(elevation_m):
+    """The temperature of the standard atmosphere at an elevation: 15 degC at sea level, falling
+    6.5 K per km. [degC]
+
+    References
+    ----------
+    ISO 2533:1975, Standard Atmosphere (troposphere, below 11 km).
+    """
+    return ISA_SEA_LEVEL_C - ISA_LAPSE_K_PER_M * elevation_m
 
 
 class _Model(BaseModel):
@@ -88,7 +106,8 @@ class Wind(_Model):
     shear_exponent: Annotated[float, Field(ge=-0.5, le=1.0)] | None = None
     roughness_length_m: Annotated[float, Field(gt=0.0, lt=10.0)] | None = None
     elevation_m: Annotated[float, Field(ge=-500.0, le=6000.0)] = 0.0
-    mean_temperature_c: Annotated[float, Field(ge=-60.0, le=60.0)] = 15.0
+    # None: the standard atmosphere's temperature at elevation_m (see :func:`isa_temperature_c`)
+    mean_temperature_c: Annotated[float, Field(ge=-60.0, le=60.0)] | None = None
     air_density_kgm3: Annotated[float, Field(ge=0.5, le=1.6)] | None = None
     max_missing_share: Annotated[float, Field(ge=0.0, lt=1.0)] = 0.2
     rose: Rose | None = None
@@ -128,6 +147,14 @@ class Wind(_Model):
     @property
     def alpha(self) -> float:
         return 1.0 / 7.0 if self.shear_exponent is None else self.shear_exponent
+
+    @property
+    def temperature_c(self) -> float:
+        """The mean air temperature at the site: as given, else the standard atmosphere's at
+        ``elevation_m`` (:func:`isa_temperature_c`). [degC]"""
+        if self.mean_temperature_c is not None:
+            return self.mean_temperature_c
+        return isa_temperature_c(self.elevation_m)
 
 
 class Turbine(_Model):
@@ -455,5 +482,5 @@ class ScenarioFields(_Model):
         if self.revenue.production_credit_years > self.lifetime and self.revenue.production_credit_per_mwh > 0:
             out.append(f"revenue.production_credit_years = {self.revenue.production_credit_years} is longer than "
                        f"the life; the credit ends with the project")
-        return out
+        return out + plausibility_warnings(self)
 

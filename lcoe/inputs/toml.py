@@ -4,6 +4,7 @@ writing scenario data back as TOML.
 
 from __future__ import annotations
 
+import hashlib
 import re
 import tomllib
 from pathlib import Path
@@ -19,17 +20,23 @@ MAX_DIGITS = 30
 
 
 def parse_toml(path: Path) -> dict:
+    return read_toml(path)[0]
+
+
+def read_toml(path: Path) -> tuple[dict, str]:
+    """A scenario file's data and the SHA-256 (hex) of the very bytes that were parsed."""
     shown = str(path)
     check_input_file(path, lambda msg: ScenarioError(msg, file=shown), what="a scenario file",
                      max_bytes=MAX_SCENARIO_BYTES)
     try:
+        data = path.read_bytes()
         # utf-8-sig: a byte-order mark, as some editors write, is not part of the text
-        text = path.read_bytes().decode("utf-8-sig")
+        text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise ScenarioError("is not UTF-8 text", file=shown) from None
     except OSError as exc:
         raise ScenarioError(f"cannot be read ({exc.strerror})", file=shown) from None
-    return parse_toml_text(text, shown)
+    return parse_toml_text(text, shown), hashlib.sha256(data).hexdigest()
 
 
 def parse_toml_text(text: str, shown: str) -> dict:

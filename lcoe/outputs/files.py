@@ -57,6 +57,19 @@ def terminate_cleanly():
         signal.signal(signal.SIGTERM, previous)
 
 
+def _hold_sigterm():
+    """Block SIGTERM in this thread (POSIX); returns the previous mask, or None where not possible."""
+    if not hasattr(signal, "pthread_sigmask"):
+        return None
+    return signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGTERM})
+
+
+def _release_sigterm(held) -> None:
+    """Restore the mask of :func:`_hold_sigterm`; a SIGTERM that came meanwhile is delivered now."""
+    if held is not None:
+        signal.pthread_sigmask(signal.SIG_SETMASK, held)
+
+
 def _identity(path: Path) -> tuple | None:
     try:
         st = os.stat(path)
@@ -66,10 +79,12 @@ def _identity(path: Path) -> tuple | None:
 
 
 def check_output(path, *, option: str, inputs: Iterable[tuple[str, Path]] = (), force: bool = False,
-                 stdout: bool = True) -> Path | None:
+                 stdout: bool = True, suffix: str | None = None) -> Path | None:
     """Refuse an output path that would destroy or misplace something; None for ``-`` (standard output).
 
     ``inputs`` are (label, path) pairs of the files the run reads: the output may be none of them.
+    ``suffix`` (``.xlsx``, ``.csv``): the file name must end with it, in any case, so that a file is
+    never written under another format's name.
     """
     text = os.fspath(path) if path is not None else ""
     if not text.strip():
@@ -80,6 +95,14 @@ def check_output(path, *, option: str, inputs: Iterable[tuple[str, Path]] = (), 
         return None
     if "\x00" in text:
         raise ScenarioError("the path contains a NUL character", key=option, value=text)
+    p = _safe_path(text, option, inputs, force)
+    if suffix is not None and p.suffix.lower() != suffix:
+        raise ScenarioError(f"writes a {suffix} file: give a name ending in {suffix}", key=option, value=text)
+    return p
+
+
+def _safe_path(text: str, option: str, inputs, force: bool) -> Path:
+    """The checks of :func:`check_output` on a file path (not standard output)."""
     p = Path(text)
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
@@ -145,12 +168,17 @@ def write_atomic(path: str | Path, write: Callable[[Path], None], *, option: str
     tmp_path = None
     with terminate_cleanly():             # from before the temporary file exists until it is renamed
         try:
+            # SIGTERM is held back while the temporary file is made and its name recorded, so that
+            # a signal can never fall between the two and leave the file behind
+            held = _hold_sigterm()
             try:
                 fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
+                tmp_path = Path(tmp)
             except OSError as exc:
                 raise ScenarioError(f"cannot write in {folder} ({exc.strerror})", key=option,
                                     value=str(path)) from None
-            tmp_path = Path(tmp)
+            finally:
+                _release_sigterm(held)
             os.close(fd)
             write(tmp_path)
             os.chmod(tmp_path, 0o666 & ~_umask())   # mkstemp makes owner-only files; use the usual mode

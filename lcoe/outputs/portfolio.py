@@ -9,6 +9,7 @@ import json
 import textwrap
 
 from lcoe.outputs.report import fmt, heading
+from lcoe.outputs.tables import col, render, wrap
 
 WIDTH = 100
 MAX_MATRIX_SITES = 12      # the correlation matrix is printed for up to this many sites
@@ -48,15 +49,19 @@ def _label(labels, key, cur, width):
     return text if len(text) <= width else text[:width - 1] + "."
 
 
-def _wrap(text: str, indent: str = "") -> list[str]:
-    return textwrap.wrap(text, WIDTH, initial_indent=indent, subsequent_indent=" " * len(indent) if indent else "  ")
-
-
-def to_table(d: dict) -> str:
+def to_table(d: dict, width: int | None = WIDTH, wide: bool = False) -> str:
+    """The report as text within ``width`` columns, the wide tables split into blocks of columns
+    (``wide``: the tables whole)."""
     cur = d["currency"]
     n = len(d["sites"])
     corr = d["correlation"]
-    lines = heading(d["portfolio"], d["source"], d["caution"])
+    tw = None if wide else width
+
+    def _wrap(text: str, indent: str = "") -> list[str]:
+        return textwrap.wrap(text, max(40, width or WIDTH), initial_indent=indent,
+                             subsequent_indent=" " * len(indent) if indent else "  ")
+
+    lines = heading(d["portfolio"], d["source"], d["caution"], width=width)
     if corr["rule"] == "distance":
         rule = f"by distance, rho = exp(-d / {corr['length_km']:g} km)"
     else:
@@ -71,14 +76,14 @@ def to_table(d: dict) -> str:
                    f"{', '.join(common) if common else 'none'}. Run on {where} (sites prepared in "
                    f"{ex['prepare_s']:.1f} s, trials in {ex['trials_s']:.1f} s).")
     lines.append("")
-    lines.extend(_sites_table(d, cur))
+    lines.extend(_sites_table(d, cur, tw))
     if n <= MAX_MATRIX_SITES:
         lines.append("")
-        lines.extend(_matrix_table(corr["matrix"]))
+        lines.extend(_matrix_table(corr["matrix"], tw))
     lines.append("")
-    lines.extend(_diversification_table(d, cur))
+    lines.extend(_diversification_table(d, cur, tw))
     lines.append("")
-    lines.extend(_life_table(d, cur))
+    lines.extend(_life_table(d, cur, tw))
     if d["pooled_debt"] is not None:
         p = d["pooled_debt"]
         lines.append("")
@@ -87,7 +92,7 @@ def to_table(d: dict) -> str:
                        f"{fmt(p['prob_min_dscr_below_1'], 'pct')} %; P(some site's own minimum DSCR < 1.0) = "
                        f"{fmt(p['prob_any_site_min_dscr_below_1'], 'pct')} %.")
     lines.append("")
-    lines.extend(_annual_table(d, cur))
+    lines.extend(_annual_table(d, cur, tw))
     if d["warnings"]:
         lines.append("")
         lines.append("Warnings")
@@ -97,69 +102,69 @@ def to_table(d: dict) -> str:
     return out
 
 
-def _sites_table(d, cur) -> list[str]:
-    head = (f"  {'#':>2} {'site':<22} {'share':>6} {'MW':>6} {'P50 AEP':>9} {'P90 1-yr':>9} {'P90 10-yr':>9} "
-            f"{'P90 eq.NPV':>10} {'P90 min':>7} {'energy':>7}")
-    units = (f"  {'':>2} {'':<22} {'[%]':>6} {'':>6} {'[GWh/yr]':>9} {'[GWh]':>9} {'[GWh/yr]':>9} "
-             f"{'[' + cur + ' M]':>10} {'DSCR':>7} {'share':>7}")
-    out = ["Sites (figures times the owned share; each P90 is the site's own 10th percentile)", head, units]
+def _sites_table(d, cur, width) -> list[str]:
+    cols = [col("#", min_width=2), col("site", align="<", min_width=22), col("share", "[%]"), col("MW"),
+            col("P50 AEP", "[GWh/yr]"), col("P90 1-yr", "[GWh]"), col("P90 10-yr", "[GWh/yr]"),
+            col("P90 eq.NPV", f"[{cur} M]"), col("P90 min", "DSCR"), col("energy", "share")]
+    rows = []
     for i, s in enumerate(d["sites"], 1):
         m = s["montecarlo"]
         name = s["name"] if len(s["name"]) <= 22 else s["name"][:21] + "."
-        out.append(f"  {i:>2} {name:<22} {fmt(s['share'], 'pct')[:-1]:>6} {s['capacity_mw'] * s['share']:>6.1f} "
-                   f"{_value('energy', s['net_aep_p50_mwh']):>9} {_value('energy', m['energy_1yr_mwh']['p90']):>9} "
-                   f"{_value('energy', m['energy_10yr_mwh']['p90']):>9} "
-                   f"{_value('equity_npv', m['equity_npv']['p90']):>10} "
-                   f"{_value('min_dscr', m['min_dscr']['p90']):>7} {fmt(s['energy_share'], 'pct')[:-1]:>6}%")
-    return out
+        rows.append([str(i), name, fmt(s["share"], "pct")[:-1], f"{s['capacity_mw'] * s['share']:.1f}",
+                     _value("energy", s["net_aep_p50_mwh"]), _value("energy", m["energy_1yr_mwh"]["p90"]),
+                     _value("energy", m["energy_10yr_mwh"]["p90"]), _value("equity_npv", m["equity_npv"]["p90"]),
+                     _value("min_dscr", m["min_dscr"]["p90"]), fmt(s["energy_share"], "pct")[:-1] + "%"])
+    return [*wrap("Sites (figures times the owned share; each P90 is the site's own 10th percentile)", width),
+            *render(cols, rows, labels=2, width=width, gap=1)]
 
 
-def _matrix_table(matrix) -> list[str]:
+def _matrix_table(matrix, width) -> list[str]:
     n = len(matrix)
-    out = ["Correlation of yearly mean wind speed between the sites (numbered as above)",
-           "      " + "".join(f"{j:>7}" for j in range(1, n + 1))]
-    for i, row in enumerate(matrix, 1):
-        out.append(f"  {i:>2}  " + "".join(f"{v:>7.3f}" for v in row))
-    return out
+    cols = [col("", min_width=2)] + [col(str(j), min_width=6) for j in range(1, n + 1)]
+    rows = [[str(i)] + [f"{v:.3f}" for v in row] for i, row in enumerate(matrix, 1)]
+    return [*wrap("Correlation of yearly mean wind speed between the sites (numbered as above)", width),
+            *render(cols, rows, width=width, gap=1)]
 
 
-def _diversification_table(d, cur) -> list[str]:
+def _diversification_table(d, cur, width) -> list[str]:
     w = 44
-    out = ["Diversification: the portfolio's P90 against the sum of the sites' own P90s",
-           f"  {'':<{w}} {'portfolio':>12} {'sum of site':>12} {'benefit':>11} {'benefit':>9}",
-           f"  {'':<{w}} {'P90':>12} {'P90s':>12} {'':>11} {'[%]':>9}"]
+    cols = [col("", "", align="<", min_width=w), col("portfolio", "P90"), col("sum of site", "P90s"),
+            col("benefit", ""), col("benefit", "[%]")]
+    rows = []
     for key, row in d["diversification"].items():
         share = row["benefit_share"]
-        pct = "n/a" if share is None else f"{100 * share:+.2f}"
-        out.append(f"  {_label(DIVERSIFICATION_LABELS, key, cur, w):<{w}} {_value(key, row['portfolio_p90']):>12} "
-                   f"{_value(key, row['sum_of_site_p90']):>12} {_value(key, row['benefit']):>11} {pct:>9}")
-    return out
+        rows.append([_label(DIVERSIFICATION_LABELS, key, cur, w), _value(key, row["portfolio_p90"]),
+                     _value(key, row["sum_of_site_p90"]), _value(key, row["benefit"]),
+                     "n/a" if share is None else f"{100 * share:+.2f}"])
+    return [*wrap("Diversification: the portfolio's P90 against the sum of the sites' own P90s", width),
+            *render(cols, rows, width=width, gap=1)]
 
 
-def _life_table(d, cur) -> list[str]:
+def _life_table(d, cur, width) -> list[str]:
     w = 44
-    cols = ("p50", "p75", "p90", "p99", "mean", "sd")
-    out = ["The portfolio over its life (P90 = the 10th percentile: the low side)",
-           f"  {'':<{w}}" + "".join(f" {c.upper() if c.startswith('p') else c:>8}" for c in cols)]
-    for key, stats in d["life"].items():
-        out.append(f"  {_label(LIFE_LABELS, key, cur, w):<{w}}" + "".join(f" {_value(key, stats[c]):>8}"
-                                                                        for c in cols))
-    return out
+    stats_ = ("p50", "p75", "p90", "p99", "mean", "sd")
+    cols = [col("", align="<", min_width=w)] + [col(c.upper() if c.startswith("p") else c, min_width=8)
+                                                for c in stats_]
+    rows = [[_label(LIFE_LABELS, key, cur, w)] + [_value(key, st[c]) for c in stats_] for key, st in d["life"].items()]
+    return [*wrap("The portfolio over its life (P90 = the 10th percentile: the low side)", width),
+            *render(cols, rows, width=width, gap=1)]
 
 
-def _annual_table(d, cur) -> list[str]:
-    out = ["The portfolio year by year (nominal money; P90 = the 10th percentile)",
-           f"  {'Year':>4}  {'Energy [GWh]':^23}  {'Revenue [' + cur + ' M]':^23}  {'CFADS [' + cur + ' M]':^23}"
-           f"  {'DS':>6} {'DSCR':>5}",
-           f"  {'':>4}  " + "  ".join(f"{'P50':>7}{'P90':>8}{'P99':>8}" for _ in range(3)) +
-           f"  {'[M]':>6} {'P90':>5}"]
+def _annual_table(d, cur, width) -> list[str]:
+    cols = [col("Year", "", min_width=4)]
+    for name, unit in (("Energy", "[GWh]"), ("Revenue", f"[{cur} M]"), ("CFADS", f"[{cur} M]")):
+        # the group's name and unit over its first two columns: "Energy [GWh]" reads across them
+        cols += [col(head, p, min_width=7) for head, p in ((name, "P50"), (unit, "P90"), ("", "P99"))]
+    cols += [col("DS", "[M]", min_width=6), col("DSCR", "P90", min_width=5)]
+    rows = []
     for row in d["annual"]:
-        cells = []
+        cells = [str(row["year"])]
         for key, unit in (("energy_mwh", "energy"), ("revenue", "money"), ("cfads", "money")):
             s = row[key]
-            cells.append(f"{_value(unit, s['p50']):>7}{_value(unit, s['p90']):>8}{_value(unit, s['p99']):>8}")
+            cells += [_value(unit, s["p50"]), _value(unit, s["p90"]), _value(unit, s["p99"])]
         ds = row["debt_service"]
         dscr = row["dscr_at_p90_cfads"]
-        out.append(f"  {row['year']:>4}  " + "  ".join(cells) +
-                   f"  {'-' if not ds else f'{ds / 1e6:,.1f}':>6} {'-' if dscr is None else f'{dscr:.2f}':>5}")
-    return out
+        cells += ["-" if not ds else f"{ds / 1e6:,.1f}", "-" if dscr is None else f"{dscr:.2f}"]
+        rows.append(cells)
+    return [*wrap("The portfolio year by year (nominal money; P90 = the 10th percentile)", width),
+            *render(cols, rows, width=width, gap=1)]

@@ -14,6 +14,7 @@ from lcoe.analysis.study import Report
 from lcoe.engine import ANNUAL_KEYS
 from lcoe.inputs.about import CAUTION
 from lcoe.outputs.files import write_csv
+from lcoe.outputs.tables import col, render, wrap
 
 
 def to_json(report: Report) -> str:
@@ -28,18 +29,19 @@ def write_annual_csv(report: Report, path):
 
 # --------------------------------------------------------------------------- table output
 
-WIDTH = 100   # every table fits a 100-column terminal
+WIDTH = 100   # the width of a table printed to no terminal (lcoe.outputs.tables.DEFAULT_WIDTH)
 
 
-def heading(name: str, source: str, caution: str = CAUTION) -> list[str]:
+def heading(name: str, source: str, caution: str = CAUTION, width: int | None = WIDTH) -> list[str]:
     """The first lines of every table: the name, the file it came from, the caution.
 
-    The file goes on a line of its own when the two would not fit in ``WIDTH`` columns,
+    The file goes on a line of its own when the two would not fit in ``width`` columns,
     and the caution is wrapped, so that a long path never widens the table.
     """
+    width = WIDTH if width is None else max(40, width)
     one = f"{name}  ({source})"
-    lines = [one] if len(one) <= WIDTH else [name, f"  ({source})"]
-    return lines + textwrap.wrap(caution, WIDTH) + [""]
+    lines = [one] if len(one) <= width else [name, f"  ({source})"]
+    return lines + textwrap.wrap(caution, width) + [""]
 
 
 METRIC_LABELS = {
@@ -73,6 +75,38 @@ ENERGY_LABELS = {
 }
 
 
+SIZING_LABELS = {"p50": "P50", "p90_1yr": "P90 (1 yr)", "p90_10yr": "P90 (10 yr)", "p99_1yr": "P99 (1 yr)"}
+#: the headline's own words for the LCOE: what it is (SCENARIO.md: pre-tax, unfinanced, no credits)
+HEADLINE_LCOE = {"lcoe_nominal_per_mwh": "LCOE nominal, pre-tax, unlevered",
+                 "lcoe_real_per_mwh": "LCOE real, pre-tax, unlevered"}
+
+
+def headline_lines(d: dict, cur: str, w: int) -> list[str]:
+    """The plant and its capex per kW, every metric, then the financing the metrics rest on."""
+    p, fin = d["project"], d["financing"]
+
+    def row(label, text):
+        return f"  {label:<{w}} {text:>14}"
+
+    out = [row("Plant [MW]", f"{p['plant_mw']:,.1f}"),
+           row("Turbines x rated power [kW]", f"{p['turbines']:,} x {p['rated_power_kw']:,.0f}"),
+           row(f"Capex per kW [{cur}/kW]", fmt(d["costs"]["capex_per_kw"], "{:,.0f}"))]
+    for k in d["metrics"]:
+        name, unit, how = METRIC_LABELS[k]
+        label = f"{HEADLINE_LCOE.get(k, name)} [{unit.format(cur=cur)}]"
+        out.append(row(label, fmt(d["metrics"][k], how)))
+    out += [row("Gearing, debt / capex [%]", fmt(fin["gearing"], "pct")),
+            row("Discount rate, nominal [%]", fmt(fin["discount_rate"], "pct")),
+            row("Equity target return, nominal [%]", fmt(fin["equity_target_return"], "pct"))]
+    debt = fin.get("debt")
+    if debt is None:
+        return out + [row("Debt sized on", "all equity")]
+    cap = "binds" if debt["gearing_cap_binds"] else "not reached"
+    return out + [row("Debt sized on", SIZING_LABELS[debt["sizing_case"]]),
+                  row("Target DSCR on that case [x]", f"{debt['target_dscr']:.3f}"),
+                  row("Gearing cap [%]", fmt(debt["max_gearing"], "pct")) + f"  ({cap})"]
+
+
 def fmt(value, how: str) -> str:
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
@@ -88,14 +122,19 @@ def _label(labels, key, cur):
     return f"{name} [{unit.format(cur=cur)}]"
 
 
-def to_table(report: Report, *, yearly: bool = True) -> str:
+def to_table(report: Report, *, yearly: bool = True, width: int | None = WIDTH, wide: bool = False) -> str:
+    """The report as text: every line within ``width`` columns, the wide tables split into blocks
+    of columns (``wide``: the tables whole, one line per row)."""
     d = report.to_dict()
     cur = report.case.scenario.project.currency
-    lines = heading(d["scenario"], report.case.scenario.source)
-    w = 38
+    tw = None if wide else width
+    lines = heading(d["scenario"], report.case.scenario.source, width=width)
+    if d.get("as_run"):
+        lines[-1:-1] = textwrap.wrap("As run: " + as_run_text(d["as_run"]), max(40, width or WIDTH),
+                                     subsequent_indent="  ")
+    w = 44
     lines.append("Headline")
-    for k in d["metrics"]:
-        lines.append(f"  {_label(METRIC_LABELS, k, cur):<{w}} {fmt(d['metrics'][k], METRIC_LABELS[k][2]):>14}")
+    lines.extend(headline_lines(d, cur, w))
     lines.append("")
     lines.append("Energy")
     for k, (name, unit, how) in ENERGY_LABELS.items():
@@ -103,10 +142,13 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
         if k == "wake_loss":
             label = label.replace("Wake loss", "Wake loss, from the layout" if "wake" in d else "Wake loss, as given")
         lines.append(f"  {label:<{w}} {fmt(d['energy'][k], how):>14}")
-    for block, table in (("wind_rose", rose_table), ("wake", wake_table), ("long_term", long_term_table)):
+    for block, table in (("wind_rose", rose_table), ("wake", wake_table)):
         if block in d:
             lines.append("")
-            lines.extend(table(d[block]))
+            lines.extend(table(d[block], tw))
+    if "long_term" in d:
+        lines.append("")
+        lines.extend(long_term_table(d["long_term"], width))
     costs = d["costs"]
     lines.append("")
     lines.append("Costs")
@@ -115,58 +157,72 @@ def to_table(report: Report, *, yearly: bool = True) -> str:
     lines.append(f"  {'Decommissioning net, year L [' + cur + ' M]':<{w}} {fmt(costs['decommissioning_net'], 'm'):>14}")
     if "montecarlo" in d:
         lines.append("")
-        lines.extend(montecarlo_table(d["montecarlo"], cur))
+        lines.extend(montecarlo_table(d["montecarlo"], cur, tw))
     if yearly:
         lines.append("")
-        lines.extend(annual_table(d["annual"], cur))
+        lines.extend(annual_table(d["annual"], cur, tw))
     if d["variants"]:
         lines.append("")
-        lines.extend(variants_table(d, cur))
+        lines.extend(variants_table(d, cur, tw))
     if d["warnings"]:
         lines.append("")
         lines.append("Warnings")
         for x in d["warnings"]:
-            lines += textwrap.wrap(x, WIDTH, initial_indent="  - ", subsequent_indent="    ")
+            lines += textwrap.wrap(x, max(40, width or WIDTH), initial_indent="  - ", subsequent_indent="    ")
     return "\n".join(lines) + "\n"
+
+
+def as_run_text(as_run: dict) -> str:
+    """The command line's changes in words: ``variant low_wind; capex.turbine_per_kw = 1150; seed 7``."""
+    parts = []
+    if as_run.get("variant"):
+        parts.append(f"variant {as_run['variant']}")
+    parts += [f"{k} = {v!r}" if isinstance(v, str) else f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
+              for k, v in as_run.get("set", {}).items()]
+    if as_run.get("seed") is not None:
+        parts.append(f"seed {as_run['seed']}")
+    return "; ".join(parts) + " (on the command line, not in the file)"
 
 
 def _f(value, how: str) -> str:
     return fmt(value, how)
 
 
-def rose_table(rose: dict) -> list[str]:
+def rose_table(rose: dict, width: int | None = WIDTH) -> list[str]:
     """The sector table: frequency, speeds, gross AEP and (with a layout) wake loss per sector."""
     wake = "wake_loss" in rose["rows"][0]
-    head = (f"  {'Sector':>6} {'From [deg]':>10} {'Freq [%]':>9} {'Mean [m/s]':>10} {'A [m/s]':>8} {'k':>6} "
-            f"{'Gross [MWh/yr]':>15} {'Share [%]':>9}" + (f" {'Wake [%]':>9}" if wake else ""))
-    out = [f"Wind rose ({rose['sectors']} sectors of {rose['width_deg']:g} deg at hub height, {rose['source']})", head]
+    cols = [col("Sector"), col("From [deg]"), col("Freq [%]"), col("Mean [m/s]"), col("A [m/s]"), col("k", min_width=5),
+            col("Gross [MWh/yr]"), col("Share [%]")] + ([col("Wake [%]")] if wake else [])
+    rows = []
     for r in rose["rows"]:
-        line = (f"  {r['sector']:>6} {r['centre_deg']:>10.0f} {_f(r['frequency'], 'pct'):>9} "
-                f"{_f(r['mean_speed_mps'], '{:.2f}'):>10} {_f(r['weibull_scale_mps'], '{:.2f}'):>8} "
-                f"{_f(r['weibull_shape'], '{:.2f}'):>6} {_f(r['gross_aep_mwh'], '{:,.0f}'):>15} "
-                f"{_f(r['gross_share'], 'pct'):>9}")
-        if wake:
-            line += f" {_f(r['wake_loss'], 'pct'):>9}"
-        out.append(line)
-    return out
+        rows.append([str(r["sector"]), f"{r['centre_deg']:.0f}", _f(r["frequency"], "pct"),
+                     _f(r["mean_speed_mps"], "{:.2f}"), _f(r["weibull_scale_mps"], "{:.2f}"),
+                     _f(r["weibull_shape"], "{:.2f}"), _f(r["gross_aep_mwh"], "{:,.0f}"), _f(r["gross_share"], "pct")]
+                    + ([_f(r["wake_loss"], "pct")] if wake else []))
+    return [*wrap(f"Wind rose ({rose['sectors']} sectors of {rose['width_deg']:g} deg at hub height, "
+                  f"{rose['source']})", width), *render(cols, rows, width=width, gap=1)]
 
 
-def wake_table(w: dict) -> list[str]:
+def wake_table(w: dict, width: int | None = WIDTH) -> list[str]:
     """The wake loss of every turbine and of the farm."""
-    out = [f"Wake losses (Jensen/Park top hat, root-sum-square; k = {w['wake_decay_constant']:g}, {w['location']})",
-           f"  {w['turbines']} turbine(s) ({w['layout'][:40]}), {spacing_text(w)}",
-           f"  thrust coefficient: {w['thrust']}",
-           f"  {'Turbine':<12} {'x [m]':>11} {'y [m]':>11} {'Gross [MWh/yr]':>15} {'Waked [MWh/yr]':>15} "
-           f"{'Wake loss [%]':>14}"]
+    out = [*wrap(f"Wake losses (Jensen/Park top hat, root-sum-square; k = {w['wake_decay_constant']:g}, "
+                 f"{w['location']})", width),
+           *wrap(f"{w['turbines']} turbine(s) ({w['layout'][:40]}), {spacing_text(w)}", width, indent="  "),
+           *wrap(f"thrust coefficient: {w['thrust']}", width, indent="  ")]
+    cols = [col("Turbine", align="<", min_width=12), col("x [m]", min_width=11), col("y [m]", min_width=11),
+            col("Gross [MWh/yr]"), col("Waked [MWh/yr]"), col("Wake loss [%]")]
+    rows = []
     gross = waked = 0.0
     for t in w["per_turbine"]:
         gross += t["gross_aep_mwh"]
         waked += t["waked_aep_mwh"]
-        out.append(f"  {t['name'][:12]:<12} {t['x_m']:>11,.1f} {t['y_m']:>11,.1f} {t['gross_aep_mwh']:>15,.0f} "
-                   f"{t['waked_aep_mwh']:>15,.0f} {_f(t['wake_loss'], 'pct'):>14}")
-    out.append(f"  {'Farm':<12} {'':>11} {'':>11} {gross:>15,.0f} {waked:>15,.0f} {_f(w['farm_loss'], 'pct'):>14}")
-    out.append(f"  per turbine {_f(w['turbine_loss_min'], 'pct')} to {_f(w['turbine_loss_max'], 'pct')} %; "
-               f"directions every {w['direction_step_deg']:g} deg, speed bins of {w['speed_bin_mps']:g} m/s")
+        rows.append([t["name"][:12], f"{t['x_m']:,.1f}", f"{t['y_m']:,.1f}", f"{t['gross_aep_mwh']:,.0f}",
+                     f"{t['waked_aep_mwh']:,.0f}", _f(t["wake_loss"], "pct")])
+    rows.append(["Farm", "", "", f"{gross:,.0f}", f"{waked:,.0f}", _f(w["farm_loss"], "pct")])
+    out += render(cols, rows, width=width, gap=1)
+    out += wrap(f"per turbine {_f(w['turbine_loss_min'], 'pct')} to {_f(w['turbine_loss_max'], 'pct')} %; "
+                f"directions every {w['direction_step_deg']:g} deg, speed bins of {w['speed_bin_mps']:g} m/s", width,
+                indent="  ")
     return out
 
 
@@ -178,16 +234,16 @@ def spacing_text(w: dict) -> str:
     return f"nearest pair {d:,.0f} m = {w['nearest_spacing_rotor_diameters']:.1f} rotor diameters"
 
 
-def long_term_table(lt: dict) -> list[str]:
+def long_term_table(lt: dict, width: int | None = WIDTH) -> list[str]:
     """The long-term correction: the periods, the concurrent statistics, both methods and the result."""
     method = lt["method"].replace("_", " ")
     w = 32
 
     def row(label, text):
-        return f"  {label:<{w}} {text}"
+        return "\n".join(wrap(text, width, indent=f"  {label:<{w}} ", subsequent=" " * (w + 3)))
 
     ratio = lt["long_term_over_short_term"]
-    return [
+    lines = [
         f"Long-term correction (measure-correlate-predict, {method})",
         row("Reference file", lt["reference"][:60]),
         row("Reference", f"{lt['reference_start']} to {lt['reference_end']}, {lt['reference_years']:.1f} years, "
@@ -213,52 +269,61 @@ def long_term_table(lt: dict) -> list[str]:
                 f"{lt['reference_years']:.1f})"),
         row("", f"inter-annual sd from the {lt['interannual_source']}"),
     ]
+    return [part for line in lines for part in line.split("\n")]
 
 
 ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.0f}"),
                   ("price_per_mwh", "Price [{cur}/MWh]", "{:.2f}"), ("revenue", "Revenue [{cur} k]", "k"),
-                  ("opex", "O&M [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"), ("cfads", "CFADS [{cur} k]", "k"),
-                  ("debt_service", "Debt service [{cur} k]", "k"), ("dscr", "DSCR [x]", "{:.3f}"),
-                  ("project_cash_flow", "Project CF [{cur} k]", "k"), ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
+                  ("opex", "O&M [{cur} k]", "k"), ("capex", "Capex [{cur} k]", "k"),
+                  ("decommissioning", "Decom. [{cur} k]", "k"), ("tax", "Tax [{cur} k]", "k"),
+                  ("cfads", "CFADS [{cur} k]", "k"), ("interest", "Interest [{cur} k]", "k"),
+                  ("principal", "Principal [{cur} k]", "k"), ("debt_service", "Debt service [{cur} k]", "k"),
+                  ("dscr", "DSCR [x]", "{:.3f}"), ("project_cash_flow", "Project CF [{cur} k]", "k"),
+                  ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
 
 
-def annual_table(rows, cur) -> list[str]:
-    heads = [h.format(cur=cur) for _, h, _ in ANNUAL_COLUMNS]
-    widths = [max(len(h), 9) for h in heads]
-    out = ["Yearly cash flow (t = 0 is construction; nominal money)",
-           "  " + "  ".join(f"{h:>{wd}}" for h, wd in zip(heads, widths))]
+def _head_lines(head: str) -> tuple[str, ...]:
+    """A column head on two lines, the unit under the name: ``O&M [EUR k]`` -> ("O&M", "[EUR k]")."""
+    name, bracket, unit = head.partition(" [")
+    return (name, "[" + unit) if bracket else ("", name)
+
+
+def annual_table(rows, cur, width: int | None = WIDTH) -> list[str]:
+    """The yearly cash flow; the year labels every block of columns."""
+    cols = [col(*_head_lines(h.format(cur=cur)), min_width=4 if k == "year" else 8) for k, h, _ in ANNUAL_COLUMNS]
+    cells = []
     for r in rows:
-        cells = []
-        for (k, _, how), wd in zip(ANNUAL_COLUMNS, widths):
+        line = []
+        for k, _, how in ANNUAL_COLUMNS:
             v = r[k]
             if how == "k":
-                s = "n/a" if v is None else f"{v / 1e3:,.0f}"
-            elif v is None:
-                s = "-"
+                line.append("n/a" if v is None else f"{v / 1e3:,.0f}")
             else:
-                s = how.format(v)
-            cells.append(f"{s:>{wd}}")
-        out.append("  " + "  ".join(cells))
-    return out
+                line.append("-" if v is None else how.format(v))
+        cells.append(line)
+    return [*wrap("Yearly cash flow (t = 0 is construction; nominal money)", width),
+            *render(cols, cells, width=width, gap=1)]
 
 
-def variants_table(d, cur) -> list[str]:
+def variants_table(d, cur, width: int | None = WIDTH) -> list[str]:
+    """Each variant's metrics and its change against the base; the metric labels every block."""
     names = list(d["variants"])
-    wd = max([14] + [len(n) for n in names])
-    head = f"  {'':<34} {'base':>12}" + "".join(f" {n:>{wd}} {'change':>10}" for n in names)
-    out = ["Variants (each against the base)", head]
-    rows = [("metrics", k, METRIC_LABELS) for k in d["metrics"]] + \
+    cols = [col("", align="<"), col("base", min_width=10)]
+    for n in names:
+        cols += [col(n, min_width=10), col("change", min_width=9)]
+    keys = [("metrics", k, METRIC_LABELS) for k in d["metrics"]] + \
         [("energy", k, ENERGY_LABELS) for k in ("net_aep_p50_mwh", "net_capacity_factor")]
-    for block, k, labels in rows:
+    rows = []
+    for block, k, labels in keys:
         how = labels[k][2]
         base = d[block][k]
-        line = f"  {_label(labels, k, cur)[:34]:<34} {fmt(base, how):>12}"
+        line = [_label(labels, k, cur)[:34], fmt(base, how)]
         for n in names:
             v = d["variants"][n][block][k]
             diff = None if v is None or base is None else v - base
-            line += f" {fmt(v, how):>{wd}} {_signed(diff, how):>10}"
-        out.append(line)
-    return out
+            line += [fmt(v, how), _signed(diff, how)]
+        rows.append(line)
+    return [*wrap("Variants (each against the base)", width), *render(cols, rows, width=width, gap=1)]
 
 
 def _signed(diff, how):
@@ -276,20 +341,25 @@ MC_LABELS = {
 }
 
 
-def montecarlo_table(mc: dict, cur: str) -> list[str]:
-    out = [f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
-           f"  {'':<34} {'P50':>12} {'P75':>12} {'P90':>12} {'P99':>12} {'mean':>12} {'sd':>12}"]
+MC_STATS = ("p50", "p75", "p90", "p99", "mean", "sd")
+
+
+def montecarlo_table(mc: dict, cur: str, width: int | None = WIDTH) -> list[str]:
+    """Percentiles, mean and sd of each sampled figure, and the probabilities of a shortfall."""
+    cols = [col("", align="<")] + [col(s.upper() if s.startswith("p") else s, min_width=10) for s in MC_STATS]
+    rows = []
     for k, stats in mc.items():
         if not isinstance(stats, dict) or "p50" not in stats:
             continue
         labels = next((lab for lab in (METRIC_LABELS, ENERGY_LABELS, MC_LABELS) if k in lab), None)
         label = _label(labels, k, cur)[:34] if labels else k
         how = labels[k][2] if labels else "{:.4g}"
-        out.append(f"  {label:<34}" + "".join(f" {fmt(stats[s], how):>12}"
-                                              for s in ("p50", "p75", "p90", "p99", "mean", "sd")))
+        rows.append([label] + [fmt(stats[s], how) for s in MC_STATS])
     for k, label in (("prob_min_dscr_below_1", "P(minimum DSCR < 1.0) [%]"),
                      ("prob_min_dscr_below_target", "P(minimum DSCR < target) [%]"),
                      ("prob_equity_irr_below_target", "P(equity IRR < target) [%]")):
         if k in mc:
-            out.append(f"  {label:<34} {fmt(mc[k], 'pct'):>12}")
-    return out
+            rows.append([label, fmt(mc[k], "pct")] + [""] * (len(MC_STATS) - 1))
+    return [*wrap(f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
+                  width),
+            *render(cols, rows, width=width, gap=1)]

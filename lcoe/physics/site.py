@@ -351,7 +351,7 @@ def climate_from(scn) -> Climate:
     if w.air_density_kgm3 is not None:
         rho = float(w.air_density_kgm3)
     else:
-        rho = float(resource.air_density(w.elevation_m, w.mean_temperature_c))
+        rho = float(resource.air_density(w.elevation_m, w.temperature_c))
     if w.rose is not None:
         rose = rs.rose_from_table(w.rose.frequency, w.rose.weibull_scale_mps, w.rose.weibull_shape).scaled(shear)
         mean = rose.mean_speed_mps()
@@ -381,7 +381,8 @@ def climate_from(scn) -> Climate:
         v, directions = lt.speeds_mps * shear, lt.directions_deg
         if series.temperature_c is not None and w.air_density_kgm3 is None:
             warns.append("the site series' temperature_c is not used with a long-term correction: the air density "
-                         "comes from wind.elevation_m and wind.mean_temperature_c")
+                         "comes from wind.elevation_m and wind.mean_temperature_c (else the standard "
+                         "atmosphere's temperature at the elevation)")
     else:
         # the record itself must cover the year (with a long-term correction the reference does)
         warns += resource.require_year(series, path)

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 
 from lcoe.inputs.errors import ScenarioError
+from lcoe.inputs.schema import isa_temperature_c
 
 R_DRY_AIR = 287.05  # J/(kg K), IEC 61400-12-1
 P0_PA = 101325.0
@@ -87,8 +88,7 @@ def air_density(elevation_m=0.0, temperature_c=15.0):
 
 def isa_density(elevation_m):
     """Density of the ISO 2533 standard atmosphere (temperature lapse 6.5 K/km). [kg/m^3]"""
-    t_k = 288.15 - 0.0065 * np.asarray(elevation_m, dtype=float)
-    return isa_pressure_pa(elevation_m) / (R_DRY_AIR * t_k)
+    return air_density(elevation_m, isa_temperature_c(np.asarray(elevation_m, dtype=float)))
 
 
 #: a series is read up to this many years of record, whatever its time step
