@@ -945,3 +945,24 @@ def test_a_first_time_user_brings_a_site_pins_cases_runs_the_monte_carlo_and_dow
     head = {wb[sheet].cell(10, c).value: c for c in range(1, 8)}
     assert wb[sheet].cell(row, head["Engine when written"]).value == pytest.approx(
         case.metrics["lcoe_nominal_per_mwh"], rel=1e-12)
+
+
+def test_a_new_site_starts_from_the_template_and_its_bundle_keeps_the_reference_comments(media, tmp_path, capsys):
+    """The scaffold `lcoe new` writes (lcoe.inputs.reference), run in the app as the engine runs it
+    from the files `lcoe new` writes; edited, its bundle passes `lcoe check` with the comments kept."""
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Start from the template (as lcoe new writes it)").run()
+    assert not at.exception and not at.error
+    assert cli.main(["new", str(tmp_path / "site.toml")]) == 0, capsys.readouterr().err
+    capsys.readouterr()
+    written = sc.load(tmp_path / "site.toml")
+    assert shown_headline(at) == expected_headline(model.run(written))
+    type_in(at, "project.turbines", "12").run()
+    with zipfile.ZipFile(io.BytesIO(download(at, media, "dl_bundle"))) as z:
+        z.extractall(tmp_path / "out")
+        (toml_name,) = [n for n in z.namelist() if n.endswith(".toml")]
+    path = tmp_path / "out" / toml_name
+    assert cli.main(["check", str(path)]) == 0, capsys.readouterr().err
+    text = path.read_text(encoding="utf-8")
+    assert "# Each key has its unit, kind, allowed range and default in the comment above it" in text
+    assert model.run(sc.load(path)).metrics == model.run(written.with_overrides({"project.turbines": 12})).metrics

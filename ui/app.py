@@ -25,6 +25,7 @@ from lcoe.analysis import lifetime, study, wind_data
 from lcoe.analysis import montecarlo as unc_mod
 from lcoe.analysis import sensitivity as sens_mod
 from lcoe.demo_files import assumptions_dir
+from lcoe.inputs import reference
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.about import CAUTION
 from lcoe.inputs.errors import ScenarioError
@@ -39,6 +40,8 @@ ASSUMPTIONS = assumptions_dir()
 DEMO_FILE = "tallowmere_ridge.toml"
 
 UPLOAD = "Upload a scenario file..."
+TEMPLATE = "Start from the template (as lcoe new writes it)"
+TEMPLATE_CURVE = "new_site_curve.csv"
 TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Wind data", "Monte Carlo", "Tornado",
         "Compare", "Yearly table"]
 LIFETIMES = list(range(15, 36))
@@ -200,11 +203,13 @@ def pick_scenario() -> tuple[sc.Scenario | None, str]:
     files = site_files(tuple((p.name, p.stat().st_mtime_ns) for p in sorted(ASSUMPTIONS.glob("*.toml"))))
     first = files.index(DEMO_FILE) if DEMO_FILE in files else 0     # the demo site, not a portfolio's site
     st.sidebar.header("Scenario")
-    choice = st.sidebar.selectbox("Scenario file from assumptions/", files + [UPLOAD], index=first,
+    choice = st.sidebar.selectbox("Scenario file from assumptions/", files + [UPLOAD, TEMPLATE], index=first,
                                   key="scenario_file")
     try:
         if choice == UPLOAD:
             scn, ident = uploaded()
+        elif choice == TEMPLATE:
+            scn, ident = template()
         else:
             path = ASSUMPTIONS / choice
             scn = load_file(str(path), path.stat().st_mtime_ns)
@@ -225,6 +230,22 @@ def pick_scenario() -> tuple[sc.Scenario | None, str]:
         st.session_state.pop("upload_scn", None)
         st.error(say(exc))
         return None, ""
+
+
+def template() -> tuple[sc.Scenario, str]:
+    """The scaffold of a new site (lcoe.inputs.reference, the text `lcoe new` writes) with its invented
+    power curve, loaded as an upload: edit it here, then take the bundle away."""
+    text = reference.template_text(TEMPLATE_CURVE)
+    ident = "template:" + hashlib.sha256(text.encode()).hexdigest()[:12]
+    if st.session_state.get("upload_ident") != ident or not st.session_state.get("upload_scn"):
+        st.session_state["upload_scn"] = uploads.load_upload(
+            "new_site.toml", text.encode(), {TEMPLATE_CURVE: reference.curve_template_csv().encode()}, upload_folder())
+        st.session_state["upload_ident"] = ident
+        st.session_state.setdefault("file_text", {})[ident] = text
+    st.sidebar.caption("A new site from the template: every number is invented; replace them with the site's own, "
+                       "or download the bundle and edit the file (each key's unit, range and default are its "
+                       "comments).")
+    return st.session_state["upload_scn"], ident
 
 
 def uploaded() -> tuple[sc.Scenario | None, str]:
