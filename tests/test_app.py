@@ -966,3 +966,15 @@ def test_a_new_site_starts_from_the_template_and_its_bundle_keeps_the_reference_
     text = path.read_text(encoding="utf-8")
     assert "# Each key has its unit, kind, allowed range and default in the comment above it" in text
     assert model.run(sc.load(path)).metrics == model.run(written.with_overrides({"project.turbines": 12})).metrics
+
+
+def test_the_wind_speed_tab_of_an_hourly_site_scales_its_record():
+    from lcoe.analysis import wind_data
+    at = start(scenario_file=DEMO_HOURLY.name, view="Wind speed")
+    assert not at.exception and not at.error
+    rows = wind_data.speed_sweep(sc.load(DEMO_HOURLY))
+    assert rows[12]["factor"] == 1.0
+    assert f"At the site: {rows[12]['elasticity']:.2f}" in " ".join(c.value for c in at.caption)
+    table = at.dataframe[0].value
+    assert list(table["Elasticity [-]"]) == [rp.fmt(r["elasticity"], "{:.2f}") for r in rows]
+    assert len(at.get("vega_lite_chart")) == 3

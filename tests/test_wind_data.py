@@ -67,3 +67,25 @@ def test_the_histogram_integrates_to_one_and_the_line_is_the_fitted_weibull(seri
 
 def test_a_scenario_without_a_series_has_no_view():
     assert wind_data.series_view(sc.load(DEMO)) is None
+
+
+def test_the_speed_sweep_of_a_series_is_the_engine_on_the_series_scaled_in_the_file(series_scenario, tmp_path):
+    """Every speed of the record times 1.1, written to a new file and run by the engine, gives the
+    sweep's figures at the factor 1.1 (within the site table's stated tolerance); at 1.0 the sweep is
+    the scenario's own run."""
+    from lcoe import engine as model
+    from lcoe.physics.site import TABLE_RTOL
+    rows = {r["factor"]: r for r in wind_data.speed_sweep(series_scenario, (0.9, 1.0, 1.1))}
+    base = model.run(series_scenario, breakeven=False)
+    assert rows[1.0]["lcoe"] == pytest.approx(base.metrics["lcoe_nominal_per_mwh"], rel=1e-12)
+    assert rows[1.0]["net_aep_p50_mwh"] == pytest.approx(base.energy.net_aep_p50_mwh, rel=1e-12)
+    df = pd.read_csv(series_scenario.resolve("wind.csv"))
+    df["speed_mps"] = df["speed_mps"] * 1.1
+    df.to_csv(tmp_path / "wind.csv", index=False)
+    scaled = sc.from_dict(series_scenario.raw, source="scaled.toml", base_dir=tmp_path)
+    case = model.run(scaled, breakeven=False)
+    assert rows[1.1]["gross_aep_mwh"] == pytest.approx(case.energy.gross_aep_mwh, rel=2 * TABLE_RTOL)
+    assert rows[1.1]["lcoe"] == pytest.approx(case.metrics["lcoe_nominal_per_mwh"], rel=2 * TABLE_RTOL)
+    assert rows[1.1]["hub_mean_speed_mps"] == pytest.approx(case.energy.hub_mean_speed_mps, rel=1e-12)
+    assert rows[1.0]["elasticity"] == pytest.approx(
+        np.log(rows[1.1]["net_aep_p50_mwh"] / rows[0.9]["net_aep_p50_mwh"]) / np.log(1.1 / 0.9), rel=1e-12)

@@ -112,6 +112,11 @@ def speed_study(text: str, base_dir: str, source: str, key: str, values: tuple) 
 
 
 @st.cache_data(max_entries=8, show_spinner=False)
+def series_sweep(text: str, base_dir: str, source: str) -> list:
+    return wind_data.speed_sweep(scenario_of(text, base_dir, source))
+
+
+@st.cache_data(max_entries=8, show_spinner=False)
 def series_of(text: str, base_dir: str, source: str) -> dict | None:
     return wind_data.series_view(scenario_of(text, base_dir, source))
 
@@ -583,29 +588,33 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
     st.markdown("**Energy and LCOE against the mean wind speed, centred on the site (±30 %)**")
     w = scn.wind
     key = sens_mod.speed_key(scn)
-    if key is None:
-        st.write("This scenario's wind comes from a series or a rose; the sweep needs a mean speed or a Weibull "
-                 "scale. The Wind data tab shows the series.")
-        return
-    now = float(sc.numeric_value(scn, key))
-    values = tuple(float(x) for x in np.round(now * np.linspace(0.7, 1.3, 25), 4))
     try:
         with st.spinner("Sweeping the wind speed..."):
-            rows = speed_study(text, base_dir, source, key, values)
+            if key is None:       # a series or a rose: every speed of the wind scaled (lcoe.analysis.wind_data)
+                pts = [{"speed": r["hub_mean_speed_mps"], "net": r["net_aep_p50_mwh"], "el": r["elasticity"],
+                        "lcoe": r["lcoe"]} for r in series_sweep(text, base_dir, source)]
+                now = pts[len(pts) // 2]["speed"]
+                xtitle = f"Mean wind speed at hub height {scn.turbine.hub_height_m:g} m [m/s]"
+                how = ("Every speed of the wind record scaled by 0.7 to 1.3, its shape kept (as the Monte Carlo "
+                       "scales it), the debt as sized at close.")
+            else:
+                now = float(sc.numeric_value(scn, key))
+                values = tuple(float(x) for x in np.round(now * np.linspace(0.7, 1.3, 25), 4))
+                pts = [{"speed": r["value"], "net": r["energy"]["net_aep_p50_mwh"], "el": r["elasticity"],
+                        "lcoe": r["metrics"]["lcoe_nominal_per_mwh"]}
+                       for r in speed_study(text, base_dir, source, key, values)]
+                what = "Mean wind speed" if key.endswith("mean_speed_mps") else "Weibull scale A"
+                xtitle = f"{what} at {w.height_m:g} m [m/s]"
+                how = "The engine's sweep of the input (`lcoe sweep`), the debt sized again at each value."
     except ScenarioError as exc:
         st.error(say(exc))
         return
-    site = min(rows, key=lambda r: abs(r["value"] - now))
-    ref_aep = site["energy"]["net_aep_p50_mwh"]
-    aep = pd.DataFrame([{"speed": r["value"], "what": "net AEP P50", "aep": r["energy"]["net_aep_p50_mwh"]}
-                        for r in rows] +
-                       [{"speed": r["value"], "what": "cube of the speed (through the site)",
-                         "aep": ref_aep * (r["value"] / site["value"]) ** 3} for r in rows])
-    el = pd.DataFrame([{"speed": r["value"], "elasticity": r["elasticity"]} for r in rows
-                       if r["elasticity"] is not None])
-    lc = pd.DataFrame([{"speed": r["value"], "lcoe": r["metrics"]["lcoe_nominal_per_mwh"]} for r in rows]).dropna()
-    what = "Mean wind speed" if key.endswith("mean_speed_mps") else "Weibull scale A"
-    xtitle = f"{what} at {w.height_m:g} m [m/s]"
+    site = min(pts, key=lambda r: abs(r["speed"] - now))
+    aep = pd.DataFrame([{"speed": r["speed"], "what": "net AEP P50", "aep": r["net"]} for r in pts] +
+                       [{"speed": r["speed"], "what": "cube of the speed (through the site)",
+                         "aep": site["net"] * (r["speed"] / site["speed"]) ** 3} for r in pts])
+    el = pd.DataFrame([{"speed": r["speed"], "elasticity": r["el"]} for r in pts if r["el"] is not None])
+    lc = pd.DataFrame([{"speed": r["speed"], "lcoe": r["lcoe"]} for r in pts]).dropna()
     a, b = st.columns(2)
     with a:
         charts.draw(charts.loglog, data=aep, x="speed", xtitle=xtitle + ", log", y="aep",
@@ -615,8 +624,8 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
     with b:
         charts.draw(charts.lines, data=el, x="speed", xtitle=xtitle, y="elasticity",
                     ytitle="Elasticity d ln AEP / d ln v [-]", mark_x=now)
-        st.caption(f"At the site: {rp.fmt(site['elasticity'], '{:.2f}')}, so 1 % more wind gives about "
-                   f"{rp.fmt(site['elasticity'], '{:.1f}')} % more energy (central differences of the sweep, as "
+        st.caption(f"At the site: {rp.fmt(site['el'], '{:.2f}')}, so 1 % more wind gives about "
+                   f"{rp.fmt(site['el'], '{:.1f}')} % more energy (central differences of the sweep, as "
                    "`lcoe sweep` prints them).")
     c, d = st.columns(2)
     with c:
@@ -627,15 +636,13 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
             band = pd.DataFrame({"x": [now], "lo": [s_["p50"]], "hi": [s_["p90"]]})
         charts.draw(charts.lines, data=lc, x="speed", xtitle=xtitle, y="lcoe", ytitle=f"LCOE, nominal [{cur}/MWh]",
                     mark_x=now, **({"band": band} if band is not None else {}))
-        st.caption("Dashed line: the current input." + (
+        st.caption(how + " Dashed line: the current input." + (
             f" Red bar: the Monte Carlo's LCOE from P50 {rp.fmt(band['lo'][0], '{:.2f}')} to P90 "
             f"{rp.fmt(band['hi'][0], '{:.2f}')} {cur}/MWh at the site's speed." if band is not None else
             " Run the Monte Carlo to see its LCOE band here."))
-    table = pd.DataFrame([{xtitle: f"{r['value']:.2f}", "Net AEP P50 [MWh/yr]": rp.fmt(r["energy"]["net_aep_p50_mwh"],
-                                                                                     "{:,.0f}"),
-                           "Elasticity [-]": rp.fmt(r["elasticity"], "{:.2f}"),
-                           f"LCOE, nominal [{cur}/MWh]": rp.fmt(r["metrics"]["lcoe_nominal_per_mwh"], "{:.2f}")}
-                          for r in rows])
+    table = pd.DataFrame([{xtitle: f"{r['speed']:.2f}", "Net AEP P50 [MWh/yr]": rp.fmt(r["net"], "{:,.0f}"),
+                           "Elasticity [-]": rp.fmt(r["el"], "{:.2f}"),
+                           f"LCOE, nominal [{cur}/MWh]": rp.fmt(r["lcoe"], "{:.2f}")} for r in pts])
     with d:
         st.markdown("**The sweep**")
         st.dataframe(table, hide_index=True, width="stretch", height=300)

@@ -1,4 +1,4 @@
-"""The wind series of a scenario, summarised for a person to look at.
+"""The wind series of a scenario, summarised for a person to look at, and its speed swept.
 
 A time plot (daily means), the monthly means with their coverage, the mean day (by
 hour of the day, UTC), the gaps in the record, and the histogram of the speeds the
@@ -13,6 +13,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from lcoe.analysis.sensitivity import elasticities
+from lcoe.engine import evaluate
+from lcoe.finance.cashflow import Sample
 from lcoe.physics import energy as en
 
 HIST_STEP_MPS = 0.5
@@ -73,3 +76,33 @@ def series_view(scn) -> dict | None:
             "coverage": {"present": int(s.size), "expected": expected, "share": s.size / expected if expected else 0.0},
             "gaps": gaps, "histogram": hist, "weibull": weibull if at_hub else None,
             "scale_mps": float(climate.scale_mps), "shape": float(climate.shape), "warnings": list(series.warnings)}
+
+
+SWEEP_FACTORS = tuple(round(0.7 + 0.025 * i, 3) for i in range(25))    # 0.70 .. 1.30
+
+
+def speed_sweep(scn, factors=SWEEP_FACTORS) -> list[dict]:
+    """The energy and LCOE of a scenario whose wind is a series (or a rose), every speed scaled by
+    each factor (the shape of the record kept): the engine's hub-speed factor, as the Monte Carlo
+    applies it (:class:`lcoe.finance.cashflow.Sample`), in one batch; the debt as sized at close.
+
+    Rows: ``factor``, ``hub_mean_speed_mps`` (the mean at hub height times the factor),
+    ``gross_aep_mwh`` and ``net_aep_p50_mwh`` (the site's AEP ratio at the factor times the base
+    figures: the losses, availability and a layout's wake loss are fractions that stay), ``lcoe``
+    (nominal) and ``elasticity`` d ln(net AEP) / d ln(speed) from the neighbouring rows
+    (:func:`lcoe.analysis.sensitivity.elasticities`).
+    """
+    f = np.asarray(factors, float)
+    site = en.site_for(scn)
+    energy = en.energy_of(scn, site)
+    ratio = site.ratio_at_factor(f)
+    rep = energy.report()
+    _, m, _ = evaluate(scn, sample=Sample(speed_factor=np.repeat(f[:, None], scn.lifetime, axis=1)), energy=energy,
+                       site=site)
+    lcoe = np.asarray(m["lcoe_nominal_per_mwh"], float).reshape(-1)
+    net = rep["net_aep_p50_mwh"] * ratio
+    hub = float(energy.hub_mean_speed_mps)
+    el = elasticities(f, net)
+    return [{"factor": float(x), "hub_mean_speed_mps": hub * float(x),
+             "gross_aep_mwh": float(rep["gross_aep_mwh"] * r), "net_aep_p50_mwh": float(n), "lcoe": float(c),
+             "elasticity": e} for x, r, n, c, e in zip(f, ratio, net, lcoe, el)]
