@@ -978,3 +978,10 @@ def test_the_wind_speed_tab_of_an_hourly_site_scales_its_record():
     table = at.dataframe[0].value
     assert list(table["Elasticity [-]"]) == [rp.fmt(r["elasticity"], "{:.2f}") for r in rows]
     assert len(at.get("vega_lite_chart")) == 3
+
+
+def test_warnings_name_data_files_as_a_user_knows_them():
+    at = start(scenario_file=DEMO_LAYOUT.name)
+    lines = [m.value for m in at.markdown if "tallowmere_site_12months.csv" in m.value]
+    assert lines and all("demo/tallowmere_site_12months.csv" in x and "../" not in x and str(ROOT) not in x
+                         for x in lines)

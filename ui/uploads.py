@@ -101,8 +101,9 @@ def public(message, folder: Path | None = None) -> str:
     for pair in roots:
         if pair and pair[0] != "/":
             text = text.replace(pair[0], pair[1])
-    # any other absolute path is shown by its last part only
+    # any other absolute path is shown by its last part only; "assumptions/../demo/x" as "demo/x"
     text = re.sub(r"(?<![\w.])/(?:[^\s/:'\"]+/)+([^\s/:'\"]+)", r"\1", text)
+    text = re.sub(r"(?<![\w./])(?:[\w-]+/\.\./)+", "", text)
     return cut(text, 600)
 
 
