@@ -846,6 +846,13 @@ def test_a_variant_of_the_file_loads_into_the_inputs_for_editing():
     type_in(at, "maintenance.fixed_per_kw_year", "39").run()      # edit the variant
     assert shown_headline(at) == expected_headline(model.run(var.with_overrides(
         {"maintenance.fixed_per_kw_year": 39.0})))
+    # another variant pinned meanwhile is the file's variant, not one on top of the loaded one
+    at.selectbox(key="variant_pick").set_value("preventive_plan").run()
+    at.button(key="pin_variant").click().run()
+    table = at.dataframe[0].value.set_index("Figure")
+    plan = model.run(sc.load(DEMO).variant("preventive_plan"))
+    assert table.loc["LCOE, nominal [EUR/MWh]", "variant preventive_plan"] == \
+        f"{plan.metrics['lcoe_nominal_per_mwh']:.2f}"
     at.selectbox(key="variant_pick").set_value("(the file as written)").run()
     at.button(key="load_variant").click().run()
     assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))

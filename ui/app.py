@@ -222,6 +222,7 @@ def pick_scenario() -> tuple[sc.Scenario | None, str]:
             st.session_state.setdefault("file_text", {})[ident] = path.read_text(encoding="utf-8")
         if scn is None:
             return None, ""
+        st.session_state["file_scn"] = scn          # the file as written: its variants are pinned from it
         variant = st.session_state.get("variant_loaded", {}).get(ident)
         if variant in scn.variants:
             st.sidebar.caption(f"Variant **{variant}** of the file is loaded into the inputs (Compare tab to change).")
@@ -831,25 +832,23 @@ def tab_tornado(scn, text, base_dir, source, cur, labels) -> None:
 
 def tab_compare(base, ident, text, base_dir, source, pins, cur) -> None:
     file_ident = ident.split(":variant:")[0]
-    if base.variants or st.session_state.get("variant_loaded", {}).get(file_ident):
-        file_scn = base
+    file_scn = st.session_state.get("file_scn", base)
+    if file_scn.variants:
         loaded = st.session_state.get("variant_loaded", {}).get(file_ident)
-        names = list(base.variants)
-        if loaded and not names:    # the loaded variant's own scenario carries no variants: take the file's
-            names = [loaded]
+        names = list(file_scn.variants)
         a, b, c, _ = st.columns([2, 1, 1.2, 1.5], vertical_alignment="bottom")
         var = a.selectbox("A variant of the scenario file", ["(the file as written)"] + names, key="variant_pick",
                           index=(names.index(loaded) + 1) if loaded in names else 0)
-        if b.button("Pin the variant", key="pin_variant", disabled=var not in base.variants):
+        if b.button("Pin the variant", key="pin_variant", disabled=var not in file_scn.variants):
             pins.append({"name": f"variant {var}", "text": sc.to_toml(file_scn.variant(var).raw),
-                         "base_dir": str(base.base_dir), "source": base.source,
-                         "label": f"variant {var} of {Path(base.source).name}"})
+                         "base_dir": str(file_scn.base_dir), "source": file_scn.source,
+                         "label": f"variant {var} of {Path(file_scn.source).name}"})
             st.session_state["against"] = f"variant {var}"
             st.rerun()
         if c.button("Load it into the inputs", key="load_variant",
                     help="Edit the variant: the sidebar then starts from it instead of the file"):
             store = st.session_state.setdefault("variant_loaded", {})
-            if var in base.variants or (var != "(the file as written)" and var == loaded):
+            if var in file_scn.variants:
                 store[file_ident] = var
             else:
                 store.pop(file_ident, None)
