@@ -128,6 +128,17 @@ TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Wind data", "
         "Yearly table"]
 
 
+def _clipped(page) -> list:
+    """What CLIPPED_JS finds once the page has settled (a chart still laying out is looked at again)."""
+    found = page.evaluate(CLIPPED_JS)
+    for _ in range(3):
+        if not found:
+            break
+        page.wait_for_timeout(1500)
+        found = page.evaluate(CLIPPED_JS)
+    return found
+
+
 def _settled(page) -> None:
     page.wait_for_timeout(800)
     page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=120_000)
@@ -160,15 +171,17 @@ def test_nothing_is_clipped_on_any_screen(server, width):
                     page.get_by_role("button", name="Run the Monte Carlo").click()
                     page.get_by_text("Chance minimum DSCR").first.wait_for(timeout=120_000)
                     _settled(page)
-                found[tab] = page.evaluate(CLIPPED_JS)
+                found[tab] = _clipped(page)
             # the hourly demo's wind data: the record's four charts
             page.locator('[data-testid="stSidebar"] [data-testid="stSelectbox"]').first.click()
             page.get_by_role("option", name=DEMO_HOURLY.name, exact=True).click()
             _settled(page)
             page.get_by_role("tab", name="Wind data", exact=True).click()
             _settled(page)
-            found["Wind data (hourly)"] = page.evaluate(CLIPPED_JS)
-            hourly_charts = page.locator('[data-testid="stVegaLiteChart"], [data-testid="stAltairChart"]').count()
+            drawn = page.locator('[data-testid="stVegaLiteChart"], [data-testid="stAltairChart"]')
+            drawn.nth(3).wait_for(timeout=60_000)
+            found["Wind data (hourly)"] = _clipped(page)
+            hourly_charts = drawn.count()
             assert page.locator('[data-testid="stException"]').count() == 0
         finally:
             browser.close()
