@@ -992,3 +992,18 @@ def test_warnings_name_data_files_as_a_user_knows_them():
     lines = [m.value for m in at.markdown if "tallowmere_site_12months.csv" in m.value]
     assert lines and all("demo/tallowmere_site_12months.csv" in x and "../" not in x and str(ROOT) not in x
                          for x in lines)
+
+
+def test_the_cash_tab_shows_sources_and_uses_and_the_lender_cases():
+    """The tables hold the engine's figures (lcoe.analysis.lender on the same scenario)."""
+    from lcoe.analysis import lender
+    at = start(view="Cash flow and debt")
+    assert not at.exception
+    (cases,) = [d.value for d in at.dataframe if "Min DSCR" in d.value.columns]
+    table = cases.set_index("Case")
+    scn = sc.load(DEMO)
+    ref = {r.case.label: r.metrics for r in lender.lender_cases(scn)}
+    assert list(table.index) == list(ref)
+    assert table.loc["P99 1-yr energy", "Min DSCR"] == rp.fmt(ref["P99 1-yr energy"]["min_dscr"], "{:.3f}")
+    (su,) = [d.value for d in at.dataframe if "Uses" in d.value.columns]
+    assert su.iloc[0, 0] == "Capex" and "Senior debt" in list(su["Sources"])

@@ -14,10 +14,25 @@ from lcoe.inputs import scenario
 from lcoe.physics import energy as en
 
 
-@pytest.mark.parametrize("which", ["demo", "tax_losses_macrs"])
+@pytest.mark.parametrize("which", ["demo", "tax_losses_macrs", "demo_reserved", "demo_built", "demo_swept"])
 def test_plain_loop_equals_the_engine_trial_by_trial(which):
     if which == "demo":
-        scn = scenario.load(DEMO)
+        scn = _without_structure(scenario.load(DEMO))
+    elif which == "demo_reserved":
+        # a deep lock-up threshold so that many of the 64 trials lock up and draw the reserve
+        scn = scenario.load(DEMO).with_overrides({"reserves": {"dsra_months": 6, "maintenance_years": 3,
+                                                               "deposit_rate": 0.03},
+                                                  "waterfall": {"lockup_dscr": 1.45}})
+    elif which == "demo_built":
+        import datetime as dt
+        scn = scenario.load(DEMO).with_overrides({
+            "construction": {"financial_close": dt.date(2027, 4, 1), "months": 20, "funding": "pro_rata",
+                             "drawdown": "even", "commitment_fee": 0.006},
+            "reserves": {"dsra_months": 6, "maintenance_years": 2, "deposit_rate": 0.01},
+            "waterfall": {"lockup_dscr": 1.45}})
+    elif which == "demo_swept":
+        scn = scenario.load(DEMO).with_overrides({"reserves": {"dsra_months": 6, "maintenance_years": 3},
+                                                  "waterfall": {"lockup_dscr": 1.45, "cash_sweep": True}})
     else:
         raw = make_raw(**{"finance.depreciation": "macrs_5", "finance.tax_rate": 0.3})
         raw["maintenance"]["component"] = [{"name": "gearbox", "failure_rate_per_turbine_year": 0.04,
@@ -33,7 +48,18 @@ def test_plain_loop_equals_the_engine_trial_by_trial(which):
     looped = bench.loop_trials(scn, case, inputs, sample, range(n))
     for key, values in looped.items():
         # numpy-financial npv/irr against the engine's vectorised NPV and Newton IRR
-        np.testing.assert_allclose(values, mc.samples[key], rtol=1e-9, atol=1e-6, err_msg=key)
+        engine = mc.samples[key] if key in mc.samples else mc.waterfall[key]
+        np.testing.assert_allclose(values, engine, rtol=1e-9, atol=1e-6, err_msg=key)
+    assert ("lockup_any" in looped) == (which in ("demo_reserved", "demo_built", "demo_swept"))
+    if which in ("demo_reserved", "demo_built", "demo_swept"):
+        assert looped["lockup_any"].sum() > 0 and looped["dsra_drawn"].sum() > 0
+
+
+def _without_structure(scn):
+    raw = scn.raw
+    for key in ("reserves", "waterfall", "construction"):
+        raw.pop(key, None)
+    return scenario.from_dict(raw, source=scn.source, base_dir=scn.base_dir)
 
 
 def test_bench_reports_the_contract_keys():

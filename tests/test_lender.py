@@ -80,3 +80,64 @@ def test_an_all_equity_scenario_has_no_cover_figures():
     for r in lender.lender_cases(scn):
         assert r.metrics["min_dscr"] is None and r.metrics["llcr"] is None
         assert r.metrics["years_below_1"] == 0
+
+
+def _with_cases(**tables):
+    import tomllib
+    raw = tomllib.loads(DEMO.read_text())
+    raw["lender_cases"] = tables
+    return sc.from_dict(raw, source="cases.toml", base_dir=DEMO.parent)
+
+
+def test_a_scenario_case_runs_with_its_keys_and_the_locked_debt():
+    """[lender_cases.NAME]: a label, an energy case and dotted keys; O&M +25 % with P90 10-yr
+    energy must give lower cover than either alone (same locked schedule)."""
+    scn = _with_cases(heavy={"label": "Heavy O&M, P90 10-yr", "energy_case": "p90_10yr",
+                             "maintenance.fixed_per_kw_year": 45.0},
+                      om_plus_10={"label": "O&M +10 % (own)", "maintenance.fixed_per_kw_year": 39.6})
+    base = engine.run(scn, breakeven=False)
+    res = {r.case.name: r for r in lender.lender_cases(scn, base)}
+    assert list(res)[-1] == "heavy" and res["om_plus_10"].case.label == "O&M +10 % (own)"   # replaces the default
+    assert len(res) == 9
+    np.testing.assert_array_equal(res["heavy"].flows.debt_service, base.flows.debt_service)
+    assert res["heavy"].metrics["min_dscr"] < min(res["p90_10yr"].metrics["min_dscr"],
+                                                  res["om_plus_10"].metrics["min_dscr"])
+
+
+@pytest.mark.parametrize("table, match", [
+    ({"finance.debt.tenor_years": 12}, r"lender_cases.bad.finance.debt.tenor_years = 12: a lender case cannot"),
+    ({"project.lifetime_years": 20}, r"lender_cases.bad.project.lifetime_years = 20: a lender case cannot"),
+    ({"energy_case": "p80"}, r"lender_cases.bad.energy_case = 'p80': must be one of"),
+    ({"maintenance.fixed_per_kw_yr": 40.0}, r"lender_cases.bad.maintenance.fixed_per_kw_yr = 40.0: unknown key"),
+    ({"operations.availability_mature": 1.5}, r"lender_cases.bad.operations.availability_mature = 1.5"),
+])
+def test_a_lender_case_that_cannot_be_honoured_is_refused(table, match):
+    from lcoe.inputs.errors import ScenarioError
+    with pytest.raises(ScenarioError, match=match):
+        _with_cases(bad=table)
+
+
+def test_the_report_has_the_lender_cases_block_and_table():
+    from lcoe.analysis import study
+    from lcoe.outputs import report as rp
+    scn = sc.load(DEMO)
+    rep = study.build(scn, trials=0, variants=False)
+    d = rep.to_dict()
+    block = d["lender_cases"]
+    assert list(block)[:2] == ["base", "p90_1yr"] and len(block) == 8
+    for row in block.values():
+        for k in engine.COVER_KEYS + ("equity_irr", "label", "energy_case"):
+            assert k in row
+    assert block["base"]["min_dscr"] == pytest.approx(d["metrics"]["min_dscr"], rel=1e-12)
+    table = rp.to_table(rep, yearly=False)
+    assert "Lender cases (debt and debt service locked at the base sizing)" in table
+    line = next(x for x in table.splitlines() if x.strip().startswith("P99 1-yr energy"))
+    assert f"{block['p99_1yr']['min_dscr']:.3f}" in line
+    assert all(len(x) <= 100 for x in table.splitlines() if "DSCR" in x and "Case" in x)
+
+
+def test_too_many_lender_cases_are_refused():
+    from lcoe.inputs.errors import ScenarioError
+    from lcoe.inputs.schema import MAX_VARIANTS
+    with pytest.raises(ScenarioError, match=rf"lender_cases: {MAX_VARIANTS + 1} lender cases; a scenario runs at most"):
+        _with_cases(**{f"c{i}": {"maintenance.fixed_per_kw_year": 40.0} for i in range(MAX_VARIANTS + 1)})

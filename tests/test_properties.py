@@ -343,7 +343,9 @@ def _has_reason(path, report) -> bool:
         word = NULL_WORDS.get(key, key) if block == "metrics" else f"energy.{key} is null"
         return any(w.startswith(f"variant {name}: ") and word in w for w in warnings) or \
             any(word in w for w in warnings if not w.startswith("variant "))
-    if head == "financing":   # the report's own blocks name the null by its dotted key
+    if head == "lender_cases":
+        return any(w.startswith(f"lender_cases.{path[1]}.{path[2]} is null: ") for w in warnings)
+    if head in ("financing", "sources_and_uses"):   # the report's own blocks name the null by its dotted key
         return any(f"{'.'.join(map(str, path))} is null" in w for w in warnings)
     if head == "montecarlo":
         key = path[2] if path[1] == "p90_standard_error" else path[1]

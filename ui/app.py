@@ -21,7 +21,7 @@ import streamlit as st
 from lcoe.ui import charts, inputs, uploads
 
 from lcoe import engine as model
-from lcoe.analysis import lifetime, study, wind_data
+from lcoe.analysis import lender, lifetime, study, wind_data
 from lcoe.analysis import montecarlo as unc_mod
 from lcoe.analysis import sensitivity as sens_mod
 from lcoe.demo_files import assumptions_dir
@@ -376,7 +376,8 @@ def main() -> None:
                 st.write(f"- {say(w)}")
 
     tabs = st.tabs(TABS, key="view", on_change="rerun")
-    views = [lambda: tab_energy(scn, case), lambda: tab_cash(scn, case, cur),
+    views = [lambda: tab_energy(scn, case),
+             lambda: (tab_cash(scn, case, cur), lender_panel(case, text, base_dir, source, cur)),
              lambda: tab_lifetime(scn, text, base_dir, source, cur),
              lambda: tab_speed(scn, text, base_dir, source, cur),
              lambda: tab_series(scn, text, base_dir, source),
@@ -521,6 +522,40 @@ def tab_cash(scn, case, cur) -> None:
                    "meets the same "
                    f"schedule. Minimum DSCR {rp.fmt(case.metrics['min_dscr'], '{:.3f}')}x, "
                    f"LLCR {rp.fmt(case.metrics['llcr'], '{:.3f}')}x.")
+
+
+@st.cache_data(max_entries=16, show_spinner=False)
+def lender_rows(text: str, base_dir: str, source: str) -> list:
+    """The lender cases of the current inputs, debt locked at the base sizing (lcoe.analysis.lender)."""
+    case = case_of(text, base_dir, source)
+    return [r.to_dict() for r in lender.lender_cases(case.scenario, case)]
+
+
+def lender_panel(case, text, base_dir, source, cur) -> None:
+    """Sources and uses, then the lender cases: the figures of `lcoe run`, as tables."""
+    su = case.sources_and_uses()
+    st.markdown("**Sources and uses of funds**")
+    uses = [(rp.USES_LABELS[k], v) for k, v in su["uses"].items()]
+    sources = [("Senior debt", su["sources"]["debt"]), ("Equity", su["sources"]["equity"]),
+               ("Total sources", su["sources"]["total"])]
+    st.dataframe(pd.DataFrame({"Uses": [u for u, _ in uses], f"[{cur} M]": [rp.fmt(v, "m") for _, v in uses],
+                               "Sources": [x for x, _ in sources] + [""] * (len(uses) - len(sources)),
+                               f"[{cur} M] ": [rp.fmt(v, "m") for _, v in sources] + [""] * (len(uses) - len(sources))}),
+                 hide_index=True, key="sources_uses")
+    when = (f" Financial close {su['financial_close']}, operation {su['commercial_operation']}."
+            if "commercial_operation" in su else "")
+    st.caption(f"Gearing (debt / uses) {rp.fmt(su['gearing'], 'pct')} %; sources and uses "
+               f"{'balance' if su['balanced'] else 'do NOT balance'}.{when}")
+    if case.scenario.finance.debt is None:
+        return
+    st.markdown("**Lender cases (debt and debt service locked at the base sizing)**")
+    rows = lender_rows(text, base_dir, source)
+    table = [{"Case": r["label"], **{h: ("n/a" if r[k] is None else f"{r[k] / 1e3:,.0f}" if how == "k"
+                                         else rp.fmt(r[k], how)) for k, h, how in rp.LENDER_COLUMNS}}
+             for r in rows]
+    st.dataframe(pd.DataFrame(table), hide_index=True, key="lender_cases")
+    st.caption(f"Lock-up in years; DSRA drawn and unpaid debt service over the life in {cur} thousands; "
+               "equity IRR in %.")
 
 
 def _extension_default(scn) -> tuple[int, float]:
@@ -740,7 +775,7 @@ def tab_montecarlo(scn, case, text, cur) -> None:
                  + "Run the Monte Carlo to see the spread of the figures (P90 on the conservative side).")
         return
     rep = res.report()
-    lender(res, rep, scn, cur)
+    lender_odds(res, rep, scn, cur)
     options = [k for k in MC_KEYS if k in res.samples]
     names = {k: label_of("metrics", k, cur) for k in options}
     pick = st.selectbox("Figure", options, format_func=lambda k: f"{names[k][0]} [{names[k][1]}]", key="mc_pick")
@@ -774,7 +809,7 @@ def tab_montecarlo(scn, case, text, cur) -> None:
         st.caption(f"warning: {say(w)}")
 
 
-def lender(res, rep, scn, cur) -> None:
+def lender_odds(res, rep, scn, cur) -> None:
     """The lender's view of a run: the probabilities of missing the covenants, and the energy's spread."""
     cols = st.columns(5)
     if res.target_dscr is not None:

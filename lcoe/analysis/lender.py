@@ -10,7 +10,13 @@ case (:attr:`lcoe.engine.Case.schedule`); nothing is re-sized.
 The default set (common practice in lenders' base-case reviews; the sizes are the usual
 round numbers, not a standard): base, P90 1-yr, P99 1-yr, P90 10-yr, O&M +10 %,
 availability -2 points, price -10 %, and a combined downside (P90 1-yr energy, O&M +10 %,
-availability -2 points and price -10 % together).
+availability -2 points and price -10 % together). A scenario adds its own cases as
+``[lender_cases.NAME]`` tables (an optional ``label`` and ``energy_case``, then dotted keys
+as in a variant); a case named like a default one replaces it.
+
+Each case runs the whole engine on the scenario with the case's keys applied and the debt
+locked (:func:`lcoe.engine.run`'s ``debt``), the cash waterfall included; its figures are
+:func:`lcoe.engine.cover_of` plus the equity and project IRR and the equity NPV.
 """
 
 from __future__ import annotations
@@ -46,8 +52,16 @@ class LenderResult:
     metrics: dict                # min_dscr, avg_dscr, llcr, equity_irr, project_irr, years_below_1, ...
 
     def to_dict(self) -> dict:
-        return {"label": self.case.label, "energy_case": self.case.energy_case,
+        return {"label": self.case.label, "energy_case": self.case.energy_case or "p50",
                 "overrides": dict(self.case.overrides), **self.metrics}
+
+    def null_reasons(self) -> list[str]:
+        """A reason for each figure of this case that does not exist."""
+        why = {"min_dscr": "no year of this case has debt service", "avg_dscr": "no year of this case has debt service",
+               "llcr": "there is no debt", "equity_irr": "its equity cash flow has no IRR",
+               "project_irr": "its project cash flow has no IRR", "equity_npv": "it is not defined"}
+        return [f"lender_cases.{self.case.name}.{k} is null: {why.get(k, 'it is not defined')}"
+                for k, v in self.metrics.items() if v is None or (isinstance(v, float) and not np.isfinite(v))]
 
 
 def _om_keys(scn) -> list[str]:
@@ -88,6 +102,17 @@ def default_cases(scn) -> list[LenderCase]:
     ]
 
 
+def scenario_cases(scn) -> list[LenderCase]:
+    """The default cases with the scenario's ``[lender_cases.NAME]`` tables: a case named like a
+    default one replaces it, the others follow in the file's order."""
+    own = {}
+    for name, table in scn.lender_cases.items():
+        over = {k: v for k, v in table.items() if k not in ("label", "energy_case")}
+        own[name] = LenderCase(name, table.get("label") or name.replace("_", " "), over, table.get("energy_case"))
+    cases = [own.pop(c.name, c) for c in default_cases(scn)]
+    return cases + list(own.values())
+
+
 def _finite(v):
     v = float(v)
     return v if np.isfinite(v) else None
@@ -95,28 +120,23 @@ def _finite(v):
 
 def run_case(scn, base: engine.Case, case: LenderCase) -> LenderResult:
     """One case with the debt locked at ``base``'s sizing."""
-    over = {k: np.array([float(v)]) for k, v in case.overrides.items()}
     sample = None
     if case.energy_case is not None:
         factor = float(np.asarray(base.flows.case_factors[case.energy_case]).ravel()[0])
         sample = Sample(energy_factor=np.array([[factor]]))
-    flows, m, _ = engine.evaluate(scn, overrides=over or None, sample=sample, schedule=base.schedule,
-                                  energy=base.energy)
-    dscr = flows.dscr[0, 1:]
-    service = flows.debt_service[0, 1:] > 0
-    with np.errstate(invalid="ignore"):
-        below = int(np.count_nonzero(service & (dscr < 1.0)))
-    shortfall = float(np.maximum(flows.debt_service[0, 1:] - np.maximum(flows.cfads[0, 1:], 0.0), 0.0)[service].sum())
-    metrics = {k: _finite(np.asarray(m[k]).ravel()[0]) for k in
-               ("min_dscr", "avg_dscr", "llcr", "equity_irr", "project_irr", "equity_npv")}
-    metrics["years_below_1"] = below
-    metrics["cfads_shortfall"] = shortfall
+    scn_case = scn.with_overrides(case.overrides, label=f"lender_cases.{case.name}") if case.overrides else scn
+    schedule = engine.locked_schedule(scn_case, base)
+    flows, m, _ = engine.evaluate(scn_case, sample=sample, schedule=schedule,
+                                  energy=None if case.overrides else base.energy)
+    metrics = engine.cover_of(flows, m)
+    metrics.update({k: _finite(np.asarray(m[k]).ravel()[0]) for k in ("equity_irr", "project_irr", "equity_npv")})
     return LenderResult(case, flows, metrics)
 
 
 def lender_cases(scn, base: engine.Case | None = None, cases: list[LenderCase] | None = None
                  ) -> list[LenderResult]:
-    """Every lender case (the default set unless ``cases`` is given) with the debt locked at the
-    base sizing. An all-equity scenario has no debt to lock: the cover figures come back null."""
+    """Every lender case (the default set and the scenario's own unless ``cases`` is given) with
+    the debt locked at the base sizing. An all-equity scenario has no debt to lock: the cover
+    figures come back null."""
     base = base if base is not None else engine.run(scn, breakeven=False)
-    return [run_case(scn, base, c) for c in (cases if cases is not None else default_cases(scn))]
+    return [run_case(scn, base, c) for c in (cases if cases is not None else scenario_cases(scn))]

@@ -216,6 +216,18 @@ class MonteCarloResult:
     equity_target: float
     warnings: list = field(default_factory=list)
     inputs: dict = field(default_factory=dict)     # vary key -> drawn values
+    waterfall: dict = field(default_factory=dict)  # engine.WATERFALL_TRIAL_KEYS -> values, with a cash waterfall
+
+    def waterfall_report(self) -> dict:
+        """P(lock-up in any year), P(DSRA drawn), P(debt service unpaid after the reserves) and the
+        expected cash trapped over the life (nominal), with the debt locked at close."""
+        w = self.waterfall
+        if not w or w["lockup_any"].size == 0:
+            return {}
+        return {"prob_lockup_any_year": float(np.mean(w["lockup_any"] > 0)),
+                "prob_dsra_drawn": float(np.mean(w["dsra_drawn"] > 0)),
+                "prob_debt_service_unpaid": float(np.mean(w["unpaid_any"] > 0)),
+                "expected_cash_trapped": float(np.mean(w["cash_trapped"]))}
 
     def _ranked(self, key: str) -> np.ndarray:
         """The values percentiles are taken of: the defined ones, except for the payback year,
@@ -285,6 +297,7 @@ class MonteCarloResult:
             out["prob_min_dscr_below_1"] = self.probability("min_dscr", 1.0)
             out["prob_min_dscr_below_target"] = self.probability("min_dscr", self.target_dscr)
         out["prob_equity_irr_below_target"] = self.probability("equity_irr", self.equity_target)
+        out.update(self.waterfall_report())
         out["p90_standard_error"] = {k: self.p90_standard_error(k) for k in self.samples}
         out["histogram"] = {k: self.histogram(k) for k in self.samples}
         return out
@@ -487,10 +500,11 @@ def run_trials(scn, case, inputs: dict, sample: Sample, *, fused: bool = True) -
     if fused and model._kernels is not None:
         res = model.trial_metrics(scn, case.energy, overrides=inputs or None, sample=sample,
                                   schedule=case.schedule, irr_guess=guess)
-        return {k: res[k] for k in SAMPLED_KEYS if k in res}
+        return {k: res[k] for k in SAMPLED_KEYS + model.WATERFALL_TRIAL_KEYS if k in res}
     flows, m, w = model.evaluate(scn, overrides=inputs or None, sample=sample, schedule=case.schedule,
                                  energy=case.energy, lean=True, irr_guess=guess)
     out = {k: m[k] for k in SAMPLED_KEYS if k in m}
+    out.update(model.waterfall_trial_values(flows))
     out["net_aep_year1_mwh"] = flows.energy_mwh[:, 1].copy()
     out["net_aep_mean_mwh"] = flows.energy_mwh[:, 1:].mean(axis=1)
     out["capex_total"] = np.broadcast_to(flows.capex_total, (flows.energy_mwh.shape[0], 1))[:, 0].copy()
@@ -514,7 +528,7 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     chunk = max(BLOCK, (chunk // BLOCK) * BLOCK)
     L = scn.lifetime
     clipped: list[tuple] = []
-    parts: dict[str, list] = {k: [] for k in SAMPLED_KEYS}
+    parts: dict[str, list] = {k: [] for k in SAMPLED_KEYS + model.WATERFALL_TRIAL_KEYS}
     drawn: dict[str, list] = {k: [] for k in scn.montecarlo.vary}
     blocks = math.ceil(n / BLOCK) if n else 0
     per_chunk = chunk // BLOCK
@@ -537,7 +551,7 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     with ThreadPoolExecutor(max_workers=workers) as pool:
         results = pool.map(one_chunk, chunks) if workers > 1 else map(one_chunk, chunks)
         for span, (res, inputs, notes) in zip(chunks, results):
-            for k in SAMPLED_KEYS:
+            for k in parts:
                 parts[k].append(res[k])
             for k in drawn:
                 drawn[k].append(inputs[k])
@@ -546,6 +560,9 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
             if progress is not None:
                 progress(done / n)
     samples = {k: (np.concatenate(v) if v else np.empty(0)) for k, v in parts.items()}
+    structure = {k: samples.pop(k) for k in model.WATERFALL_TRIAL_KEYS}
+    if scn.reserves is None and scn.waterfall is None:
+        structure = {}
     # counted over the whole run, so that the report does not depend on the chunk size
     warnings = _clip_warnings(scn, clipped, n)
     for k in ("project_irr", "equity_irr", "lcoe_nominal_per_mwh", "payback_year"):
@@ -564,4 +581,4 @@ def monte_carlo(scn, case=None, *, trials: int | None = None, seed: int | None =
     return MonteCarloResult(trials=n, seed=seed, samples=samples,
                             target_dscr=debt.target_dscr if has_debt else None,
                             equity_target=scn.equity_target_return, warnings=warnings,
-                            inputs={k: np.concatenate(v) for k, v in drawn.items() if v})
+                            inputs={k: np.concatenate(v) for k, v in drawn.items() if v}, waterfall=structure)

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lcoe.analysis import montecarlo
+from lcoe.analysis import lender, montecarlo
 from lcoe.analysis import sensitivity as sens
 from lcoe.engine import Case, run
 from lcoe.physics import energy as en
@@ -22,6 +22,7 @@ class Report:
     variants: dict = field(default_factory=dict)    # name -> Case
     montecarlo: object | None = None                # montecarlo.MonteCarloResult
     sensitivity: object | None = None               # sensitivity.SensitivitySet (shown by the workbook only)
+    lender: list | None = None                      # lender.LenderResult per case (debt locked at close)
     as_run: dict = field(default_factory=dict)      # changes made on the command line (variant, set, seed)
 
     def to_dict(self) -> dict:
@@ -40,11 +41,14 @@ class Report:
             **directions_blocks(c.energy),
             "costs": costs,
             "financing": financing_block(c),
+            "sources_and_uses": c.sources_and_uses(),
             "metrics": dict(c.metrics),
             "annual": c.annual(),
         }
         if out["financing"]["gearing"] is None:
             warnings.append("financing.gearing is null: the capex is zero")
+        if out["sources_and_uses"]["gearing"] is None:
+            warnings.append("sources_and_uses.gearing is null: the uses of funds are zero")
         series = en.site_for(c.scenario).climate.series
         if series is not None:
             out["series"] = series_block(series)
@@ -53,6 +57,9 @@ class Report:
             warnings.extend(w for w in self.montecarlo.warnings if w not in warnings)
             warnings.extend(w for w in montecarlo_null_reasons(self.montecarlo, out["montecarlo"])
                             if w not in warnings)
+        if self.lender is not None:
+            out["lender_cases"] = {r.case.name: r.to_dict() for r in self.lender}
+            warnings.extend(w for r in self.lender for w in r.null_reasons() if w not in warnings)
         out["variants"] = {}
         for name, v in self.variants.items():
             out["variants"][name] = {"metrics": dict(v.metrics), "energy": v.energy.report()}
@@ -144,15 +151,20 @@ def financing_block(case: Case) -> dict:
                        "gearing_cap_binds": bool(np.ravel(case.schedule.gearing_bound)[0]),
                        "tenor_years": debt.tenor_years, "interest_rate": debt.interest_rate,
                        "upfront_fee": debt.upfront_fee}
+        if debt.target_dscr_merchant is not None:
+            out["debt"]["target_dscr_merchant"] = debt.target_dscr_merchant
     return out
 
 
 def build(scn, *, trials: int | None = None, variants: bool = True, progress=None,
           sensitivity: bool = False) -> Report:
-    """Run the base case, each variant, (when trials > 0) the Monte Carlo and (when
-    ``sensitivity``) the tornado and wind-speed sweep that the lender workbook shows."""
+    """Run the base case, each variant, the lender cases (with a debt table), (when trials > 0)
+    the Monte Carlo and (when ``sensitivity``) the tornado and wind-speed sweep that the lender
+    workbook shows."""
     case = run(scn)
     rep = Report(case)
+    if scn.finance.debt is not None:
+        rep.lender = lender.lender_cases(scn, case)
     if variants:
         for name in scn.variants:
             rep.variants[name] = run(scn.variant(name))

@@ -7,7 +7,9 @@ deterministic run with the site cached, (d) the Weibull AEP integral, (e) the wa
 losses of a 50-turbine grid over a 12-sector rose in 1 m/s speed bins, (f) the portfolio
 Monte Carlo of many invented sites through the local Dask cluster with 1 and 2 workers,
 and the peak memory of the process. The loop and the engine are checked against each other on
-the subsample. With ``startup`` (the command's default) it also times the command line as a user
+the subsample; with a construction period, reserves or a lock-up in the scenario the loop funds
+the construction and runs the cash waterfall too (:func:`plain_funding`, :func:`plain_waterfall`,
+its own plain-Python versions). With ``startup`` (the command's default) it also times the command line as a user
 meets it, each in a fresh process started from an empty folder: ``--help`` and every command's help
 (``cli_help_s``, the slowest), a first ``lcoe run`` of the scenario with an empty numba cache, the
 compiled kernels built (``cold_run_s``), and the same run again, the kernels cached (``warm_run_s``,
@@ -120,6 +122,130 @@ def table_ratio(site, f: float) -> float:
     return float(site.aep_ratios[i] + w * site.cell_slopes[i] - fall)
 
 
+def plain_funding(capex: float, debt: float, fee: float, dsra: float, c, rate: float) -> float:
+    """The equity of a construction period in plain Python, quarter by quarter, repeated until
+    the interest during construction and the commitment fee settle (lcoe.finance.construction)."""
+    q = -(-c.months // 3)
+    lengths = [3.0] * (q - 1) + [float(c.months - 3 * (q - 1))]
+    if isinstance(c.drawdown, list):
+        shares = list(c.drawdown)
+    elif c.drawdown == "even":
+        shares = [x / c.months for x in lengths]
+    else:
+        done, shares = 0.0, []
+        for x in lengths:
+            a, b = done / c.months, (done + x) / c.months
+            shares.append((3 * b * b - 2 * b ** 3) - (3 * a * a - 2 * a ** 3))
+            done += x
+    extra = 0.0
+    for _ in range(200):
+        uses = capex + fee + extra + dsra
+        equity_left = uses - debt
+        share_debt = debt / uses if uses > 0 else 0.0
+        paid = min(fee, equity_left) if c.funding == "equity_first" else fee * (1 - share_debt)
+        equity_left -= paid
+        balance = fee - paid
+        total = 0.0
+        for k in range(q):
+            interest = balance * ((1 + rate) ** (lengths[k] / 12) - 1)
+            commit = max(debt - balance, 0.0) * c.commitment_fee * lengths[k] / 12
+            use = capex * shares[k] + interest + commit + (dsra if k == q - 1 else 0.0)
+            paid = min(use, max(equity_left, 0.0)) if c.funding == "equity_first" else use * (1 - share_debt)
+            equity_left -= paid
+            balance += use - paid
+            total += interest + commit
+        if abs(total - extra) <= 1e-12 * max(capex, 1.0):
+            extra = total
+            break
+        extra = total
+    return capex + fee + extra + dsra - debt
+
+
+def plain_waterfall(cfads: list, ds: list, overhauls: list, equity0: float, months: float, build_years: int,
+                    deposit: float, lockup: float, first_share: float = 1.0, sweep=None) -> dict:
+    """The cash waterfall of one trial in plain Python (the order of lcoe.finance.waterfall):
+    lists over t = 0..L; ``overhauls`` the nominal overhaul cost of each year. Returns the equity
+    cash flow and whether any year was locked up, the DSRA drawn, debt service left unpaid, and
+    the cash trapped over the life. ``sweep``: None, or (pre-tax cash, taxable income before
+    interest, scheduled interest, scheduled closing balance, tax rate) for a cash sweep, which
+    also gives back the swept CFADS and debt service."""
+    L = len(cfads) - 1
+
+    def dsra_target(t):
+        pace = first_share if t + 1 == 1 else 1.0
+        return months / 12.0 * (ds[t + 1] / pace if t + 1 <= L else 0.0)
+
+    def mra_target(t):
+        total = 0.0
+        for y in range(2, L + 1):
+            start = max(1, y - build_years)
+            if build_years > 0 and overhauls[y] and start <= t < y:
+                total += overhauls[y] * min(1.0, (t - start + 1) / (y - start))
+        return total
+
+    dsra, mra, trapped = dsra_target(0), mra_target(0), 0.0
+    left, pool = 1.0, 0.0          # the share of the scheduled debt still owed; the tax loss pool
+    cfads, ds = list(cfads), list(ds)
+    scheduled = list(ds)
+    equity = [equity0 - dsra - mra]
+    flags = {"lockup_any": 0.0, "dsra_drawn": 0.0, "unpaid_any": 0.0, "cash_trapped": 0.0}
+    for t in range(1, L + 1):
+        if sweep is not None:
+            pre, taxable, interest, balance, rate = sweep
+            ds[t] = left * scheduled[t]
+            tax, pool = _carry_forward(taxable[t] - left * interest[t], pool, rate)
+            cfads[t] = pre[t] - tax
+        cash = cfads[t] + deposit * (dsra + mra + trapped)
+        if mra > mra_target(t):
+            cash += mra - mra_target(t)
+            mra = mra_target(t)
+        cash -= ds[t]
+        unpaid = 0.0
+        if cash < 0:
+            take = min(dsra, -cash)
+            dsra -= take
+            cash += take
+            if take > 0:
+                flags["dsra_drawn"] = 1.0
+        if cash < 0:
+            take = min(trapped, -cash)
+            trapped -= take
+            cash += take
+        if cash < 0:
+            unpaid, cash = -cash, 0.0
+            flags["unpaid_any"] = 1.0
+        target = dsra_target(t) * (left if sweep is not None else 1.0)
+        if dsra > target:
+            cash += dsra - target
+            dsra = target
+        else:
+            top = min(cash, target - dsra)
+            dsra += top
+            cash -= top
+        if mra < mra_target(t):
+            top = min(cash, mra_target(t) - mra)
+            mra += top
+            cash -= top
+        if sweep is not None and lockup > 0 and ds[t] > 0 and cfads[t] / ds[t] < lockup:
+            flags["lockup_any"] = 1.0
+            owed = left * sweep[3][t]
+            prepay = min(cash, owed)
+            if owed > 0:
+                left *= 1.0 - prepay / owed
+            paid, trapped = cash - prepay + trapped, 0.0
+        elif lockup > 0 and ds[t] > 0 and cfads[t] / ds[t] < lockup:
+            trapped += cash
+            flags["lockup_any"] = 1.0
+            flags["cash_trapped"] += cash
+            paid = 0.0
+        else:
+            paid, trapped = cash + trapped, 0.0
+        if t == L:
+            paid += dsra + mra + trapped
+        equity.append(paid - unpaid)
+    return {"equity": equity, "cfads": cfads, "ds": ds, **flags}
+
+
 def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cost) -> dict:
     """One Monte Carlo trial the straightforward way: a Python loop over the years, then
     numpy-financial's ``npv`` and ``irr`` and every other metric the engine gives. ``over`` holds this trial's drawn inputs;
@@ -152,7 +278,17 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     tax_rate = get("finance.tax_rate", f.tax_rate)
     sched = case.schedule
     gross = site.gross_aep_mwh
-    energy, costs, project, cfads = [0.0], [0.0], [-capex], [0.0]
+    cons = scn.construction
+    first_share = 1.0
+    if cons is not None:
+        cod = cons.financial_close
+        y, mo = divmod(cod.month - 1 + cons.months, 12)
+        cod = cod.replace(year=cod.year + y, month=mo + 1, day=1) if cod.day == 1 else None
+        if cod is None:
+            raise ValueError("bench: the plain loop takes a financial close on the first of a month")
+        first_share = (13 - cod.month) / 12.0
+    energy, costs, project, cfads, ds_line, works_line = [0.0], [0.0], [-capex], [0.0], [0.0], [0.0]
+    pre_line, taxable_line = [0.0], [0.0]
     equity = [-(capex + float(sched.fee[0, 0]) - float(sched.debt[0, 0]))]
     pool_u = pool_l = 0.0
     for t in range(1, L + 1):
@@ -163,8 +299,9 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         avail = min(max(avail, 0.0), 1.0)
         g = gross if speed is None else gross * table_ratio(site, float(speed[t - 1]))
         down = exp_down if downtime is None else downtime[t - 1]
-        e = g * lf * avail * (1.0 - down) * (1.0 - get("operations.degradation_per_year",
-                                                         o.degradation_per_year)) ** (t - 1)
+        part = first_share if t == 1 else 1.0
+        e = g * lf * avail * part * (1.0 - down) * (1.0 - get("operations.degradation_per_year",
+                                                                o.degradation_per_year)) ** (t - 1)
         if efac is not None:
             e *= efac
         if t <= get("revenue.ppa_term_years", scn.ppa_term_years):
@@ -179,9 +316,9 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         works = sum(get(f"maintenance.overhaul.{x.name}.cost_per_turbine", x.cost_per_turbine) * n
                     for x in m.overhaul if get(f"maintenance.overhaul.{x.name}.year", x.year) == t)
         failures = exp_cost if fail_cost is None else fail_cost[t - 1]
-        om = ((get("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
-               + get("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)) * kw
-              + get("maintenance.variable_per_mwh", m.variable_per_mwh) * e + failures + works) * (1 + esc) ** t \
+        om = (((get("maintenance.fixed_per_kw_year", m.fixed_per_kw_year)
+                + get("maintenance.insurance_per_kw_year", m.insurance_per_kw_year)) * kw + failures + works) * part
+              + get("maintenance.variable_per_mwh", m.variable_per_mwh) * e) * (1 + esc) ** t \
             + get("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue) * revenue
         decom = (get("capex.decommissioning_per_kw", c.decommissioning_per_kw)
                  - get("capex.salvage_per_kw", c.salvage_per_kw)) * kw * (1 + esc) ** L if t == L else 0.0
@@ -194,6 +331,28 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         project.append(pre_tax - tax_u)
         cfads.append(pre_tax - tax_l)
         equity.append(pre_tax - tax_l - float(sched.debt_service[0, t - 1]))
+        ds_line.append(float(sched.debt_service[0, t - 1]))
+        pre_line.append(pre_tax)
+        taxable_line.append(pre_tax - dep)
+        works_line.append(works * (1 + esc) ** t)
+    flags = {}
+    res, wfall = scn.reserves, scn.waterfall
+    if cons is not None:
+        dsra0 = res.dsra_months / 12.0 * ds_line[1] / first_share if res is not None else 0.0
+        equity[0] = -(plain_funding(capex, float(sched.debt[0, 0]), float(sched.fee[0, 0]), dsra0, cons,
+                                    scn.finance.debt.interest_rate if scn.finance.debt else 0.0) - dsra0)
+    swept_ds = [0.0] + [float(x) for x in sched.debt_service[0]]
+    if res is not None or wfall is not None:
+        sweep = None
+        if wfall is not None and wfall.cash_sweep:
+            owed = [0.0] + [float(o + i - d) for o, i, d in zip(sched.balance_open[0], sched.interest[0],
+                                                                  sched.debt_service[0])]
+            sweep = (pre_line, taxable_line, [0.0] + [float(x) for x in sched.interest[0]], owed, tax_rate)
+        flags = plain_waterfall(cfads, ds_line, works_line, equity[0], res.dsra_months if res else 0.0,
+                                res.maintenance_years if res else 0, res.deposit_rate if res else 0.0,
+                                wfall.lockup_dscr if wfall else 0.0, first_share, sweep)
+        equity = flags.pop("equity")
+        cfads, swept_ds = flags.pop("cfads"), flags.pop("ds")
     rate = get("finance.discount_rate", f.discount_rate)
     real = (1 + rate) / (1 + get("finance.inflation", f.inflation)) - 1
     disc = [(1 + rate) ** -t for t in range(L + 1)]
@@ -205,7 +364,7 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
     out = {"project_npv": npf.npv(rate, project), "project_irr": npf.irr(project),
            "equity_npv": npf.npv(eq_rate, equity), "equity_irr": npf.irr(equity),
            "lcoe_nominal_per_mwh": pv_costs / pv_energy if pv_energy > 0 else nan,
-           "lcoe_real_per_mwh": pv_costs / pv_energy_real if pv_energy_real > 0 else nan}
+           "lcoe_real_per_mwh": pv_costs / pv_energy_real if pv_energy_real > 0 else nan, **flags}
     cum, payback = 0.0, nan
     for t, x in enumerate(equity):
         cum += x
@@ -218,10 +377,10 @@ def reference_trial(scn, case, site, over: dict, speed, efac, downtime, fail_cos
         i_rate = get("finance.debt.interest_rate", f.debt.interest_rate)
         dscr, pv = [], 0.0
         for t in range(1, L + 1):
-            ds = float(sched.debt_service[0, t - 1])
+            ds = swept_ds[t]
             if ds > 0:
                 dscr.append(cfads[t] / ds)
-                pv += cfads[t] * (1 + i_rate) ** -t
+                pv += cfads[t] * (1 + i_rate) ** -(t - 1 + first_share)   # the debt's clock
         out.update(min_dscr=min(dscr), avg_dscr=sum(dscr) / len(dscr), llcr=pv / debt)
     return out
 
@@ -363,7 +522,7 @@ def run_bench(path=DEMO, trials: int = 100_000, loop_sample: int = 500, repeat: 
     looped = {k: np.concatenate([p[k] for p in parts if k in p]) for k in set().union(*parts)}
     worst = 0.0
     for k, v in looped.items():
-        e = mc.samples[k][:m]
+        e = (mc.samples[k] if k in mc.samples else mc.waterfall[k])[:m]
         ok = np.isfinite(v) & np.isfinite(e)
         if np.any(np.isfinite(v) != np.isfinite(e)):
             raise AssertionError(f"bench: loop and engine disagree on which trials have a {k}")

@@ -330,7 +330,8 @@ def _row(a, i):
 def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, energy_factor, price_credit,
                fixed_real, variable, esc_index, lease, decom, shares, tax_rate, capex, interest, debt_service,
                equity0, dc_nominal, dc_real, dc_equity, dc_debt, debt, guess_project, guess_equity, tol,
-               max_iter, x_low, x_high, out):
+               max_iter, x_low, x_high, has_waterfall, dsra_target, mra_target, deposit_rate, lockup_dscr,
+               sweep, balance_close, out):
     """The lean yearly lines and every Monte Carlo metric of each trial, one row at a time.
 
     The same formulas, in the same order of operations, as ``lcoe.finance.cashflow.evaluate``
@@ -338,9 +339,13 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
     other), without (trials, years) arrays in between. Yearly arguments are (1 or n, L)
     over t = 1..L, discount factors (1 or n, L + 1) from t = 0 (nominal, real, equity
     target and debt interest rate), per-trial values (1 or n,).
-    ``out`` (13, n) receives, in this order: LCOE nominal and real, project NPV, equity
+    ``out`` (17, n) receives, in this order: LCOE nominal and real, project NPV, equity
     NPV, project IRR, equity IRR, minimum and average DSCR, LLCR, payback year, year-1
-    and mean net energy, mean O&M (NaN where a metric does not exist).
+    and mean net energy, mean O&M (NaN where a metric does not exist), and from the cash
+    waterfall (``has_waterfall``; :func:`waterfall_one` with the DSRA and MRA targets (1 or n,
+    L + 1), deposit rate and lock-up DSCR (1 or n,)) whether any year was in lock-up, whether
+    the DSRA was drawn, whether any debt service was left unpaid (1.0 / 0.0), and the cash
+    trapped over the life (zeros without a waterfall).
     """
     n = out.shape[1]
     L = ratio.shape[1]
@@ -354,6 +359,11 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
     cfads = np.empty(L + 1)
     dscr = np.empty(L + 1)
     ds_row = np.empty(L + 1)
+    lines = np.zeros((22, L + 1))
+    pre1 = np.zeros(L + 1)
+    tx1 = np.zeros(L + 1)
+    int1 = np.zeros(L + 1)
+    bal1 = np.zeros(L + 1)
     x_project = 1.0 / (1.0 + guess_project)
     x_equity = 1.0 / (1.0 + guess_equity)
     for i in range(n):
@@ -398,7 +408,6 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
         dscr[0] = np.nan
         ds_row[0] = 0.0
         npv_project = -cap * dc_nominal[ni, 0]
-        npv_equity = equity0[e0i] * dc_equity[eqi, 0]
         for t in range(L):
             project[t + 1] = pre[t] - tax_u[t]
             c = pre[t] - tax_l[t]
@@ -408,6 +417,34 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
             dscr[t + 1] = c / d if d > 0 else np.nan
             equity[t + 1] = c - d
             npv_project += project[t + 1] * dc_nominal[ni, t + 1]
+        lock_any = drawn = unpaid = trapped = 0.0
+        if has_waterfall:
+            if sweep:
+                bci = _row(balance_close, i)
+                for t in range(L):
+                    pre1[t + 1] = pre[t]
+                    tx1[t + 1] = taxable_u[t]
+                    int1[t + 1] = interest[ii, t]
+                    bal1[t + 1] = balance_close[bci, t]
+            waterfall_one(cfads, ds_row, dsra_target[_row(dsra_target, i)], mra_target[_row(mra_target, i)],
+                          deposit_rate[_row(deposit_rate, i)], lockup_dscr[_row(lockup_dscr, i)], equity0[e0i],
+                          lines, sweep, pre1, tx1, int1, bal1, tax_rate[tri])
+            if sweep:
+                for t in range(1, L + 1):
+                    cfads[t] = lines[17, t]
+                    ds_row[t] = lines[18, t]
+                    dscr[t] = cfads[t] / ds_row[t] if ds_row[t] > 0 else np.nan
+            for t in range(L + 1):
+                equity[t] = lines[15, t]
+                if lines[14, t] > 0:
+                    lock_any = 1.0
+                if lines[2, t] > 0:
+                    drawn = 1.0
+                if lines[4, t] > 0:
+                    unpaid = 1.0
+                trapped += lines[8, t]
+        npv_equity = equity[0] * dc_equity[eqi, 0]
+        for t in range(L):
             npv_equity += equity[t + 1] * dc_equity[eqi, t + 1]
         cost += cap
         out[0, i] = cost / en_nominal if en_nominal > 0 else np.nan
@@ -420,4 +457,170 @@ def trial_rows(ratio, gross, loss_factor, availability, downtime, degradation, e
         out[10, i] = year1
         out[11, i] = energy_sum / L
         out[12, i] = opex_sum / L
+        out[13, i] = lock_any
+        out[14, i] = drawn
+        out[15, i] = unpaid
+        out[16, i] = trapped
+    return out
+
+
+@njit(cache=True, nogil=True)
+def waterfall_one(cfads, ds, a, b, rate, lock, equity0, lines, sweep, pre, taxable, interest, balance, tax_rate):
+    """The cash waterfall of one row (``lcoe.finance.waterfall``, which documents the order and
+    holds the array version): ``cfads``, ``ds`` and the DSRA and MRA targets ``a``, ``b`` over
+    t = 0..L; ``lines`` (22, L + 1) receives the lines in the order of ``waterfall.LINES``.
+    With ``sweep`` the cash of a locked-up year prepays the debt: the later debt service,
+    interest and balance fall pro rata, and each year's tax (losses carried forward) and CFADS
+    follow from ``pre`` (pre-tax cash), ``taxable`` (before interest) and the interest paid."""
+    L1 = cfads.shape[0]
+    lines[:, :] = 0.0
+    K = 1.0
+    pool = 0.0
+    D = a[0]
+    M = b[0]
+    T = 0.0
+    lines[6, 0] = D
+    lines[7, 0] = M
+    lines[11, 0] = D
+    lines[12, 0] = M
+    lines[15, 0] = equity0 - D - M
+    for t in range(1, L1):
+        c_t = cfads[t]
+        d_t = ds[t]
+        if sweep:
+            d_t = K * ds[t]
+            x = taxable[t] - K * interest[t]
+            tax = 0.0
+            if x <= 0.0:
+                pool -= x
+            elif pool >= x:
+                pool -= x
+            else:
+                tax = tax_rate * (x - pool)
+                pool = 0.0
+            c_t = pre[t] - tax
+            lines[19, t] = K * interest[t]
+            lines[20, t] = tax
+        lines[17, t] = c_t
+        lines[18, t] = d_t
+        inc = rate * (D + M + T)
+        mrel = max(M - b[t], 0.0)
+        M = M - mrel
+        after = c_t + inc + mrel - d_t
+        dd = min(D, max(-after, 0.0))
+        D = D - dd
+        after = after + dd
+        dt = min(T, max(-after, 0.0))
+        T = T - dt
+        after = after + dt
+        u = max(-after, 0.0)
+        after = after + u
+        a_t = K * a[t] if sweep else a[t]
+        rel = max(D - a_t, 0.0)
+        top = min(after, max(a_t - D, 0.0))
+        D = D - rel + top
+        after = after + rel - top
+        mtop = min(after, max(b[t] - M, 0.0))
+        M = M + mtop
+        after = after - mtop
+        locked = lock > 0 and d_t > 0 and c_t / d_t < lock
+        prepaid = 0.0
+        if locked and sweep:
+            owed = K * balance[t]
+            prepaid = min(after, owed)
+            K = K * (1.0 - prepaid / owed) if owed > 0 else K
+            trapped = 0.0
+            released = T
+            dist = after - prepaid + T
+            T = 0.0
+        elif locked:
+            trapped = after
+            released = 0.0
+            dist = 0.0
+            T = T + after
+        else:
+            trapped = 0.0
+            released = T
+            dist = after + T
+            T = 0.0
+        if t == L1 - 1:
+            dist = dist + D + M + T
+            rel = rel + D
+            released = released + T
+            mrel = mrel + M
+            D = 0.0
+            M = 0.0
+            T = 0.0
+        lines[0, t] = inc
+        lines[1, t] = mrel
+        lines[2, t] = dd
+        lines[3, t] = dt
+        lines[4, t] = u
+        lines[5, t] = rel
+        lines[6, t] = top
+        lines[7, t] = mtop
+        lines[8, t] = trapped
+        lines[9, t] = released
+        lines[10, t] = dist
+        lines[11, t] = D
+        lines[12, t] = M
+        lines[13, t] = T
+        lines[14, t] = 1.0 if locked else 0.0
+        lines[15, t] = dist - u
+        lines[16, t] = prepaid
+        if sweep:
+            lines[21, t] = K * balance[t]
+
+
+@njit(cache=True, nogil=True)
+def waterfall_rows(cfads, ds, a, b, rate, lock, equity0, out, sweep, pre, taxable, interest, balance, tax_rate):
+    """:func:`waterfall_one` for each row; ``out`` (22, rows, L + 1); with ``sweep`` the rows'
+    pre-tax cash, taxable income before interest, scheduled interest and closing balance, and
+    tax rate (each (rows, L + 1) or (rows,))."""
+    for i in range(cfads.shape[0]):
+        waterfall_one(cfads[i], ds[i], a[i], b[i], rate[i], lock[i], equity0[i], out[:, i, :], sweep, pre[i],
+                      taxable[i], interest[i], balance[i], tax_rate[i])
+    return out
+
+
+@njit(cache=True, nogil=True)
+def fund_rows(capex, debt, fee, dsra, shares, qrate, cshare, equity_first, tol, max_iter, out):
+    """The equity of each row's construction funding (``lcoe.finance.construction.fund``, which
+    documents it and holds the array version): per-row ``capex``, ``debt``, ``fee``, ``dsra``
+    (1 or n,), the quarters' ``shares`` and interest ``qrate``, the commitment fee per quarter
+    ``cshare`` (1 or n, Q). ``out`` (n,) receives uses - debt."""
+    q = shares.shape[0]
+    for i in range(out.shape[0]):
+        cap = capex[_row(capex, i)]
+        d = debt[_row(debt, i)]
+        f = fee[_row(fee, i)]
+        a = dsra[_row(dsra, i)]
+        ci = _row(cshare, i)
+        idc = 0.0
+        cf = 0.0
+        limit = tol * max(cap, 1.0)
+        for _ in range(max_iter):
+            uses = cap + f + idc + cf + a
+            left = uses - d
+            g = d / uses if uses > 0 else 0.0
+            e0 = min(f, left) if equity_first else f * (1.0 - g)
+            left -= e0
+            bal = f - e0
+            new_idc = 0.0
+            new_cf = 0.0
+            for k in range(q):
+                ik = bal * qrate[k]
+                ck = max(d - bal, 0.0) * cshare[ci, k]
+                use = cap * shares[k] + ik + ck + (a if k == q - 1 else 0.0)
+                e = min(use, max(left, 0.0)) if equity_first else use * (1.0 - g)
+                left -= e
+                bal += use - e
+                new_idc += ik
+                new_cf += ck
+            done = abs(new_idc - idc) <= limit and abs(new_cf - cf) <= limit
+            idc = new_idc
+            cf = new_cf
+            if done:
+                break
+        out[i] = cap + f + idc + cf + a - d
     return out

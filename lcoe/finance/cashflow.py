@@ -11,8 +11,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lcoe.finance import construction as build
 from lcoe.finance import costs
-from lcoe.finance.debt import Schedule, size_debt
+from lcoe.finance import waterfall as wf
+from lcoe.finance.debt import Schedule, size_debt, yearly_targets
 from lcoe.finance.tax import depreciation_shares, tax_with_carryforward
 from lcoe.inputs.schema import DERIVED_DEFAULTS, LOSS_CATEGORIES
 from lcoe.physics import energy as en
@@ -53,6 +55,8 @@ class Flows:
     schedule: Schedule | None = None
     warnings: list = field(default_factory=list)
     read_keys: set = field(default_factory=set)   # the override keys the engine read for these lines
+    waterfall: dict | None = None  # line name -> (n, L + 1), lcoe.finance.waterfall.LINES; None without one
+    funding: object = None         # lcoe.finance.construction.Funding with a [construction] table, else None
 
 
 class Inputs:
@@ -213,6 +217,13 @@ class Terms:
     shares: object            # depreciation share of each year (the depreciation is capex * shares)
     tax_rate: object
     warnings: list
+    ppa_term: object = None   # revenue.ppa_term_years per row (contracted years t <= term)
+    overhaul: object = 0.0    # planned overhauls of each year, year-0 money (in fixed_real too)
+    period_share: object = None   # None, or (L,) the share of each year in operation (a partial year 1)
+
+    def operating_availability(self):
+        """The availability of each year times its share in operation (energy pro rata)."""
+        return self.availability if self.period_share is None else self.availability * self.period_share
 
     def gross_t(self):
         """Gross AEP of each year with the trials' speed factors (without them, the rows'). [MWh/yr]"""
@@ -309,6 +320,9 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     decom = costs.decommissioning_net(inp("capex.decommissioning_per_kw", c.decommissioning_per_kw),
                                       inp("capex.salvage_per_kw", c.salvage_per_kw), plant_kw, esc, L)
 
+    # ---- a construction period ending mid-year: year 1 operates for part of the year
+    share = period_share(scn)
+
     # ---- depreciation and tax
     f = scn.finance
     dep_years = inp("finance.depreciation_years", f.depreciation_years)
@@ -319,11 +333,13 @@ def terms(scn, energy: en.EnergyResult, overrides: dict | None = None, sample: S
     return Terms(inp=inp, years=years, gross=gross, speed_ratio=speed_ratio,
                  speed_gross=speed_gross, loss_factor=lf, availability=avail, downtime=downtime, degradation=degr,
                  energy_factor=None if sample is None else sample.energy_factor, p50=p50, factors=factors,
-                 price=price, credit=credit, capex=capex, fixed_real=costs.fixed_om(fixed, insurance, plant_kw, fail, overhaul),
+                 price=price, credit=credit, capex=capex,
+                 fixed_real=costs.fixed_om(fixed, insurance, plant_kw, fail, overhaul) * (1.0 if share is None else share),
                  variable=inp("maintenance.variable_per_mwh", m.variable_per_mwh),
                  lease=inp("maintenance.land_lease_share_of_revenue", m.land_lease_share_of_revenue),
                  esc_index=esc_index, decom_t=np.where(years == L, decom, 0.0), shares=shares,
-                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[])
+                 tax_rate=inp("finance.tax_rate", f.tax_rate), warnings=[], ppa_term=term,
+                 overhaul=overhaul, period_share=share)
 
 
 def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sample: Sample | None = None,
@@ -343,7 +359,7 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     # the main lines are written straight into (n, L + 1) arrays whose column 0 is t = 0
     energy_line = _line(inp.n, L, 0.0)
     energy_t = energy_line[:, 1:]
-    en.yearly_energy(tm.gross_t(), tm.loss_factor, tm.availability, tm.downtime, tm.degradation,
+    en.yearly_energy(tm.gross_t(), tm.loss_factor, tm.operating_availability(), tm.downtime, tm.degradation,
                      tm.energy_factor, out=energy_t)
     price, credit, decom_t, capex, tax_rate = tm.price, tm.credit, tm.decom_t, tm.capex, tm.tax_rate
     dep = capex * tm.shares
@@ -371,11 +387,14 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         sched = schedule
     else:
         sched = size_debt(operating, energy_t, tm.factors[debt_terms.sizing_case], decom_t, dep, capex, tax_rate,
-                          inp("finance.debt.target_dscr", debt_terms.target_dscr),
+                          yearly_targets(inp("finance.debt.target_dscr", debt_terms.target_dscr),
+                                         None if debt_terms.target_dscr_merchant is None else
+                                         inp("finance.debt.target_dscr_merchant", debt_terms.target_dscr_merchant),
+                                         tm.ppa_term, years),
                           inp("finance.debt.max_gearing", debt_terms.max_gearing),
                           inp("finance.debt.tenor_years", debt_terms.tenor_years),
                           inp("finance.debt.interest_rate", debt_terms.interest_rate),
-                          inp("finance.debt.upfront_fee", debt_terms.upfront_fee), years)
+                          inp("finance.debt.upfront_fee", debt_terms.upfront_fee), years, tm.period_share)
         zero = np.ravel(sched.debt) <= 0
         capped = zero & np.ravel(sched.gearing_bound)   # CFADS would carry debt, but the cap is zero
         if np.any(zero & ~capped):
@@ -389,9 +408,30 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
     ds = sched.debt_service
     dscr_line = _line(inp.n, L, np.nan)
     np.divide(cfads, np.where(ds > 0, ds, np.nan), out=dscr_line[:, 1:])
-    equity0 = -(capex + sched.fee - sched.debt).ravel()
-    equity_line = _line(inp.n, L, equity0)
-    np.subtract(cfads, ds, out=equity_line[:, 1:])
+    structure = wf.structure_of(scn, inp)
+    equity0, funding = equity_before_reserves(scn, inp, capex, sched, structure)
+    lines = None
+    shown = None    # (interest, principal, closing balance) where a cash sweep moved them
+    if structure is None:
+        equity_line = _line(inp.n, L, equity0)
+        np.subtract(cfads, ds, out=equity_line[:, 1:])
+    else:
+        swept = None   # the schedule at close stays the one a locked case meets; the flows show the swept lines
+        if structure.sweep:
+            zero = np.zeros((inp.n, 1))
+            t0 = lambda a: np.hstack([zero, np.broadcast_to(a, (inp.n, L))])  # noqa: E731
+            swept = (t0(pre_tax), t0(pre_tax - dep), t0(sched.interest),
+                     t0(sched.balance_open + sched.interest - sched.debt_service), tax_rate)
+        lines = waterfall_lines(structure, cfads_line, ds, equity0, tm, swept)
+        equity_line = lines["equity_cash_flow"]
+        if swept is not None:          # the sweep moved the debt service, interest, tax and CFADS
+            cfads_line = lines["cfads"]
+            cfads = cfads_line[:, 1:]
+            ds = lines["debt_service"][:, 1:]
+            tax = lines["tax"][:, 1:]
+            dscr_line = _line(inp.n, L, np.nan)
+            np.divide(cfads, np.where(ds > 0, ds, np.nan), out=dscr_line[:, 1:])
+            shown = (lines["interest"][:, 1:], ds - lines["interest"][:, 1:], lines["balance"][:, 1:])
 
     def with_t0(a, t0=0.0, keep=False):
         if lean and not keep:
@@ -404,11 +444,14 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         return out
 
     balance_close = None if lean else sched.balance_open + sched.interest - ds
+    if shown is not None:
+        balance_close = None if lean else shown[2]
     return Flows(
         years=np.arange(0, L + 1), energy_mwh=energy_line, availability=with_t0(tm.availability),
         price_per_mwh=with_t0(price), revenue=with_t0(revenue, keep=True), opex=opex_line,
         capex=with_t0(0.0, capex_row), decommissioning=with_t0(decom_t, keep=True), depreciation=with_t0(dep),
-        interest=with_t0(sched.interest), principal=with_t0(sched.principal),
+        interest=with_t0(sched.interest if shown is None else shown[0]),
+        principal=with_t0(sched.principal if shown is None else shown[1]),
         balance=with_t0(balance_close, sched.debt.ravel()), tax=with_t0(tax), tax_unlevered=with_t0(tax_u),
         cfads=cfads_line, debt_service=with_t0(ds, keep=True), dscr=dscr_line,
         project_cash_flow=project_line, equity_cash_flow=equity_line,
@@ -416,7 +459,59 @@ def evaluate(scn, energy: en.EnergyResult, *, overrides: dict | None = None, sam
         fee=np.asarray(sched.fee).reshape(-1, 1), gross_aep_mwh=np.broadcast_to(tm.gross, (inp.n, 1)),
         net_aep_p50_mwh=np.broadcast_to(tm.p50, (inp.n, 1)),
         case_factors={k: np.broadcast_to(v, (inp.n, 1)) for k, v in tm.factors.items()},
-        schedule=sched, warnings=warnings, read_keys=set(inp.read))
+        schedule=sched, warnings=warnings, read_keys=set(inp.read), waterfall=lines, funding=funding)
+
+
+def period_share(scn):
+    """None, or the share of each operating year in operation: year 1 starts at COD (financial
+    close + the construction months) and ends on 31 December (lcoe.finance.construction)."""
+    c = scn.construction
+    if c is None:
+        return None
+    share = np.ones(scn.lifetime)
+    share[0] = build.operating_share(build.add_months(c.financial_close, c.months))
+    return None if share[0] == 1.0 else share
+
+
+def equity_before_reserves(scn, inp: Inputs, capex, sched: Schedule, structure, lines: bool = True):
+    """(the equity contribution at t = 0 before the reserves' first funding, per row (negative);
+    the construction funding or None). Without ``[construction]``: -(capex + upfront fee - debt);
+    with it, IDC and the commitment fee are uses too (lcoe.finance.construction.fund; with
+    ``lines=False`` only the equity, by the compiled row loop, and no funding lines)."""
+    plain = -(capex + sched.fee - sched.debt).ravel()
+    c = scn.construction
+    if c is None:
+        return plain, None
+    d = scn.finance.debt
+    rate = sched.interest_rate if sched.interest_rate is not None else (d.interest_rate if d is not None else 0.0)
+    dsra0 = 0.0
+    if structure is not None:
+        dsra0 = wf.dsra_targets(np.asarray(sched.debt_service, float), structure.dsra_months,
+                                period_share(scn))[:, 0]
+    args = (capex, sched.debt, sched.fee, dsra0, build.drawdown_shares(c.drawdown, c.months),
+            build.quarters(c.months), float(np.asarray(rate, float).ravel()[0]),
+            inp("construction.commitment_fee", c.commitment_fee), c.funding)
+    if not lines:
+        return -(build.equity_rows(*args) - dsra0), None
+    funding = build.fund(*args)
+    return -(funding.equity - funding.dsra), funding
+
+
+def waterfall_targets(structure, debt_service, tm: Terms):
+    """(debt service over t = 0..L, DSRA targets, MRA targets) of a batch: the DSRA from the
+    debt service (1 or n, L), the MRA from the nominal cost of each year's overhauls."""
+    ds = np.asarray(debt_service, float)
+    ds_line = np.concatenate([np.zeros((ds.shape[0], 1)), ds], axis=1)
+    oh = np.atleast_2d(np.asarray(tm.overhaul, float) * tm.esc_index)   # nominal cost of each year's overhauls
+    return (ds_line, wf.dsra_targets(ds, structure.dsra_months, tm.period_share),
+            wf.mra_targets(oh, structure.mra_years))
+
+
+def waterfall_lines(structure, cfads_line, debt_service, equity0, tm: Terms, sweep=None) -> dict:
+    """The waterfall of a batch (lcoe.finance.waterfall); ``cfads_line`` (n, L + 1); ``sweep``
+    the lines a cash sweep needs (see :func:`lcoe.finance.waterfall.run_rows`)."""
+    ds_line, a, b = waterfall_targets(structure, debt_service, tm)
+    return wf.run_rows(cfads_line, ds_line, equity0, a, b, structure.deposit_rate, structure.lockup_dscr, sweep)
 
 
 def _line(rows: int, years: int, t0) -> np.ndarray:

@@ -13,9 +13,10 @@ from lcoe.finance import _kernels  # compiled loops; tests set it to None to run
 IRR_LOW, IRR_HIGH = -0.99, 10.0
 
 
-def discount_factors(rate, periods: int):
-    """(1 + r)^-t for t = 0..periods-1; ``rate`` may be an (n, 1) array. [-]"""
-    return (1.0 + np.asarray(rate, float)) ** -np.arange(periods)
+def discount_factors(rate, periods: int, times=None):
+    """(1 + r)^-t for t = 0..periods-1; ``rate`` may be an (n, 1) array; ``times`` (periods,)
+    replaces t by the time elapsed in years (a partial first year). [-]"""
+    return (1.0 + np.asarray(rate, float)) ** -(np.arange(periods) if times is None else np.asarray(times, float))
 
 
 def npv(rate, values):
@@ -180,11 +181,12 @@ def dscr_stats(dscr):
     return mn, avg
 
 
-def llcr(cfads, debt_service, debt, rate):
-    """Loan-life coverage ratio: PV at the interest rate of CFADS over the tenor, over the debt."""
+def llcr(cfads, debt_service, debt, rate, times=None):
+    """Loan-life coverage ratio: PV at the interest rate of CFADS over the tenor, over the debt
+    (``times``: see :func:`discount_factors`; the debt's own clock where year 1 is partial)."""
     T = np.shape(cfads)[-1]
     on = np.asarray(debt_service) > 0
-    pv = (np.where(on, cfads, 0.0) * discount_factors(rate, T)).sum(axis=-1)
+    pv = (np.where(on, cfads, 0.0) * discount_factors(rate, T, times)).sum(axis=-1)
     d = np.ravel(debt)
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(d > 0, pv / np.where(d > 0, d, 1.0), np.nan)
@@ -198,15 +200,15 @@ def payback_year(cash_flow):
     return np.where(nonneg.any(axis=-1), first, np.nan)
 
 
-def coverage(dscr, cfads, debt_service, debt, rate, equity_cash_flow):
+def coverage(dscr, cfads, debt_service, debt, rate, equity_cash_flow, times=None):
     """(min DSCR, average DSCR, LLCR, payback year) per row, as :func:`dscr_stats`,
     :func:`llcr` and :func:`payback_year` define them (one compiled pass where available)."""
     n = np.shape(cfads)[0]
     if _kernels is not None:
-        disc = np.atleast_2d(discount_factors(rate, np.shape(cfads)[-1]))
+        disc = np.atleast_2d(discount_factors(rate, np.shape(cfads)[-1], times))
         debt_rows = np.ascontiguousarray(np.broadcast_to(np.asarray(debt, float).reshape(-1, 1), (n, 1))[:, 0])
         return _kernels.coverage_rows(np.ascontiguousarray(dscr, dtype=float), np.ascontiguousarray(cfads, dtype=float),
                                       np.ascontiguousarray(debt_service, dtype=float), debt_rows,
                                       np.ascontiguousarray(disc), np.ascontiguousarray(equity_cash_flow, dtype=float))
     mn, avg = dscr_stats(dscr)
-    return mn, avg, llcr(cfads, debt_service, debt, rate), payback_year(equity_cash_flow)
+    return mn, avg, llcr(cfads, debt_service, debt, rate, times), payback_year(equity_cash_flow)

@@ -24,6 +24,8 @@ from lcoe.inputs.schema import DERIVED_DEFAULTS, SCHEMA_VERSION, ScenarioFields
 WIDTH = 100
 #: the one entry of [variants.NAME]: a dotted key of the file
 VARIANT_KEY = "variants.NAME"
+#: the one entry of [lender_cases.NAME]: a dotted key of the file (beside label and energy_case)
+LENDER_KEY = "lender_cases.NAME"
 
 #: each section: (dotted name, how it is written, what it holds)
 SECTIONS: dict[str, tuple[str, str]] = {
@@ -50,6 +52,11 @@ SECTIONS: dict[str, tuple[str, str]] = {
     "finance": ("table", "Rates, tax and depreciation."),
     "finance.debt": ("optional table", "Sculpted project debt, sized on the sizing case; leave the table out for "
                                        "an all-equity project."),
+    "construction": ("optional table", "The construction period from financial close to commercial operation: "
+                                       "the capex drawdown, its funding, interest during construction and fees."),
+    "reserves": ("optional table", "Reserve accounts funded through the cash waterfall: debt service and "
+                                   "maintenance reserves."),
+    "waterfall": ("optional table", "The lock-up test of the cash waterfall, and an optional cash sweep."),
     "uncertainty": ("table", "Energy uncertainty, for P90/P99 and the Monte Carlo: relative standard deviations."),
     "uncertainty.speed": ("array of tables", "Uncertainty terms on the long-term mean wind speed."),
     "uncertainty.energy": ("array of tables", "Uncertainty terms on the net energy."),
@@ -59,6 +66,9 @@ SECTIONS: dict[str, tuple[str, str]] = {
     "montecarlo.correlation": ("optional array of tables", "Rank correlation between two drawn inputs."),
     "variants": ("optional tables, one per variant", "Named sets of changed inputs, compared side by side with "
                                                      "the base: [variants.NAME] holds \"dotted.key\" = value."),
+    "lender_cases": ("optional tables, one per case", "Downside cases of your own, run with the debt locked at "
+                                                      "the base sizing beside the default set: [lender_cases.NAME] "
+                                                      "holds label, energy_case and \"dotted.key\" = value."),
 }
 
 # The unit and the words about each key, in the order the file gives them. The schema gives the rest.
@@ -165,6 +175,21 @@ ABOUT: dict[str, tuple[str, str]] = {
     "finance.debt.tenor_years": ("years", "Years of debt service, within the life."),
     "finance.debt.interest_rate": ("fraction per year", "Interest on the debt."),
     "finance.debt.upfront_fee": ("fraction", "Fee as a share of the debt, paid at t = 0."),
+    "finance.debt.target_dscr_merchant": ("x", "Target DSCR in the merchant years of the tenor (after "
+                                               "revenue.ppa_term_years); target_dscr applies in the PPA years."),
+    "construction.financial_close": ("date", "Financial close, written as a TOML date without quotes."),
+    "construction.months": ("months", "Months from financial close to commercial operation; operating years "
+                                      "then run to 31 December, the first one pro rata."),
+    "construction.drawdown": ("-", "How the capex is spent over the quarters: evenly, on an S-curve, or as an "
+                                   "array of one share per quarter adding up to 1."),
+    "construction.funding": ("-", "Equity spent first, then debt; or every use funded pro rata at the gearing."),
+    "construction.commitment_fee": ("fraction per year", "Fee on the debt not yet drawn, capitalised."),
+    "reserves.dsra_months": ("months", "Debt service reserve: months of the next year's debt service (0: none)."),
+    "reserves.maintenance_years": ("years", "Maintenance reserve built up over the years before each overhaul "
+                                            "(0: none)."),
+    "reserves.deposit_rate": ("fraction per year", "Interest earned on reserve and lock-up balances."),
+    "waterfall.lockup_dscr": ("x", "No distributions in a year whose DSCR is below this; the cash is trapped."),
+    "waterfall.cash_sweep": ("-", "true: the cash of a locked-up year prepays the debt instead of waiting."),
     "uncertainty.interannual_speed_sd": ("fraction", "Relative sd of one year's mean wind speed."),
     "uncertainty.speed.name": ("text", "The term's name (measurement, long-term correlation, ...)."),
     "uncertainty.speed.sd": ("fraction", "Relative sd of the long-term mean speed."),
@@ -187,6 +212,10 @@ ABOUT: dict[str, tuple[str, str]] = {
     "variants.NAME": ("unit of the key", "Any input of the file, by its dotted key; an item of an array of "
                                          "tables by its name, as \"maintenance.component.gearbox.failure_rate_per_"
                                          "turbine_year\" = 0.012."),
+    "lender_cases.NAME": ("unit of the key", "Any input but the debt terms, the life, the construction period "
+                                             "and the Monte Carlo, by its dotted key; label = \"text\" names the "
+                                             "case and energy_case = \"p90_1yr\" (or p50, p90_10yr, p99_1yr) "
+                                             "scales its energy by P_case / P50."),
 }
 
 # The default of a key that the schema leaves unset (None): what the program then uses.
@@ -216,6 +245,7 @@ UNSET: dict[str, str] = {
     "montecarlo.vary.low": "optional",
     "montecarlo.vary.mode": "the scenario's value",
     "montecarlo.vary.high": "optional",
+    "finance.debt.target_dscr_merchant": "target_dscr (one target in every year)",
 }
 
 # The invented values of the template, as TOML text; keys not here are written commented out, at their
@@ -267,13 +297,19 @@ EXAMPLE: dict[str, str] = {
     "montecarlo.correlation.between": '["capex.turbine_per_kw", "maintenance.fixed_per_kw_year"]',
     "montecarlo.correlation.rho": "0.4",
     "variants.NAME": '"project.lifetime_years" = 30',
+    "finance.debt.target_dscr_merchant": "1.40",
+    "construction.financial_close": "2027-01-01", "construction.months": "18",
+    "reserves.dsra_months": "6.0", "reserves.maintenance_years": "3", "reserves.deposit_rate": "0.02",
+    "waterfall.lockup_dscr": "1.10",
+    "lender_cases.NAME": '"maintenance.fixed_per_kw_year" = 45.6',
 }
 OFF = {"wind.weibull_scale_mps", "wind.timeseries", "wind.roughness_length_m", "wind.mean_temperature_c",
        "wind.air_density_kgm3", "wind.sectors", "wind.rose", "wind.long_term", "layout",
        "turbine.cp_max", "turbine.cut_in_mps", "turbine.cut_out_mps", "turbine.drivetrain_efficiency",
-       "montecarlo.vary", "montecarlo.correlation", "montecarlo.vary.mean", "montecarlo.vary.sd"}
+       "montecarlo.vary", "montecarlo.correlation", "montecarlo.vary.mean", "montecarlo.vary.sd",
+       "construction", "reserves", "waterfall", "lender_cases", "finance.debt.target_dscr_merchant"}
 #: how the template names the items of its tables of tables
-TABLE_NAMES = {"montecarlo.vary": '"capex.turbine_per_kw"', "variants": "longer_life"}
+TABLE_NAMES = {"montecarlo.vary": '"capex.turbine_per_kw"', "variants": "longer_life", "lender_cases": "heavy_om"}
 
 
 @dataclass(frozen=True)
@@ -289,7 +325,7 @@ class Entry:
 
     @property
     def name(self) -> str:
-        return '"dotted.key"' if self.key == VARIANT_KEY else self.key.rsplit(".", 1)[-1]
+        return '"dotted.key"' if self.key in (VARIANT_KEY, LENDER_KEY) else self.key.rsplit(".", 1)[-1]
 
     def lines(self) -> list[str]:
         """The entry in words: the key, unit, kind, range and default, then what it is; wrapped."""
@@ -312,6 +348,10 @@ def _kind(key: str, ann) -> str:
     if choices:
         return "one of " + " | ".join(choices)
     text = str(ann)
+    if ann is bool:
+        return "true or false"
+    if "datetime.date" in text:
+        return "date"
     if key == "wind.rose.frequency" or text.startswith("list[typing.Annotated[float"):
         return "array of numbers, one per sector (4 to 72)"
     if text.startswith("list[str"):
@@ -382,7 +422,7 @@ def entries() -> dict[str, list[Entry]]:
             key = f"{section}.{name}" if section else name
             if _inner_model(info.annotation) is not None:
                 continue
-            if key == "variants":
+            if key in ("variants", "lender_cases"):
                 continue
             unit, about = ABOUT[key]
             kind = _kind(key, info.annotation)
@@ -390,6 +430,8 @@ def entries() -> dict[str, list[Entry]]:
         out[section] = rows
     unit, about = ABOUT[VARIANT_KEY]
     out["variants"] = [Entry(VARIANT_KEY, "any value the key takes", unit, "", "optional", about)]
+    unit, about = ABOUT[LENDER_KEY]
+    out["lender_cases"] = [Entry(LENDER_KEY, "any value the key takes", unit, "", "optional", about)]
     return out
 
 
@@ -399,8 +441,8 @@ def _header(section: str) -> str:
         return f"[[{section}]]"
     if section == "montecarlo.vary":
         return '[montecarlo.vary."KEY"]'
-    if section == "variants":
-        return "[variants.NAME]"
+    if section in ("variants", "lender_cases"):
+        return f"[{section}.NAME]"
     return f"[{section}]"
 
 
@@ -486,7 +528,7 @@ def _template_section(section: str, rows: list[Entry], off: bool, curve_name: st
         if value is None:
             value = _default_toml(e.key)
         value = value.replace("{curve}", curve_name)
-        text = value if e.key == VARIANT_KEY else f"{e.name} = {value}"
+        text = value if e.key in (VARIANT_KEY, LENDER_KEY) else f"{e.name} = {value}"
         lines += [("# " if commented else "") + text, ""]
     return lines
 

@@ -114,6 +114,8 @@ _MESSAGES = {
     "bool_type": "must be true or false",
     "missing": "is required",
     "dict_type": "must be a table",
+    "date_type": "must be a date written without quotes, such as 2027-03-31",
+    "date_parsing": "must be a date written without quotes, such as 2027-03-31",
     "model_type": "must be a table",
     "model_attributes_type": "must be a table",
     "list_type": "must be an array",
@@ -218,6 +220,10 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
         if isinstance(variants, dict) and len(variants) > MAX_VARIANTS:
             raise ScenarioError(f"{len(variants)} variants; a scenario compares at most {MAX_VARIANTS}",
                                 key="variants", has_value=False)
+        cases = raw.get("lender_cases")
+        if isinstance(cases, dict) and len(cases) > MAX_VARIANTS:
+            raise ScenarioError(f"{len(cases)} lender cases; a scenario runs at most {MAX_VARIANTS}",
+                                key="lender_cases", has_value=False)
         version = raw.get("schema_version")
         if version is None:
             raise ScenarioError(f"is required (this program reads version {SCHEMA_VERSION})", key="schema_version",
@@ -241,26 +247,59 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
                 if why:
                     raise ScenarioError(why, key=f"montecarlo.vary.{name}", has_value=False)
             for name, overrides in scn.variants.items():
-                if not isinstance(overrides, dict):
-                    raise ScenarioError("must be a table of dotted keys and values", key=f"variants.{name}",
-                                        has_value=False)
-                for key, value in overrides.items():
-                    if key.split(".")[0] in ("variants", "schema_version"):
-                        raise ScenarioError("a variant cannot change this key", key=f"variants.{name}.{key}",
-                                            value=value)
-                    _check_variant_key(scn, name, key, value)
-                try:
-                    scn.with_overrides(overrides, label=f"variants.{name}")
-                except ScenarioError as exc:
-                    raise _variant_error(exc, scn, name, overrides) from None
+                _check_override_table(scn, "variants", name, overrides)
+            for name, table in scn.lender_cases.items():
+                _check_lender_case(scn, name, table)
         return scn
     except ScenarioError as exc:
         raise exc.with_file(source)
 
 
-def _check_variant_key(scn: Scenario, name: str, key: str, value: Any) -> None:
+def _check_override_table(scn: Scenario, section: str, name: str, overrides: Any,
+                          refused: tuple = ("variants", "lender_cases", "schema_version"), why: str = "") -> None:
+    """A table of dotted keys and values (a variant, a lender case): each key names a scenario
+    value, none of ``refused`` (top-level sections or dotted prefixes), and the scenario with
+    them applied is valid."""
+    if not isinstance(overrides, dict):
+        raise ScenarioError("must be a table of dotted keys and values", key=f"{section}.{name}", has_value=False)
+    for key, value in overrides.items():
+        if key.split(".")[0] in refused or any(key.startswith(p + ".") for p in refused if "." in p):
+            raise ScenarioError(f"a {section.rstrip('s').replace('_', ' ')} cannot change this key{why}",
+                                key=f"{section}.{name}.{key}", value=value)
+        _check_variant_key(scn, name, key, value, section)
+    try:
+        scn.with_overrides(overrides, label=f"{section}.{name}")
+    except ScenarioError as exc:
+        raise _variant_error(exc, scn, name, overrides, section) from None
+
+
+LENDER_CASE_FIELDS = ("label", "energy_case")   # a lender case's own keys beside its dotted overrides
+
+
+def _check_lender_case(scn: Scenario, name: str, table: Any) -> None:
+    """A ``[lender_cases.NAME]`` table: an optional ``label`` (text) and ``energy_case`` (one of the
+    P-cases, whose factor P_case / P50 scales every year's energy), then dotted overrides like a
+    variant's; the debt terms and the life are locked at close, so a case cannot change them."""
+    label = f"lender_cases.{name}"
+    if not isinstance(table, dict):
+        raise ScenarioError("must be a table of dotted keys and values", key=label, has_value=False)
+    text = table.get("label")
+    if text is not None and (not isinstance(text, str) or not text.strip() or len(text) > 200):
+        raise ScenarioError("must be text of 1 to 200 characters", key=f"{label}.label", value=text)
+    case = table.get("energy_case")
+    if case is not None and case not in SIZING_CASES:
+        raise ScenarioError(f"must be one of {', '.join(SIZING_CASES)}", key=f"{label}.energy_case", value=case)
+    overrides = {k: v for k, v in table.items() if k not in LENDER_CASE_FIELDS}
+    _check_override_table(scn, "lender_cases", name, overrides,
+                          refused=("variants", "lender_cases", "schema_version", "montecarlo", "project",
+                                   "finance.debt", "construction"),
+                          why=" (the debt, the life and the construction period are fixed at close; a lender "
+                              "case runs against them)")
+
+
+def _check_variant_key(scn: Scenario, name: str, key: str, value: Any, section: str = "variants") -> None:
     """A variant's dotted key must name a scenario value: a section field, or a field of a named list item."""
-    label = f"variants.{name}.{key}"
+    label = f"{section}.{name}.{key}"
     parts = key.split(".")
     if any(not p for p in parts):
         raise ScenarioError("must be a dotted key such as 'project.lifetime_years'", key=label, value=value)
@@ -313,10 +352,11 @@ def _named_key(raw: dict, key: str) -> str:
     return ".".join(out)
 
 
-def _variant_error(exc: ScenarioError, scn: Scenario, name: str, overrides: dict) -> ScenarioError:
+def _variant_error(exc: ScenarioError, scn: Scenario, name: str, overrides: dict,
+                   section: str = "variants") -> ScenarioError:
     """Re-key an error met while applying a variant: under the variant's own key when it set that
     value, else under ``variants.NAME`` with the scenario key it broke in the message."""
-    if not exc.key or exc.key.startswith("variants."):
+    if not exc.key or exc.key.startswith(f"{section}."):
         return exc
     raw = scn.raw
     for k, v in overrides.items():
@@ -326,9 +366,10 @@ def _variant_error(exc: ScenarioError, scn: Scenario, name: str, overrides: dict
             pass
     key = _named_key(raw, exc.key)
     if key in overrides or exc.key in overrides:
-        return ScenarioError(exc.message, key=f"variants.{name}.{key}", value=exc.value, has_value=exc.has_value)
+        return ScenarioError(exc.message, key=f"{section}.{name}.{key}", value=exc.value, has_value=exc.has_value)
     inner = f"{key} = {_show(exc.value)}" if exc.has_value else key
-    return ScenarioError(f"with this variant, {inner}: {exc.message}", key=f"variants.{name}", has_value=False)
+    what = "variant" if section == "variants" else "lender case"
+    return ScenarioError(f"with this {what}, {inner}: {exc.message}", key=f"{section}.{name}", has_value=False)
 
 
 _CONTROL = re.compile(r"[\x00-\x1f\x7f]")

@@ -8,6 +8,7 @@ fractions are 0..1.
 
 from __future__ import annotations
 
+import datetime as dt
 from typing import Annotated, Any, Literal, get_args
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
@@ -310,6 +311,8 @@ class Revenue(_Model):
 class Debt(_Model):
     sizing_case: Literal["p50", "p90_1yr", "p90_10yr", "p99_1yr"] = "p90_1yr"
     target_dscr: Annotated[float, Field(ge=1.0, le=5.0)] = 1.30
+    # the target in the merchant years (after revenue.ppa_term_years); omitted: target_dscr in every year
+    target_dscr_merchant: Annotated[float, Field(ge=1.0, le=5.0)] | None = None
     max_gearing: Annotated[float, Field(ge=0.0, le=1.0)] = 0.75
     tenor_years: Annotated[int, Field(ge=1, le=60)]
     interest_rate: Annotated[float, Field(ge=0.0, le=0.5)]
@@ -329,6 +332,41 @@ class Finance(_Model):
 
 DEPRECIATION_METHODS = get_args(Finance.model_fields["depreciation"].annotation)
 SIZING_CASES = get_args(Debt.model_fields["sizing_case"].annotation)
+
+
+class Construction(_Model):
+    """The construction period from financial close to commercial operation (lcoe.finance.construction)."""
+    financial_close: dt.date
+    months: Annotated[int, Field(ge=1, le=60)]
+    drawdown: Literal["even", "s_curve"] | Annotated[list[Annotated[float, Field(ge=0.0, le=1.0)]],
+                                                     Field(min_length=1, max_length=20)] = "s_curve"
+    funding: Literal["equity_first", "pro_rata"] = "equity_first"
+    commitment_fee: Annotated[float, Field(ge=0.0, le=0.1)] = 0.0   # a year, on undrawn debt
+
+    @model_validator(mode="after")
+    def _shares(self) -> "Construction":
+        if isinstance(self.drawdown, list):
+            q = -(-self.months // 3)
+            if len(self.drawdown) != q:
+                raise _Cross("drawdown", self.drawdown, f"needs one share for each of the {q} quarter(s) of "
+                                                        f"{self.months} months")
+            if abs(sum(self.drawdown) - 1.0) > 1e-9:
+                raise _Cross("drawdown", self.drawdown, f"shares must add up to 1 (they add up to "
+                                                        f"{sum(self.drawdown):.6g})")
+        return self
+
+
+class Reserves(_Model):
+    """Reserve accounts funded through the cash waterfall (lcoe.finance.waterfall)."""
+    dsra_months: Annotated[float, Field(ge=0.0, le=24.0)] = 6.0       # of the next year's debt service
+    maintenance_years: Annotated[int, Field(ge=0, le=20)] = 0          # MRA build-up before each overhaul
+    deposit_rate: Annotated[float, Field(ge=0.0, le=0.5)] = 0.0        # earned on reserve balances
+
+
+class Waterfall(_Model):
+    """The lock-up test of the cash waterfall."""
+    lockup_dscr: Annotated[float, Field(ge=1.0, le=5.0)] = 1.10        # no distributions below this DSCR
+    cash_sweep: bool = False      # in a locked-up year the cash left prepays the debt instead of waiting
 
 
 class SpeedTerm(_Model):
@@ -425,9 +463,13 @@ class ScenarioFields(_Model):
     capex: Capex
     revenue: Revenue
     finance: Finance
+    construction: Construction | None = None
+    reserves: Reserves | None = None
+    waterfall: Waterfall | None = None
     uncertainty: Uncertainty = Uncertainty()
     montecarlo: MonteCarlo = MonteCarlo()
     variants: dict[str, dict[str, Any]] = {}
+    lender_cases: dict[str, dict[str, Any]] = {}   # [lender_cases.NAME]: label, energy_case, dotted overrides
 
     # Derived conventions, kept here so every module reads them the same way.
     @property
@@ -468,6 +510,16 @@ class ScenarioFields(_Model):
     @property
     def plant_kw(self) -> float:
         return self.turbine.rated_power_kw * self.project.turbines
+
+    def lender_structure(self) -> list[str]:
+        """The lender-structure keys this scenario sets (the merchant target DSCR, the
+        construction period, reserve accounts, the cash waterfall): outputs that do not show
+        them yet refuse the scenario rather than show numbers without them."""
+        out = []
+        if self.finance.debt is not None and self.finance.debt.target_dscr_merchant is not None:
+            out.append("finance.debt.target_dscr_merchant")
+        out += [name for name in ("construction", "reserves", "waterfall") if getattr(self, name) is not None]
+        return out
 
     def warnings(self) -> list[str]:
         """Non-fatal remarks about the assumptions (shown with every report)."""

@@ -4,6 +4,7 @@ writing scenario data back as TOML.
 
 from __future__ import annotations
 
+import datetime as _dt
 import hashlib
 import re
 import tomllib
@@ -192,6 +193,8 @@ def to_toml(raw: dict) -> str:
             return '"' + "".join(_toml_char(ch) for ch in v) + '"'
         if isinstance(v, list):
             return "[" + ", ".join(fmt(x) for x in v) + "]"
+        if isinstance(v, _dt.date) and not isinstance(v, _dt.datetime):
+            return v.isoformat()            # a TOML local date (construction.financial_close)
         raise TypeError(type(v))
 
     def qkey(k: str) -> str:

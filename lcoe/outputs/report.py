@@ -11,7 +11,6 @@ import math
 import textwrap
 
 from lcoe.analysis.study import Report
-from lcoe.engine import ANNUAL_KEYS
 from lcoe.inputs.about import CAUTION
 from lcoe.outputs.files import write_csv
 from lcoe.outputs.tables import col, render, wrap
@@ -24,7 +23,8 @@ def to_json(report: Report) -> str:
 def write_annual_csv(report: Report, path):
     """The yearly table of the base case as CSV (``lcoe run --csv``), written atomically."""
     rows = report.case.annual()
-    return write_csv(path, list(ANNUAL_KEYS), [[r[k] for k in ANNUAL_KEYS] for r in rows])
+    keys = report.case.annual_keys()
+    return write_csv(path, list(keys), [[r[k] for k in keys] for r in rows])
 
 
 # --------------------------------------------------------------------------- table output
@@ -155,12 +155,23 @@ def to_table(report: Report, *, yearly: bool = True, width: int | None = WIDTH, 
     lines.append(f"  {'Capex total [' + cur + ' M]':<{w}} {fmt(costs['capex_total'], 'm'):>14}")
     lines.append(f"  {'O&M, year 1 [' + cur + ' M]':<{w}} {fmt(costs['opex_year1'], 'm'):>14}")
     lines.append(f"  {'Decommissioning net, year L [' + cur + ' M]':<{w}} {fmt(costs['decommissioning_net'], 'm'):>14}")
+    if "sources_and_uses" in d:
+        lines.append("")
+        lines.extend(sources_uses_table(d["sources_and_uses"], cur, tw))
     if "montecarlo" in d:
         lines.append("")
         lines.extend(montecarlo_table(d["montecarlo"], cur, tw))
+    if "lender_cases" in d:
+        lines.append("")
+        lines.extend(lender_table(d["lender_cases"], cur, tw))
     if yearly:
         lines.append("")
         lines.extend(annual_table(d["annual"], cur, tw))
+        if "distributions" in d["annual"][0]:
+            lines.append("")
+            lines.extend(annual_table(d["annual"], cur, tw, WATERFALL_COLUMNS,
+                                      f"Cash waterfall ({cur} k, nominal; balances at the end of each year; "
+                                      "nothing is paid out in a locked-up year)"))
     if d["variants"]:
         lines.append("")
         lines.extend(variants_table(d, cur, tw))
@@ -282,27 +293,38 @@ ANNUAL_COLUMNS = [("year", "Year", "{:d}"), ("energy_mwh", "Energy [MWh]", "{:,.
                   ("equity_cash_flow", "Equity CF [{cur} k]", "k")]
 
 
+WATERFALL_COLUMNS = [("year", "Year", "{:d}"), ("cfads", "CFADS", "k"), ("debt_service", "Debt svc", "k"),
+                     ("dsra_draw", "DSRA use", "k"), ("dsra_balance", "DSRA", "k"), ("mra_balance", "MRA", "k"),
+                     ("lockup", "Lock-up", "yes"), ("lockup_balance", "Trapped", "k"),
+                     ("prepayment", "Prepaid", "k"), ("unpaid_debt_service", "Unpaid", "k"),
+                     ("distributions", "Paid out", "k")]
+
+
 def _head_lines(head: str) -> tuple[str, ...]:
     """A column head on two lines, the unit under the name: ``O&M [EUR k]`` -> ("O&M", "[EUR k]")."""
     name, bracket, unit = head.partition(" [")
     return (name, "[" + unit) if bracket else ("", name)
 
 
-def annual_table(rows, cur, width: int | None = WIDTH) -> list[str]:
-    """The yearly cash flow; the year labels every block of columns."""
-    cols = [col(*_head_lines(h.format(cur=cur)), min_width=4 if k == "year" else 8) for k, h, _ in ANNUAL_COLUMNS]
+def annual_table(rows, cur, width: int | None = WIDTH, columns=None,
+                 title: str = "Yearly cash flow (t = 0 is construction; nominal money)") -> list[str]:
+    """The yearly cash flow (or the yearly ``columns`` given); the year labels every block of columns."""
+    columns = ANNUAL_COLUMNS if columns is None else columns
+    cols = [col(*(_head_lines(h.format(cur=cur)) if " [" in h else (h,)), min_width=4 if k == "year" else 8)
+            for k, h, _ in columns]
     cells = []
     for r in rows:
         line = []
-        for k, _, how in ANNUAL_COLUMNS:
+        for k, _, how in columns:
             v = r[k]
-            if how == "k":
+            if how == "yes":
+                line.append("yes" if v else "-")
+            elif how == "k":
                 line.append("n/a" if v is None else f"{v / 1e3:,.0f}")
             else:
                 line.append("-" if v is None else how.format(v))
         cells.append(line)
-    return [*wrap("Yearly cash flow (t = 0 is construction; nominal money)", width),
-            *render(cols, cells, width=width, gap=1)]
+    return [*wrap(title, width), *render(cols, cells, width=width, gap=1)]
 
 
 def variants_table(d, cur, width: int | None = WIDTH) -> list[str]:
@@ -333,6 +355,52 @@ def _signed(diff, how):
     return s if s.startswith("-") else "+" + s
 
 
+USES_LABELS = {"capex": "Capex", "upfront_fee": "Upfront debt fee", "interest_during_construction":
+               "Interest during construction", "commitment_fee": "Commitment fee",
+               "dsra_initial": "Debt service reserve, first funding", "total": "Total uses"}
+
+
+def sources_uses_table(su: dict, cur: str, width: int | None = WIDTH) -> list[str]:
+    """Uses and sources side by side, with the gearing, the check and the construction dates."""
+    uses = [(USES_LABELS[k], v) for k, v in su["uses"].items()]
+    sources = [("Senior debt", su["sources"]["debt"]), ("Equity", su["sources"]["equity"]),
+               ("Total sources", su["sources"]["total"])]
+    title = f"Sources and uses of funds [{cur} M]"
+    if "commercial_operation" in su:
+        title += (f" (close {su['financial_close']}, operation {su['commercial_operation']}, "
+                  f"{su['construction_months']} months, {su['drawdown'].replace('_', '-')} drawdown, "
+                  f"{su['funding'].replace('_', ' ')})")
+    cols = [col("Uses", align="<"), col("", min_width=8), col("Sources", align="<"), col("", min_width=8)]
+    rows = []
+    for i in range(max(len(uses), len(sources))):
+        left = [uses[i][0], fmt(uses[i][1], "m")] if i < len(uses) else ["", ""]
+        right = [sources[i][0], fmt(sources[i][1], "m")] if i < len(sources) else ["", ""]
+        rows.append(left + right)
+    check = "balanced" if su["balanced"] else "NOT BALANCED"
+    return [*wrap(title, width), *render(cols, rows, width=width, gap=3),
+            f"  gearing (debt / uses) {fmt(su['gearing'], 'pct')} %; sources = uses: {check}"]
+
+
+LENDER_COLUMNS = [("min_dscr", "Min DSCR", "{:.3f}"), ("avg_dscr", "Avg DSCR", "{:.3f}"), ("llcr", "LLCR", "{:.3f}"),
+                  ("years_in_lockup", "Lock-up", "{:d}"), ("dsra_draws", "DSRA drawn", "k"),
+                  ("unpaid_debt_service", "Unpaid DS", "k"), ("equity_irr", "Equity IRR", "pct")]
+
+
+def lender_table(cases: dict, cur: str, width: int | None = WIDTH) -> list[str]:
+    """One line per lender case, the debt locked at the base sizing (money in thousands); the
+    case labels every block of columns."""
+    cols = [col("Case", align="<")] + [col(h, min_width=8) for _, h, _ in LENDER_COLUMNS]
+    rows = []
+    for r in cases.values():
+        label = r["label"] if len(r["label"]) <= 28 else r["label"][:25] + "..."
+        rows.append([label] + ["n/a" if r[k] is None else (f"{r[k] / 1e3:,.0f}" if how == "k" else fmt(r[k], how))
+                               for k, _, how in LENDER_COLUMNS])
+    return [*wrap("Lender cases (debt and debt service locked at the base sizing)", width),
+            *wrap(f"lock-up in years; DSRA drawn and unpaid debt service over the life in {cur} thousands; "
+                  "IRR in %", width, indent="  "),
+            *render(cols, rows, width=width, gap=1)]
+
+
 MC_LABELS = {
     "net_aep_year1_mwh": ("Net energy, year 1", "MWh", "{:,.0f}"),
     "net_aep_mean_mwh": ("Net energy, life mean", "MWh/yr", "{:,.0f}"),
@@ -357,9 +425,15 @@ def montecarlo_table(mc: dict, cur: str, width: int | None = WIDTH) -> list[str]
         rows.append([label] + [fmt(stats[s], how) for s in MC_STATS])
     for k, label in (("prob_min_dscr_below_1", "P(minimum DSCR < 1.0) [%]"),
                      ("prob_min_dscr_below_target", "P(minimum DSCR < target) [%]"),
-                     ("prob_equity_irr_below_target", "P(equity IRR < target) [%]")):
+                     ("prob_equity_irr_below_target", "P(equity IRR < target) [%]"),
+                     ("prob_lockup_any_year", "P(lock-up in any year) [%]"),
+                     ("prob_dsra_drawn", "P(DSRA drawn) [%]"),
+                     ("prob_debt_service_unpaid", "P(debt service unpaid) [%]")):
         if k in mc:
             rows.append([label, fmt(mc[k], "pct")] + [""] * (len(MC_STATS) - 1))
+    if "expected_cash_trapped" in mc:
+        rows.append([f"Expected cash trapped [{cur} M]", fmt(mc["expected_cash_trapped"], "m")]
+                    + [""] * (len(MC_STATS) - 1))
     return [*wrap(f"Monte Carlo ({mc['trials']:,} trials, seed {mc['seed']}; P90 = the conservative side)",
                   width),
             *render(cols, rows, width=width, gap=1)]

@@ -11,6 +11,7 @@ from openpyxl.utils import get_column_letter
 
 from lcoe.engine import METRIC_KEYS
 from lcoe.inputs.about import CAUTION, __version__
+from lcoe.inputs.errors import ScenarioError
 from lcoe.outputs.files import write_atomic
 from lcoe.outputs.workbook.cells import (
     BOLD,
@@ -294,6 +295,13 @@ def _write_notes(book: Book, report, sens_note: str | None):
 
 # --------------------------------------------------------------------------- the workbook
 
+def _value_at(scn, dotted: str):
+    node = scn
+    for part in dotted.split("."):
+        node = getattr(node, part)
+    return node if isinstance(node, (int, float, str, bool)) else None   # a table: named, not shown
+
+
 def build(report) -> Workbook:
     """The lender workbook of a report (an :class:`openpyxl.Workbook`, not yet saved).
 
@@ -302,6 +310,12 @@ def build(report) -> Workbook:
     """
     case = report.case
     scn = case.scenario
+    unshown = scn.lender_structure()
+    if unshown:
+        value = _value_at(scn, unshown[0])
+        raise ScenarioError("the workbook does not yet show this part of the lender structure; write it "
+                            "without it (the engine and `lcoe run` include it)", key=unshown[0], value=value,
+                            has_value=value is not None)
     book = Book(scn.project.currency)
     summary = book.sheet(SUMMARY)
     write_inputs(book, report)
