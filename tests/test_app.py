@@ -1007,3 +1007,26 @@ def test_the_cash_tab_shows_sources_and_uses_and_the_lender_cases():
     assert table.loc["P99 1-yr energy", "Min DSCR"] == rp.fmt(ref["P99 1-yr energy"]["min_dscr"], "{:.3f}")
     (su,) = [d.value for d in at.dataframe if "Uses" in d.value.columns]
     assert su.iloc[0, 0] == "Capex" and "Senior debt" in list(su["Sources"])
+
+
+def test_the_lender_cases_have_their_dscr_by_year_with_the_debt_locked():
+    """The chart's points are the engine's yearly DSCR of each lender case (lcoe.analysis.lender)."""
+    import json
+
+    from lcoe.analysis import lender
+    at = start(view="Cash flow and debt")
+    assert not at.exception and not at.error
+    results = lender.lender_cases(sc.load(DEMO))
+    pa = pytest.importorskip("pyarrow")
+    (chart,) = [c for c in at.get("vega_lite_chart") if "DSCR [x]" in c.proto.spec and '"case"' in c.proto.spec]
+    frames = [pa.ipc.open_stream(d.data.data).read_all().to_pandas() for d in chart.proto.datasets]
+    if chart.proto.data.data:
+        frames.append(pa.ipc.open_stream(chart.proto.data.data).read_all().to_pandas())
+    (data,) = [f for f in frames if {"case", "year", "value"} <= set(f.columns)]
+    points = {(c, int(y)): v for c, y, v in zip(data["case"], data["year"], data["value"])}
+    assert json.loads(chart.proto.spec)["encoding"]["y"]["title"] == "DSCR [x]"
+    for r in results:
+        d = r.flows.dscr.reshape(-1)
+        for t in range(1, d.size):
+            if np.isfinite(d[t]):
+                assert points[(r.case.label, t)] == pytest.approx(float(d[t]), rel=1e-12)

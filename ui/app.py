@@ -525,10 +525,17 @@ def tab_cash(scn, case, cur) -> None:
 
 
 @st.cache_data(max_entries=16, show_spinner=False)
-def lender_rows(text: str, base_dir: str, source: str) -> list:
-    """The lender cases of the current inputs, debt locked at the base sizing (lcoe.analysis.lender)."""
+def lender_rows(text: str, base_dir: str, source: str) -> tuple[list, pd.DataFrame]:
+    """The lender cases of the current inputs, debt locked at the base sizing (lcoe.analysis.lender):
+    their figures, and each case's DSCR by year (t = 1..L, years with debt service)."""
     case = case_of(text, base_dir, source)
-    return [r.to_dict() for r in lender.lender_cases(case.scenario, case)]
+    results = lender.lender_cases(case.scenario, case)
+    years = []
+    for r in results:
+        d = np.asarray(r.flows.dscr, float).reshape(-1)
+        years += [{"year": t, "case": r.case.label, "value": float(d[t])} for t in range(1, d.size)
+                  if np.isfinite(d[t])]
+    return [r.to_dict() for r in results], pd.DataFrame(years, columns=["year", "case", "value"])
 
 
 def lender_panel(case, text, base_dir, source, cur) -> None:
@@ -549,13 +556,18 @@ def lender_panel(case, text, base_dir, source, cur) -> None:
     if case.scenario.finance.debt is None:
         return
     st.markdown("**Lender cases (debt and debt service locked at the base sizing)**")
-    rows = lender_rows(text, base_dir, source)
+    rows, dscr = lender_rows(text, base_dir, source)
     table = [{"Case": r["label"], **{h: ("n/a" if r[k] is None else f"{r[k] / 1e3:,.0f}" if how == "k"
                                          else rp.fmt(r[k], how)) for k, h, how in rp.LENDER_COLUMNS}}
              for r in rows]
     st.dataframe(pd.DataFrame(table), hide_index=True, key="lender_cases")
     st.caption(f"Lock-up in years; DSRA drawn and unpaid debt service over the life in {cur} thousands; "
                "equity IRR in %.")
+    if not dscr.empty:
+        st.markdown("**DSCR by year in each lender case (the debt locked)**")
+        charts.draw(charts.cases_by_year, data=dscr, ytitle="DSCR [x]", order=[r["label"] for r in rows])
+        st.caption(f"Each case meets the debt service sized at close on the base case; target "
+                   f"{case.scenario.finance.debt.target_dscr:.2f}x, and below 1.00x the year's cash does not cover it.")
 
 
 def _extension_default(scn) -> tuple[int, float]:

@@ -193,7 +193,9 @@ def speed_histogram(bins: pd.DataFrame, pdf: pd.DataFrame | None = None) -> alt.
 
 
 def cases_by_year(data: pd.DataFrame, ytitle: str, order: list, bars: bool = False) -> alt.Chart:
-    """data: year, case (a name of ``order``), value. "current" is drawn solid blue, the pinned cases dashed."""
+    """data: year, case (a name of ``order``), value. "current" is drawn solid blue, the pinned cases dashed.
+    The chart grows with the cases so that their legend below it fits."""
+    height = 340 + 18 * max(0, len(order) - 3)
     palette = ["#a5a5a5", AMBER, GREEN, "#6a3d9a", RED, "#17becf", "#8c564b"]
     colors = [BLUE if n == "current" else palette[i % len(palette)] for i, n in enumerate(order)]
     enc = {"x": alt.X("year:O", title="Operating year"),
@@ -203,7 +205,7 @@ def cases_by_year(data: pd.DataFrame, ytitle: str, order: list, bars: bool = Fal
            "tooltip": ["year", "case", alt.Tooltip("value:Q", format=",.3f")]}
     if bars:
         enc["xOffset"] = alt.XOffset("case:N", sort=order)
-        return alt.Chart(data).mark_bar().encode(**enc).properties(height=340)
+        return alt.Chart(data).mark_bar().encode(**enc).properties(height=height)
     enc["strokeDash"] = alt.StrokeDash("case:N", legend=None, scale=alt.Scale(
         domain=order, range=[[1, 0] if n == "current" else [6, 3] for n in order]))
-    return alt.Chart(data).mark_line(point=True).encode(**enc).properties(height=340)
+    return alt.Chart(data).mark_line(point=True).encode(**enc).properties(height=height)
