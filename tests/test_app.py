@@ -594,7 +594,7 @@ def test_an_out_of_range_value_keeps_the_page_and_speaks_in_the_fields_unit():
     assert [e.value for e in at.sidebar.error] == ["Availability, later years 150 %: at most 100 %"]
     assert shown_headline(at) == good                        # the last valid inputs, not the file's
     assert any("Stale" in w.value for w in at.warning)
-    assert len(at.get("vega_lite_chart")) == 2               # the open tab's charts are still drawn
+    assert len(at.get("vega_lite_chart")) == 3               # the open tab's charts are still drawn
     texts = " ".join(e.value for e in list(at.error) + list(at.warning))
     assert str(ROOT) not in texts and "operations.availability_mature" not in texts
     type_in(at, "operations.availability_mature", "96").run()
