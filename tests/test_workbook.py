@@ -21,6 +21,7 @@ import os
 import subprocess
 import tempfile
 from pathlib import Path
+from dataclasses import replace
 from types import SimpleNamespace
 
 import numpy as np
@@ -84,6 +85,13 @@ def rel_diff(sheet, engine):
     return float(np.max(np.abs(s[ok] - e[ok]) / den))
 
 
+def life(values, L):
+    """The first L + 1 values of a yearly row that runs to the horizon; every later one is zero or blank."""
+    rest = as_array(values[L + 1:])
+    assert np.all(np.isnan(rest) | (rest == 0)), rest
+    return values[:L + 1]
+
+
 def metric_matches(sheet_value, engine_value):
     if engine_value is None:
         return sheet_value == "n/a"
@@ -144,21 +152,32 @@ def books(tmp_path_factory):
         workbook.write(rep, path)
         cases[name] = SimpleNamespace(scn=scn, report=rep, case=rep.case, src=path)
 
-    # liveness: change the PPA price and the degradation on Inputs; the debt at close is the engine's
-    # converged value, so the test types in the one the engine converges to for the changed inputs
+    # liveness: change the PPA price and the degradation on Inputs; "live" re-sizes the debt in the
+    # sheet (debt mode resized), "held" keeps the debt locked at close
     changed = demo.with_overrides(LIVE_CHANGES)
-    live_case = model.run(changed, breakeven=False)
-    for name, update_debt in (("live", True), ("held", False)):
+    base = cases["demo"].case
+    for name, mode in (("live", "resized"), ("held", "locked")):
         wb = openpyxl.load_workbook(cases["demo"].src)
         set_named(wb, "ppa_price_per_mwh", LIVE_CHANGES["revenue.ppa_price_per_mwh"])
         set_named(wb, "degradation_per_year", LIVE_CHANGES["operations.degradation_per_year"])
-        if update_debt:
-            set_named(wb, "debt_at_close", live_case.metrics["debt_amount"])
-            set_named(wb, "debt_service_scale",
-                      debt_service_scale(live_case.schedule, changed.finance.debt.target_dscr))
+        set_named(wb, "debt_mode", mode)
         path = src / f"{name}.xlsx"
         wb.save(path)
-        cases[name] = SimpleNamespace(scn=changed, report=None, case=live_case, src=path)
+        engine_case = model.run(changed, breakeven=False, debt=None if mode == "resized" else base)
+        cases[name] = SimpleNamespace(scn=changed, report=None, case=engine_case, src=path)
+    # the base in the resized mode: the backward roll reproduces the engine's sizing
+    wb = openpyxl.load_workbook(cases["demo"].src)
+    set_named(wb, "debt_mode", "resized")
+    wb.save(src / "resized.xlsx")
+    cases["resized"] = SimpleNamespace(scn=demo, report=None, case=base, src=src / "resized.xlsx")
+    # all equity: typed debt terms are ignored and a check fails
+    wb = openpyxl.load_workbook(cases["equity"].src)
+    set_named(wb, "tenor_years", 15)
+    set_named(wb, "interest_rate", 0.06)
+    set_named(wb, "max_gearing", 0.7)
+    wb.save(src / "equity_typed.xlsx")
+    cases["equity_typed"] = SimpleNamespace(scn=cases["equity"].scn, report=None, case=cases["equity"].case,
+                                            src=src / "equity_typed.xlsx")
 
     recalculate([c.src for c in cases.values()], out, root / "lo-profile")
     for name, c in cases.items():
@@ -187,7 +206,7 @@ def test_every_yearly_row_equals_the_engine(books, name):
     """Reference engine: LibreOffice. Each yearly cash-flow line (t = 0..L) equals the engine's to 1e-9."""
     c = books[name]
     for key in ANNUAL:
-        assert rel_diff(named(c.values, f"annual_{key}"), getattr(c.case.flows, key)[0]) <= REL, key
+        assert rel_diff(life(named(c.values, f"annual_{key}"), c.scn.lifetime), getattr(c.case.flows, key)[0]) <= REL, key
 
 
 @pytest.mark.parametrize("name", BASE_CASES)
@@ -207,7 +226,7 @@ def test_debt_schedule_equals_the_engine(books, name):
         rows["sizing_cfads"] = np.concatenate([zero, s.sizing_cfads[0]])
         rows["sizing_energy_mwh"] = f.energy_mwh[0] * factor
     for key, engine_row in rows.items():
-        assert rel_diff(named(c.values, key), engine_row) <= REL, key
+        assert rel_diff(life(named(c.values, key), c.scn.lifetime), engine_row) <= REL, key
 
 
 @pytest.mark.parametrize("name", BASE_CASES)
@@ -248,32 +267,42 @@ def test_gearing_cap_binds_in_the_capped_case(books):
 
 # --------------------------------------------------------------------------- liveness
 
-def test_changed_inputs_recompute_every_metric(books):
-    """Reference engine: LibreOffice. With the PPA price and the degradation changed on Inputs (and the debt at
-    close set to the engine's converged value for those inputs), every metric and yearly row equals the engine
-    run with the same changes (Scenario.with_overrides). The break-even price is an engine goal seek, held."""
-    c = books["live"]
-    assert c.case.metrics["debt_amount"] != books["demo"].case.metrics["debt_amount"]
+@pytest.mark.parametrize("name", ["live", "held", "resized"])
+def test_changed_inputs_recompute_every_metric(books, name):
+    """Reference engine: LibreOffice. With the PPA price and the degradation changed on Inputs, every metric and
+    yearly row equals the engine run with the same changes (Scenario.with_overrides): in the resized mode the
+    engine's re-sized run, in the locked mode its run with the debt of the base case (engine.run(debt=base)).
+    "resized" is the base case in the resized mode. The break-even price is an engine goal seek: shown only while
+    no input is changed."""
+    c = books[name]
     for key in model.METRIC_KEYS:
-        if key == "breakeven_ppa_price_per_mwh":
-            continue
         got = named(c.values, key)
+        if key == "breakeven_ppa_price_per_mwh":
+            if name != "resized":
+                assert got == workbook.book.STALE
+            continue
         assert metric_matches(got, c.case.metrics[key]), (key, got, c.case.metrics[key])
-        assert got != named(books["demo"].values, key) or key == "payback_year", key
     for key in ANNUAL:
-        assert rel_diff(named(c.values, f"annual_{key}"), getattr(c.case.flows, key)[0]) <= REL, key
+        assert rel_diff(life(named(c.values, f"annual_{key}"), c.scn.lifetime), getattr(c.case.flows, key)[0]) \
+            <= REL, key
     assert named(c.values, "checks_ok") == 1
+    if name == "held":
+        assert named(c.values, "debt_amount") == named(books["demo"].values, "debt_amount")
+        assert named(c.values, "debt_headroom") != 0
+    if name == "live":
+        assert named(c.values, "debt_amount") != named(books["demo"].values, "debt_amount")
 
 
-def test_a_held_debt_that_no_longer_fits_is_flagged(books):
-    """Inputs changed, debt not re-converged: revenue still follows the inputs, and the live check of the
-    present value of debt service against the debt fails."""
-    c = books["held"]
-    assert rel_diff(named(c.values, "annual_revenue"), c.case.flows.revenue[0]) <= REL
-    assert named(c.values, "checks_ok") == 0
+def test_all_equity_refuses_typed_debt_terms(books):
+    """All equity: a tenor, rate and gearing typed on Inputs charge no debt service, and a named check fails."""
+    c = books["equity_typed"]
+    assert all(v == 0 for v in as_array(named(c.values, "annual_debt_service")))
     sheet = c.values["Checks"]
     results = {sheet.cell(r, 1).value: sheet.cell(r, 2).value for r in range(5, sheet.max_row + 1)}
-    assert results["Present value of debt service at the interest rate equals the debt"] == 0
+    assert results["All-equity scenario: no debt term typed"] == 0
+    assert named(c.values, "checks_ok") == 0
+    assert named(c.values, "equity_irr") == workbook.book.FAILED
+    assert named(c.values, "lcoe_nominal_per_mwh") == pytest.approx(c.case.metrics["lcoe_nominal_per_mwh"], rel=REL)
 
 
 def test_the_layout_workbook_shows_the_rose_the_wakes_and_the_long_term(books):
@@ -300,7 +329,7 @@ def test_the_layout_workbook_shows_the_rose_the_wakes_and_the_long_term(books):
 
 # --------------------------------------------------------------------------- integrity
 
-@pytest.mark.parametrize("name", list(BASE_CASES) + ["live"])
+@pytest.mark.parametrize("name", list(BASE_CASES) + ["live", "held", "resized"])
 def test_no_error_values_after_recalculation(books, name):
     """LibreOffice writes a circular reference or any failed formula as an error value (#VALUE!, ...)."""
     bad = []
@@ -367,14 +396,14 @@ def test_no_circular_reference(books, name):
 def test_yearly_rows_are_formulas(books, name):
     """Every filled cell of the yearly columns on Energy, Cash flow and Debt is a formula."""
     wb = books[name].formulas
-    L = books[name].scn.lifetime
-    for title in ("Energy", "Cash flow", "Debt"):
+    L = workbook.book.horizon_of(books[name].scn)
+    for title in ("Energy", "Cash flow", "Debt", "Lender cases"):
         ws = wb[title]
         lines = 0
         for r in range(workbook.FIRST_ROW, ws.max_row + 1):
             label = ws.cell(r, 1).value
-            if label is None or ws.cell(r, workbook.T0_COL + L).value is None:
-                continue  # section heads and single values
+            if label is None or ws.cell(r, workbook.T0_COL + L).value is None or not ws.cell(r, 2).value:
+                continue  # section heads, single values and the tables below the yearly lines
             lines += 1
             for col in range(workbook.T0_COL, workbook.T0_COL + L + 1):
                 assert ws.cell(r, col).data_type == "f", f"{title}!{ws.cell(r, col).coordinate}"
@@ -464,9 +493,19 @@ def test_sensitivity_sheet_holds_the_tornado_and_the_sweep(books):
     c = books["demo"]
     ws = c.formulas["Sensitivity"]
     rows = sens.tornado(c.scn, metric="lcoe_nominal_per_mwh")
-    keys = [ws.cell(r, 1).value for r in range(6, 6 + len(rows))]
+    keys = [ws.cell(r, 11).value for r in range(6, 6 + len(rows))]
     assert keys == [r["key"] for r in rows]
+    labels = [ws.cell(r, 1).value for r in range(6, 6 + len(rows))]
+    assert all("." not in lab.split(" [")[0] for lab in labels), labels     # plain words, not keys
     assert ws.cell(6, 7).value == pytest.approx(rows[0]["swing"], rel=ENGINE_DIGITS)
+    # equity IRR and minimum DSCR of the same runs: each equals the tornado run on that metric
+    for col, metric in ((12, "equity_irr"), (14, "min_dscr")):
+        other = {r["key"]: r for r in sens.tornado(c.scn, metric=metric)}
+        for i, key in enumerate(keys):
+            for j, end in enumerate(("metric_at_low", "metric_at_high")):
+                want = other[key][end]
+                got = ws.cell(6 + i, col + j).value
+                assert (got == "n/a") if want is None else got == pytest.approx(want, rel=ENGINE_DIGITS), (key, metric)
     head = next(r for r in range(1, ws.max_row + 1) if str(ws.cell(r, 1).value).startswith("Wind-speed sweep"))
     factors = [ws.cell(r, 1).value for r in range(head + 2, head + 15)]
     assert factors == pytest.approx([0.7 + 0.05 * i for i in range(13)])
@@ -480,9 +519,10 @@ def test_sensitivity_sheet_holds_the_tornado_and_the_sweep(books):
 
 def test_presentation(books):
     wb = books["demo"].formulas
-    assert wb.sheetnames == ["Summary", "Inputs", "Energy", "Cash flow", "Debt", "Monte Carlo", "Sensitivity",
-                             "Checks", "Notes"]
-    L = books["demo"].scn.lifetime
+    assert wb.sheetnames == ["Cover", "Summary", "Inputs", "Energy", "Cash flow", "Debt", "Lender cases",
+                             "Monte Carlo", "Sensitivity", "Checks", "Notes"]
+    L = workbook.book.horizon_of(books["demo"].scn)
+    assert L == 40
     for title in ("Energy", "Cash flow", "Debt"):
         ws = wb[title]
         assert ws.freeze_panes == "C5"
@@ -549,3 +589,258 @@ def test_cli_reports_a_missing_folder_in_one_line(tmp_path, capsys):
     assert err.count("\n") == 1
     assert err.startswith("error: --workbook = ") and "folder does not exist" in err
     assert not (tmp_path / "no").exists()
+
+
+# --------------------------------------------------------------------------- the lender's flex table
+
+def _overhaul_row(wb, name, year, cost):
+    """Fill the first empty row of the overhaul table on Inputs."""
+    sheet, ref = next(iter(wb.defined_names["overhaul_year"].destinations))
+    ws = wb[sheet]
+    c0, r0, c1, r1 = range_boundaries(ref.replace("$", ""))
+    for r in range(r0, r1 + 1):
+        if ws.cell(r, c0).value is None:
+            ws.cell(r, c0 - 1).value = name
+            ws.cell(r, c0).value = year
+            ws.cell(r, c0 + 1).value = cost
+            return
+    raise AssertionError("no empty overhaul row")
+
+
+def _first_of(wb, range_name, value):
+    sheet, ref = next(iter(wb.defined_names[range_name].destinations))
+    c0, r0, _, _ = range_boundaries(ref.replace("$", ""))
+    wb[sheet].cell(r0, c0).value = value
+
+
+#: name -> (workbook edit, engine overrides or the variant it equals)
+FLEXES = {
+    "interest 6.5 %": (lambda wb: set_named(wb, "interest_rate", 0.065), {"finance.debt.interest_rate": 0.065}),
+    "tenor 14": (lambda wb: set_named(wb, "tenor_years", 14), {"finance.debt.tenor_years": 14}),
+    "target DSCR 1.40": (lambda wb: set_named(wb, "target_dscr", 1.40), {"finance.debt.target_dscr": 1.40}),
+    "PPA price +10 %": (lambda wb: set_named(wb, "ppa_price_per_mwh", 74.8), {"revenue.ppa_price_per_mwh": 74.8}),
+    "sizing case P50": (lambda wb: set_named(wb, "sizing_case", "p50"), {"finance.debt.sizing_case": "p50"}),
+    "turbines 16": (lambda wb: set_named(wb, "turbines", 16), {"project.turbines": 16}),
+    "availability 95 %": (lambda wb: set_named(wb, "availability_mature", 0.95),
+                          {"operations.availability_mature": 0.95}),
+    "fixed O&M 40": (lambda wb: set_named(wb, "fixed_per_kw_year", 40.0), {"maintenance.fixed_per_kw_year": 40.0}),
+    "tax rate 30 %": (lambda wb: set_named(wb, "tax_rate", 0.30), {"finance.tax_rate": 0.30}),
+    "degradation 0.6 %": (lambda wb: set_named(wb, "degradation_per_year", 0.006),
+                          {"operations.degradation_per_year": 0.006}),
+    "gearbox failures 0.04": (lambda wb: _first_of(wb, "comp_rate", 0.04),
+                              {"maintenance.component.gearbox.failure_rate_per_turbine_year": 0.04}),
+    "life 20": (lambda wb: set_named(wb, "lifetime_years", 20), "life_20"),
+    "life 30": (lambda wb: (set_named(wb, "lifetime_years", 30), set_named(wb, "fixed_per_kw_year", 40.0),
+                            _overhaul_row(wb, "life extension", 25, 450000.0)), "life_30_extension"),
+    "rated power 4500 kW": (lambda wb: set_named(wb, "rated_power_kw", 4500.0), None),
+}
+
+
+def _locked_to(schedule, years):
+    """The base schedule for another life: cut or padded with zero years (the tenor ends before either)."""
+    L = schedule.debt_service.shape[1]
+
+    def fit(a):
+        a = np.asarray(a)
+        return a[:, :years] if years <= L else np.hstack([a, np.zeros((a.shape[0], years - L))])
+    assert not np.any(schedule.debt_service[0, min(years, L):])
+    return replace(schedule, debt_service=fit(schedule.debt_service), interest=fit(schedule.interest),
+                   principal=fit(schedule.principal), balance_open=fit(schedule.balance_open),
+                   sizing_cfads=fit(schedule.sizing_cfads))
+
+
+@pytest.fixture(scope="module")
+def flexes(books, tmp_path_factory):
+    root = tmp_path_factory.mktemp("flex")
+    src, out = root / "src", root / "out"
+    src.mkdir()
+    out.mkdir()
+    demo = books["demo"]
+    base = demo.case
+    runs = {}
+    for i, (label, (edit, engine)) in enumerate(FLEXES.items()):
+        if engine is None:
+            scn = None
+        elif isinstance(engine, str):
+            scn = demo.scn.variant(engine)
+        else:
+            scn = demo.scn.with_overrides(engine)
+        for mode in ("locked", "resized"):
+            wb = openpyxl.load_workbook(demo.src)
+            edit(wb)
+            set_named(wb, "debt_mode", mode)
+            path = src / f"flex{i}_{mode}.xlsx"
+            wb.save(path)
+            want = None
+            if scn is not None:
+                if mode == "resized":
+                    want = model.run(scn, breakeven=False)
+                else:
+                    debt = base if scn.lifetime == base.scenario.lifetime else _locked_to(base.schedule, scn.lifetime)
+                    want = model.run(scn, breakeven=False, debt=debt)
+            runs[(label, mode)] = SimpleNamespace(src=path, case=want, scn=scn)
+    recalculate([r.src for r in runs.values()], out, root / "lo-profile")
+    for r in runs.values():
+        r.values = openpyxl.load_workbook(out / r.src.name, data_only=True)
+    return runs
+
+
+def _failed_checks(values):
+    ws = values["Checks"]
+    return [ws.cell(r, 1).value for r in range(5, ws.max_row + 1)
+            if ws.cell(r, 2).value == 0 and ws.cell(r, 5).value in ("all", "debt")]
+
+
+SHOWN = [k for k in model.METRIC_KEYS if k != "breakeven_ppa_price_per_mwh"]
+
+
+@pytest.mark.parametrize("mode", ["locked", "resized"])
+@pytest.mark.parametrize("label", list(FLEXES))
+def test_flex_table(flexes, label, mode):
+    """Reference engine: LibreOffice. A lender's flex typed on Inputs: in the locked mode every check passes and
+    each metric equals the engine's run with the same change and the debt of the base case (engine.run(debt=base));
+    in the resized mode it equals the engine's re-sized run, or a named check fails and the metrics it concerns
+    read "check failed". Life 20 and life 30 are the scenario's variants life_20 and life_30_extension. The rated
+    power is locked (the power curve is the engine's): the locked-input check fails and every metric is blanked."""
+    r = flexes[(label, mode)]
+    failed = _failed_checks(r.values)
+    if r.case is None:
+        assert failed == ["Locked inputs are as exported (rated power, wind and turbine, layout, debt table)"]
+        assert all(named(r.values, k) == workbook.book.FAILED for k in SHOWN)
+        ws = r.values["Summary"]
+        shown = {ws.cell(row, 4).value: ws.cell(row, 2).value for row in range(11, ws.max_row + 1)}
+        for nm in ("net_capacity_factor", "capex_total", "debt_capacity", "gross_aep_mwh"):
+            assert shown[nm] == workbook.book.FAILED, nm     # the energy and cost block is blanked too
+        return
+    if mode == "locked" or not failed:
+        assert failed == [], failed
+        for key in SHOWN:
+            got = named(r.values, key)
+            assert metric_matches(got, r.case.metrics[key]), (key, got, r.case.metrics[key])
+        L = r.scn.lifetime
+        for key in ANNUAL:
+            assert rel_diff(life(named(r.values, f"annual_{key}"), L), getattr(r.case.flows, key)[0]) <= REL, key
+    else:
+        assert all(f.startswith("Resized:") for f in failed), failed
+        for key in SHOWN:
+            if key not in workbook.book.PROJECT_METRICS:
+                assert named(r.values, key) == workbook.book.FAILED, key
+    assert named(r.values, "breakeven_ppa_price_per_mwh") == (workbook.book.FAILED if failed else workbook.book.STALE)
+
+
+def test_flex_table_resizes_exactly(flexes):
+    """Every flex but the locked rated power re-sizes exactly in the sheet (no named check needed for the demo)."""
+    inexact = [label for label in FLEXES if FLEXES[label][1] is not None and _failed_checks(flexes[(label, "resized")].values)]
+    assert inexact == []
+
+
+# --------------------------------------------------------------------------- print and cover
+
+def test_print_setup(books):
+    """Read back with openpyxl: A4 landscape for a EUR scenario, the year row and label columns as print titles on
+    the yearly sheets, no sheet scaled below 8 pt (the default font is 11 pt: scale >= 73 %, never fit-to-page),
+    a header with the project name and a footer with the page x of y."""
+    wb = books["demo"].formulas
+    for ws in wb.worksheets:
+        ps = ws.page_setup
+        assert ps.orientation == "landscape", ws.title
+        assert int(ps.paperSize) == int(ws.PAPERSIZE_A4), ws.title
+        assert not ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
+        assert int(ps.scale) * 11 / 100 >= 8.0, ws.title
+        assert "page &P of &N" in ws.oddFooter.right.text
+        assert "Tallowmere Ridge" in ws.oddHeader.center.text
+    for title in ("Energy", "Cash flow", "Debt", "Lender cases"):
+        ws = wb[title]
+        assert ws.print_title_rows.replace("$", "") == "3:4" and ws.print_title_cols.replace("$", "") == "A:B", title
+    notes = wb["Notes"]
+    for r in range(1, notes.max_row + 1):
+        text = notes.cell(r, 1).value
+        if text and len(text) > 150:
+            assert notes.row_dimensions[r].height >= 30, r
+
+
+def test_cover_sheet(books):
+    c = books["demo"]
+    ws = c.formulas["Cover"]
+    col_b = {ws.cell(r, 1).value: ws.cell(r, 2).value for r in range(1, ws.max_row + 1)}
+    import hashlib
+    assert col_b["Scenario SHA-256"] == hashlib.sha256(Path(c.scn.source).read_bytes()).hexdigest()
+    assert col_b["Scenario file"] == Path(c.scn.source).name
+    assert ws["A2"].value == CAUTION
+    links = {ws.cell(r, 1).value: ws.cell(r, 1).hyperlink for r in range(1, ws.max_row + 1) if ws.cell(r, 1).hyperlink}
+    assert set(links) == set(c.formulas.sheetnames) - {"Cover"}
+    assert "user_notes" in c.formulas.defined_names
+
+
+def test_lender_cases_equal_the_engine_with_the_debt_locked(books):
+    """Reference engine: LibreOffice. Each lender case equals the engine's run of the same change with the debt of
+    the base case: P-cases as an energy factor (Sample.energy_factor), O&M +10 % on every O&M cost term, availability
+    -2 points on the first-year and mature availability, price -10 % on the PPA and merchant prices."""
+    from lcoe.finance.cashflow import Sample
+    c = books["demo"]
+    scn, base = c.scn, c.case
+    m, r = scn.maintenance, scn.revenue
+    om = {"maintenance.fixed_per_kw_year": 1.1 * m.fixed_per_kw_year,
+          "maintenance.insurance_per_kw_year": 1.1 * m.insurance_per_kw_year,
+          "maintenance.variable_per_mwh": 1.1 * m.variable_per_mwh}
+    om.update({f"maintenance.component.{x.name}.replacement_cost": 1.1 * x.replacement_cost for x in m.component})
+    om.update({f"maintenance.overhaul.{x.name}.cost_per_turbine": 1.1 * x.cost_per_turbine for x in m.overhaul})
+    av = {"operations.availability_first_year": scn.availability_first_year - 0.02,
+          "operations.availability_mature": scn.operations.availability_mature - 0.02}
+    pr = {"revenue.ppa_price_per_mwh": 0.9 * r.ppa_price_per_mwh,
+          "revenue.merchant_price_per_mwh": 0.9 * scn.merchant_price_per_mwh}
+    f = base.flows.case_factors
+    cases = [({}, 1.0), ({}, f["p90_1yr"][0, 0]), ({}, f["p99_1yr"][0, 0]), ({}, f["p90_10yr"][0, 0]), (om, 1.0),
+             (av, 1.0), (pr, 1.0), ({**om, **av, **pr}, f["p90_1yr"][0, 0])]
+    for i, (over, factor) in enumerate(cases):
+        over = {k: np.array([v]) for k, v in over.items()}
+        flows, met, _ = model.evaluate(scn, overrides=over or None, schedule=base.schedule,
+                                       sample=Sample(energy_factor=np.array([[factor]])))
+        cover = model.cover_of(flows, met)
+        for key in ("min_dscr", "avg_dscr", "llcr"):
+            assert math.isclose(named(c.values, f"lender_case_{i}_{key}"), cover[key], rel_tol=REL), (i, key)
+        assert math.isclose(named(c.values, f"lender_case_{i}_equity_irr"), float(met["equity_irr"][0]), rel_tol=REL)
+        assert named(c.values, f"lender_case_{i}_years_below_1") == cover["years_below_1"], i
+
+
+def test_usd_prints_on_letter():
+    wb = workbook.build(study.build(make_scenario(**{"project.currency": "USD"}), trials=0, variants=False))
+    assert {int(ws.page_setup.paperSize) for ws in wb.worksheets} == {int(wb.active.PAPERSIZE_LETTER)}
+
+
+def test_energy_sheet_traces_a_series():
+    """An hourly scenario: the Energy sheet names its series file, its period and its coverage by month."""
+    from conftest import DEMO_HOURLY
+    scn = sc.load(DEMO_HOURLY)
+    wb = workbook.build(study.build(scn, trials=0, variants=False))
+    ws = wb["Energy"]
+    col_a = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value}
+    assert ws.cell(col_a["Wind series"], 2).value == Path(scn.wind.timeseries).name
+    assert " to " in ws.cell(col_a["Series period (UTC)"], 2).value
+    cover = [ws.cell(col_a["Data coverage by calendar month [months of data]"], 3 + m).value for m in range(12)]
+    assert all(isinstance(v, float) for v in cover) and sum(cover) > 0
+    assert any(str(k).startswith("Power curve (") for k in col_a)
+
+
+@pytest.mark.parametrize("name", ["demo", "equity"])
+def test_every_input_cell_is_read_by_a_formula(books, name):
+    """Every cell styled as an input (blue on yellow) on Inputs and Lender cases is read by some formula, so a
+    change to it moves the model (what cannot move it is styled as an engine value and locked with a check)."""
+    wb = books[name].formulas
+    read = set()
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.data_type == "f":
+                    read.update(_references(wb, ws, cell.value))
+    unread = []
+    for title in ("Inputs", "Lender cases"):
+        if title not in wb.sheetnames:
+            continue
+        ws = wb[title]
+        for row in ws.iter_rows():
+            for cell in row:
+                if cell.fill is not None and cell.fill.fgColor is not None and cell.fill.fgColor.rgb in (
+                        "00FFF2CC", "FFFFF2CC") and (ws.title, cell.column, cell.row) not in read:
+                    unread.append(f"{title}!{cell.coordinate}")
+    assert unread == [], unread

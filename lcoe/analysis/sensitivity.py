@@ -288,7 +288,7 @@ def default_inputs(scn) -> list[str]:
     return keys
 
 
-def _energy_row(scn, case, metric: str) -> dict:
+def _energy_row(scn, case, metric: str, also=()) -> dict:
     """Net energy at its 10-year P90 and P10 (P50 (1 -+ z_90 sigma_10yr)), everything else as in the scenario.
 
     The factor f multiplies every year's net energy (the engine's energy factor, as a
@@ -297,17 +297,23 @@ def _energy_row(scn, case, metric: str) -> dict:
     e = case.energy
     p50, sig = e.net_aep_p50_mwh, e.sigma_10yr
     f_lo, f_hi = max(0.0, 1.0 - Z_90 * sig), 1.0 + Z_90 * sig
+    m = None
     if metric == BREAKEVEN:
         at = [_num(model.breakeven_price(scn, e, sample=Sample(energy_factor=np.array([[f]])))[0])
               for f in (f_lo, f_hi)]
     else:
         _, m, _ = model.evaluate(scn, sample=Sample(energy_factor=np.array([[f_lo], [f_hi]])), energy=e)
         at = [_num(m[metric][0]), _num(m[metric][1])]
-    return {"key": ENERGY_INPUT, "base_value": p50, "low_value": p50 * f_lo, "high_value": p50 * f_hi,
-            "basis": "energy P90/P10 (10 yr)", "at": at}
+    if also and m is None:
+        _, m, _ = model.evaluate(scn, sample=Sample(energy_factor=np.array([[f_lo], [f_hi]])), energy=e)
+    row = {"key": ENERGY_INPUT, "base_value": p50, "low_value": p50 * f_lo, "high_value": p50 * f_hi,
+           "basis": "energy P90/P10 (10 yr)", "at": at}
+    if also:
+        row["also"] = {k: [_num(m[k][0]), _num(m[k][1])] for k in also}
+    return row
 
 
-def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=None) -> list[dict]:
+def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=None, also=()) -> list[dict]:
     """One-at-a-time swings of each input between its low and high value, largest effect first.
 
     Rows: ``key``, ``base_value``, ``low_value``, ``high_value`` (see
@@ -319,7 +325,8 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=
     validly (a life shorter than the debt tenor, say) is left out, while a named
     input raises the ScenarioError. ``net_aep_p90_p10_10yr`` names the combined
     energy uncertainty (values in MWh/yr). ``progress``, if given, is called with the fraction
-    of the inputs done (0 to 1).
+    of the inputs done (0 to 1). ``also`` names further metrics of the same runs: each row then
+    carries ``also`` = {metric: [at low, at high]}.
     """
     check_metric(metric)
     case = model.run(scn, breakeven=metric == BREAKEVEN)
@@ -331,7 +338,7 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=
         if progress is not None and i:
             progress(i / len(keys))
         if key == ENERGY_INPUT:
-            r = _energy_row(scn, case, metric)
+            r = _energy_row(scn, case, metric, also)
             at_low, at_high = r.pop("at")
             rows.append({**r, "metric_base": metric_base, "metric_at_low": at_low, "metric_at_high": at_high})
             continue
@@ -344,7 +351,8 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=
             continue
         rows.append({"key": key, "base_value": base_value(scn, key), "low_value": low, "high_value": high,
                      "basis": basis, "metric_base": metric_base, "metric_at_low": sw[0]["metrics"][metric],
-                     "metric_at_high": sw[1]["metrics"][metric]})
+                     "metric_at_high": sw[1]["metrics"][metric],
+                     "also": {k: [sw[0]["metrics"][k], sw[1]["metrics"][k]] for k in also}})
     if progress is not None:
         progress(1.0)
     for r in rows:
@@ -352,6 +360,7 @@ def tornado(scn, *, metric: str = "lcoe_nominal_per_mwh", inputs=None, progress=
         r["swing"] = None if lo is None or hi is None else hi - lo
     order = ("key", "base_value", "low_value", "high_value", "metric_base", "metric_at_low", "metric_at_high",
              "swing", "basis")
+    order += ("also",) if also else ()
     rows = [{k: r[k] for k in order} for r in rows]
     rows.sort(key=lambda r: -abs(r["swing"]) if r["swing"] is not None else math.inf)
     return rows
@@ -536,9 +545,13 @@ def speed_key(scn) -> str | None:
     return None
 
 
+#: the metrics a lender workbook's tornado shows beside its own
+WORKBOOK_ALSO = ("equity_irr", "min_dscr")
+
+
 def workbook_set(scn, metric: str = "lcoe_nominal_per_mwh") -> SensitivitySet:
     """The tornado on ``metric`` and a 0.7x..1.3x sweep of the mean wind speed (13 runs)."""
-    rows = tornado(scn, metric=metric)
+    rows = tornado(scn, metric=metric, also=WORKBOOK_ALSO)
     key = speed_key(scn)
     if key is None:
         return SensitivitySet(metric, rows, None)

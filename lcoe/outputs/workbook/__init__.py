@@ -1,18 +1,23 @@
 """The lender workbook: the cash-flow model as an .xlsx of live spreadsheet formulas.
 
-Inputs are values in one place (the Inputs sheet), each with its unit and its
-scenario key; every yearly line of the energy, cash-flow and debt sheets and every
-metric on the summary is a formula over them, laid out so that a spreadsheet
-engine reproduces the engine's arithmetic (:mod:`lcoe.finance.cashflow`, :mod:`lcoe.finance.metrics`)
-to rounding. What needs the engine stays an engine value, marked as such:
+Inputs are values in one place (the Inputs sheet), each with its unit, its scenario key and
+its value as exported; every yearly line of the energy, cash-flow, debt and lender-case sheets
+and every metric on the summary is a formula over them, laid out so that a spreadsheet engine
+reproduces the engine's arithmetic (:mod:`lcoe.finance.cashflow`, :mod:`lcoe.finance.metrics`)
+to rounding. The yearly sheets run to a horizon (the longest life among the scenario and its
+variants, at least 40 years) and the life is live through an operating mask.
 
-* the gross AEP (the Weibull integral over the site power curve) and the P-case
-  energy factors (from the speed sensitivity and the uncertainty terms);
-* the debt at close and the debt-service scale, which the engine converges through
-  the interest-tax circularity. The sheet holds them as inputs, so it has no
-  circular reference, and shows live checks of the sculpted schedule against them;
-* the break-even PPA price (a goal seek that re-sizes the debt at each price);
-* Monte Carlo and sensitivity results.
+The debt has two modes, one input cell: ``locked`` holds the debt, fee, yearly debt service
+and interest as sized at close (what a lender runs a downside case with; the engine's
+``run(scn, debt=base)``), ``resized`` re-sculpts the debt to the current inputs without a
+circular reference (:mod:`lcoe.outputs.workbook.sheets`). Named checks test the model live; a
+failed check blanks the results it concerns. What needs the engine stays an engine value,
+marked as such, and an input it depends on is locked (a check fails when it is changed):
+
+* the gross AEP per turbine (the integral over the site power curve) and the speed
+  sensitivity; the wind and turbine inputs and the rated power are locked;
+* the schedule held at close, the break-even PPA price (a goal seek; shown only while no
+  input is changed), Monte Carlo and sensitivity results.
 
 Every key of the report's ``metrics`` is a workbook-level defined name of the same
 spelling pointing at its formula on the summary. Text from the scenario is always

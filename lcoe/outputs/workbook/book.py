@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 from openpyxl import Workbook
@@ -17,6 +18,8 @@ from lcoe.outputs.workbook.cells import (
     BOLD,
     CHECK_TOL,
     CHECKS,
+    COVER,
+    MIN_HORIZON,
     ENGINE_FILL,
     FAIL_FILL,
     HEAD_FILL,
@@ -26,21 +29,30 @@ from lcoe.outputs.workbook.cells import (
     SUMMARY,
     TITLE,
     Book,
+    YEAR_ROW,
     Timeline,
     absolute,
+    xref,
 )
 from lcoe.outputs.workbook.directions import write_directions
 from lcoe.outputs.workbook.inputs import write_inputs
 from lcoe.outputs.workbook.results import chart_cashflow, chart_dscr, write_montecarlo, write_sensitivity
-from lcoe.outputs.workbook.sheets import write_cashflow_and_debt, write_energy
+from lcoe.outputs.workbook.layout import collapse, print_setup, scenario_sha256, write_cover, write_lender_cases
+from lcoe.outputs.workbook.sheets import write_cashflow_and_debt, write_energy, write_energy_trace
+from lcoe.physics.energy import site_for
 
 # --------------------------------------------------------------------------- Summary
 
+PROJECT_METRICS = ("lcoe_nominal_per_mwh", "lcoe_real_per_mwh", "project_npv", "project_irr")
+FAILED = "check failed"
+STALE = "stale: inputs changed"
+
+
 def _metric_formulas(cf: Timeline) -> dict[str, str]:
-    L = cf.L
+    H = cf.H
     first = lambda key: cf.x(key, 0)  # noqa: E731
-    rest = lambda key: cf.span(key, 1, L, other=True)  # noqa: E731
-    whole = lambda key: cf.span(key, 0, L, other=True)  # noqa: E731
+    rest = lambda key: cf.span(key, 1, H, other=True)  # noqa: E731
+    whole = lambda key: cf.span(key, 0, H, other=True)  # noqa: E731
 
     def irr(key):
         rng = whole(key)
@@ -64,8 +76,20 @@ def _metric_formulas(cf: Timeline) -> dict[str, str]:
         "llcr": "IF(debt_at_close>0,SUMPRODUCT((annual_debt_service>0)*annual_cfads,df_interest)/debt_at_close,"
                 "\"n/a\")",
         "payback_year": "IF(COUNT(payback_marker)>0,MIN(payback_marker),\"n/a\")",
-        "breakeven_ppa_price_per_mwh": "breakeven_engine",
+        "breakeven_ppa_price_per_mwh": f"IF(inputs_changed=0,breakeven_engine,\"{STALE}\")",
     }
+
+
+def difference(row: int) -> str:
+    """Sheet less engine; a rounding residue below 1e-12 of the value shows as 0 (never a red "-0")."""
+    return (f"IF(AND(ISNUMBER(B{row}),ISNUMBER(E{row})),IF(ABS(B{row}-E{row})<=1E-12*MAX(ABS(E{row}),1E-300),0,"
+            f"B{row}-E{row}),\"\")")
+
+
+def guarded(key: str, expr: str) -> str:
+    """A metric shown only while the checks it depends on pass; otherwise the text ``check failed``."""
+    flag = "project_checks_ok" if key in PROJECT_METRICS else "checks_ok"
+    return f"IF({flag}=1,{expr},\"{FAILED}\")"
 
 
 def _write_summary(book: Book, report, ws, cf: Timeline):
@@ -74,7 +98,7 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
     b = book
     b.text(ws, 1, 1, "Summary", font=TITLE)
     b.text(ws, 2, 1, CAUTION, font=ITALIC)
-    for col, width in zip("ABCDEFG", (50, 18, 14, 30, 20, 16, 50)):
+    for col, width in zip("ABCDEFG", (44, 16, 12, 26, 18, 14, 50)):
         ws.column_dimensions[col].width = width
     b.text(ws, 4, 1, "Project")
     b.text(ws, 4, 2, scn.project.name, font=BOLD)
@@ -84,8 +108,10 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
     b.formula(ws, 6, 2, "lifetime_years", "int")
     b.formula(ws, 6, 3, "turbines", "int")
     b.formula(ws, 6, 4, "plant_kw/1000", "price")
-    b.text(ws, 7, 1, "Model checks (see Checks)")
+    b.text(ws, 7, 1, "Model checks (see Checks); debt mode")
     b.formula(ws, 7, 2, "IF(checks_ok=1,\"all pass\",\"FAILED: see Checks\")")
+    b.formula(ws, 7, 3, "debt_mode")
+    b.formula(ws, 7, 4, "IF(checks_ok=1,\"\",\"first failed: \"&first_failed_check)")
     b.text(ws, 8, 1, f"Written by lcoe {__version__} from {Path(scn.source).name}", font=ITALIC)
 
     row = 10
@@ -93,8 +119,8 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
     for i, h in enumerate(heads, start=1):
         b.text(ws, row, i, h, font=BOLD, fill=HEAD_FILL)
     formulas = _metric_formulas(cf)
-    notes = {"debt_amount": "engine value held on Inputs (converged sizing)",
-             "breakeven_ppa_price_per_mwh": "engine value held on Inputs: re-run lcoe after changing inputs",
+    notes = {"debt_amount": "locked: held at close; resized: the capacity of the current inputs (Debt)",
+             "breakeven_ppa_price_per_mwh": "engine goal seek held on Inputs: shown while no input is changed",
              "project_npv": "t = 0 plus NPV() of t = 1..L", "equity_npv": "t = 0 plus NPV() of t = 1..L",
              "lcoe_nominal_per_mwh": "pre-tax, unfinanced, no credits",
              "lcoe_real_per_mwh": "costs at the nominal rate, energy at the real rate"}
@@ -102,12 +128,12 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
         row += 1
         label, unit, fmt = METRICS[key]
         b.text(ws, row, 1, label)
-        b.formula(ws, row, 2, formulas[key], fmt, font=BOLD)
+        b.formula(ws, row, 2, guarded(key, formulas[key]), fmt, font=BOLD)
         b.name(key, ws, absolute(2, row))
         b.text(ws, row, 3, b.unit(unit), font=ITALIC)
         b.text(ws, row, 4, key, font=ITALIC)
         b.num(ws, row, 5, case.metrics.get(key), fmt, fill=ENGINE_FILL)
-        b.formula(ws, row, 6, f"IF(AND(ISNUMBER(B{row}),ISNUMBER(E{row})),B{row}-E{row},\"\")", fmt)
+        b.formula(ws, row, 6, difference(row), fmt)
         if key in notes:
             b.text(ws, row, 7, notes[key], font=ITALIC)
 
@@ -116,7 +142,9 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
     for i in range(2, 5):
         ws.cell(row, i).fill = HEAD_FILL
     e = case.energy
-    rows = [("Gross AEP (engine value per turbine x turbines)", "gross_aep_mwh", "MWh/yr", "mwh",
+    rows = [("Debt capacity of the current inputs", "debt_capacity", "{cur}", "money", float(case.flows.debt[0, 0])),
+            ("Headroom: capacity less the held debt", "debt_headroom", "{cur}", "money", 0.0),
+            ("Gross AEP (engine value per turbine x turbines)", "gross_aep_mwh", "MWh/yr", "mwh",
              e.gross_aep_mwh),
             ("Net AEP P50", "net_aep_p50_mwh", "MWh/yr", "mwh", e.net_aep_p50_mwh),
             ("Net AEP P90, 1 year", "net_aep_p90_1yr_mwh", "MWh/yr", "mwh", e.net_aep_p90_1yr_mwh),
@@ -131,13 +159,14 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
         row += 1
         b.text(ws, row, 1, label)
         expr = cf.x("opex", 1) if nm == "opex_year1" else nm
-        b.formula(ws, row, 2, expr, fmt)
+        flag = "checks_ok" if nm.startswith("debt_") and nm != "decommissioning_net" else "project_checks_ok"
+        b.formula(ws, row, 2, f"IF({flag}=1,{expr},\"{FAILED}\")", fmt)
         if nm == "opex_year1":
             b.name("opex_year1", ws, absolute(2, row))
         b.text(ws, row, 3, b.unit(unit), font=ITALIC)
         b.text(ws, row, 4, nm, font=ITALIC)
         b.num(ws, row, 5, engine_value, fmt, fill=ENGINE_FILL)
-        b.formula(ws, row, 6, f"IF(AND(ISNUMBER(B{row}),ISNUMBER(E{row})),B{row}-E{row},\"\")", fmt)
+        b.formula(ws, row, 6, difference(row), fmt)
 
     if report.variants:
         row += 2
@@ -166,58 +195,99 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
 def _write_checks(book: Book, ws, cf: Timeline, dt: Timeline):
     b = book
     b.text(ws, 1, 1, "Checks: live tests of the model (1 = OK, 0 = FAIL)", font=TITLE)
-    b.text(ws, 2, 1, "The debt at close is an engine value: after changing an input that moves the sizing case, "
-                     "the debt checks fail until the debt is re-converged (re-run lcoe).", font=ITALIC)
-    for col, width in zip("ABCDE", (62, 10, 20, 20, 60)):
+    b.text(ws, 2, 1, "A failed check blanks the results that depend on it (Summary shows \"check failed\"). Scope "
+                     "'all' covers every metric; 'debt' the equity and debt metrics.", font=ITALIC)
+    for col, width in zip("ABCDEF", (66, 10, 20, 20, 10, 64)):
         ws.column_dimensions[col].width = width
-    for i, h in enumerate(("Check", "Result", "Value", "Against", "Tolerance and meaning"), start=1):
+    for i, h in enumerate(("Check", "Result", "Value", "Against", "Scope", "Tolerance and meaning"), start=1):
         b.text(ws, 4, i, h, font=BOLD, fill=HEAD_FILL)
-    L = cf.L
-    tenor_end = f"INDEX({dt.span('close', other=True)},1,MIN(tenor_years,lifetime_years)+1)"
-    pv_ds = f"NPV(interest_rate,{dt.span('ds', 1, L, other=True)})"
+    H = cf.H
+    close = dt.span("close", other=True)
+    ds_row = dt.span("ds", 1, H, other=True)
+    tenor_end = f"INDEX({close},1,MIN(IF(debt_locked=1,tenor_years_held,tenor_years),lifetime_years)+1)"
+    life_end = f"INDEX({close},1,lifetime_years+1)"
+    rate = "IF(debt_locked=1,interest_rate_held,interest_rate)"
+    pv_ds = f"NPV({rate},{ds_row})"
     tol = f"{CHECK_TOL}*MAX(debt_at_close,1)"
+    years = xref(cf.ws, f"${cf.col(1)}${YEAR_ROW}:${cf.col(H)}${YEAR_ROW}")
 
     def irr_check(key, metric):
-        return (f"IF(ISNUMBER({metric}),IF(ABS({cf.x(key, 0)}+NPV({metric},{cf.span(key, 1, L, other=True)}))"
-                f"<=1E-6*MAX(capex_total,1),1,0),1)", f"{cf.x(key, 0)}+NPV({metric},{cf.span(key, 1, L, other=True)})")
+        return (f"IF(ISNUMBER({metric}),IF(ABS({cf.x(key, 0)}+NPV({metric},{cf.span(key, 1, H, other=True)}))"
+                f"<=1E-6*MAX(capex_total,1),1,0),1)", f"{cf.x(key, 0)}+NPV({metric},{cf.span(key, 1, H, other=True)})")
 
     checks = [
-        ("Sizing-case DSCR meets the target in every tenor year", "MIN(sizing_dscr_check)",
-         f"MIN({dt.span('s_dscr', other=True)})", "target_dscr",
-         f"each year |DSCR - target / scale| <= {CHECK_TOL:g} x target (row on Debt)"),
-        ("Present value of debt service at the interest rate equals the debt",
-         f"IF(ABS({pv_ds}-debt_at_close)<={tol},1,0)", pv_ds, "debt_at_close",
-         f"<= {CHECK_TOL:g} x debt; fails when inputs moved and the debt was not re-converged"),
-        ("Debt repaid at the end of the tenor", f"IF(ABS({tenor_end})<={tol},1,0)", tenor_end, "0",
-         f"closing balance in the last tenor year, <= {CHECK_TOL:g} x debt"),
-        ("Debt within the gearing cap", "IF(debt_at_close<=debt_cap*(1+1E-12)+1E-6,1,0)", "debt_at_close",
-         "debt_cap", "debt <= max gearing x capex"),
-        ("Debt-service scale is 1 unless the gearing cap binds",
-         f"IF(OR(debt_service_scale=1,ABS(debt_at_close-debt_cap)<={tol}),1,0)", "debt_service_scale", "1",
-         "a scale below 1 only when the debt equals the cap"),
+        ("Operating life is a whole number from 1 to the horizon",
+         f"IF(AND(lifetime_years>=1,lifetime_years<={H},lifetime_years=INT(lifetime_years)),1,0)", "lifetime_years",
+         f"{H}", "all", f"the yearly sheets run to year {H}; re-export from lcoe for a longer life"),
+        ("Locked inputs are as exported (rated power, wind and turbine, layout, debt table)",
+         "IF(locked_changed=0,1,0)", "locked_changed", "0", "all",
+         "the gross AEP and the power curve are the engine's: change them in the scenario and re-run lcoe"),
+        ("Debt mode is locked or resized", 'IF(OR(debt_mode="locked",debt_mode="resized"),1,0)', "debt_mode",
+         '"locked / resized"', "debt", "one input cell on Inputs"),
         ("Depreciation shares sum to one", "IF(ABS(SUM(depreciation_share)-1)<=1E-12,1,0)",
-         "SUM(depreciation_share)", "1", "the whole base is written off by year L"),
+         "SUM(depreciation_share)", "1", "all", "the whole base is written off by year L"),
         ("Tax is never negative", "IF(AND(MIN(annual_tax)>=0,MIN(annual_tax_unlevered)>=0),1,0)",
-         "MIN(annual_tax)", "0", "losses are carried forward, not refunded"),
+         "MIN(annual_tax)", "0", "all", "losses are carried forward, not refunded"),
+        ("Debt service is paid at the schedule's rate: its present value equals the debt",
+         f"IF(ABS({pv_ds}-debt_at_close)<={tol},1,0)", pv_ds, "debt_at_close", "debt",
+         f"<= {CHECK_TOL:g} x debt; locked: at the rate at close"),
+        ("Debt repaid at the end of the tenor", f"IF(ABS({tenor_end})<={tol},1,0)", tenor_end, "0", "debt",
+         f"closing balance in the last tenor year, <= {CHECK_TOL:g} x debt"),
+        ("Debt repaid within the life: no balance and no debt service after it",
+         f"IF(AND(ABS({life_end})<={tol},SUMPRODUCT(({years}>lifetime_years)*{ds_row})=0),1,0)", life_end, "0",
+         "debt", "locked: fails when the life is cut below the held tenor"),
+        ("Debt within the gearing cap", "IF(debt_at_close<=debt_cap*(1+1e-09)+1E-6,1,0)", "debt_at_close",
+         "debt_cap", "debt", "debt <= max gearing x capex"),
+        ("Resized: the sizing-case DSCR meets the target in every tenor year", "MIN(sizing_dscr_check)",
+         f"MIN({dt.span('s_dscr', other=True)})", "target_dscr", "debt",
+         f"each year |DSCR - target / scale| <= {CHECK_TOL:g} x target (row on Debt); locked: n/a"),
+        ("Resized: the passes that carry the tax losses and the gearing cap converged", f"IF(OR(debt_locked=1,ABS(capacity_last_change)"
+         f"<={tol}),1,0)", "capacity_last_change", "0", "debt",
+         "change of the capacity in the last pass <= 1e-9 x debt; else the re-sized debt needs the engine (re-run lcoe)"),
+        ("All-equity scenario: no debt term typed", "IF(OR(has_debt=1,AND(max_gearing=0,tenor_years=0,"
+         "interest_rate=0,upfront_fee=0)),1,0)", "has_debt", "1", "debt",
+         "without a [finance.debt] table the debt is zero; typed terms are refused here"),
+        ("Normal quantiles: the constants equal NORM.S.INV", "IF(AND(ABS(z_90-z_90_sheet)<=1E-9,"
+         "ABS(z_99-z_99_sheet)<=1E-9),1,0)", "z_90_sheet", "z_90", "all", "1e-9"),
     ]
     for key, metric, label in (("project", "project_irr", "Project"), ("equity", "equity_irr", "Equity")):
-        res, val = irr_check(key, metric)
-        checks.append((f"{label} IRR: NPV at the IRR is zero", res, f"IF(ISNUMBER({metric}),{val},\"n/a\")", "0",
-                       "<= 1e-6 x capex (n/a counts as OK)"))
+        res, val = irr_check(key, f"{metric}_raw")
+        checks.append((f"{label} IRR: NPV at the IRR is zero", res, f"IF(ISNUMBER({metric}_raw),{val},\"n/a\")", "0",
+                       "all" if key == "project" else "debt", "<= 1e-6 x capex (n/a counts as OK)"))
     row = 4
     first = row + 1
-    for label, result, value, against, meaning in checks:
+    for label, result, value, against, scope, meaning in checks:
         row += 1
         b.text(ws, row, 1, label)
         b.formula(ws, row, 2, result, "ok", font=BOLD)
         b.formula(ws, row, 3, value, "price")
         b.formula(ws, row, 4, against, "price")
-        b.text(ws, row, 5, meaning, font=ITALIC)
+        b.text(ws, row, 5, scope, font=ITALIC)
+        b.text(ws, row, 6, meaning, font=ITALIC)
+        ws.cell(row, 1).alignment = Alignment(wrap_text=True, vertical="top")
+        ws.cell(row, 6).alignment = Alignment(wrap_text=True, vertical="top")
+    last = row
+    rng, scopes, labels = f"B{first}:B{last}", f"E{first}:E{last}", f"A{first}:A{last}"
     row += 2
+    b.text(ws, row, 1, "Checks of scope 'all' (the project metrics)", font=BOLD)
+    b.formula(ws, row, 2, f'IF(COUNTIFS({scopes},"all",{rng},0)=0,1,0)', "ok", font=BOLD)
+    b.name("project_checks_ok", ws, absolute(2, row))
+    row += 1
     b.text(ws, row, 1, "All checks", font=BOLD)
-    b.formula(ws, row, 2, f"MIN(B{first}:B{row - 2})", "ok", font=BOLD)
+    b.formula(ws, row, 2, f"MIN({rng})", "ok", font=BOLD)
     b.name("checks_ok", ws, absolute(2, row))
-    for ref in (f"B{first}:B{row - 2}", f"B{row}"):
+    row += 1
+    b.text(ws, row, 1, "First failed check", font=BOLD)
+    b.formula(ws, row, 2, f'IFERROR(INDEX({labels},MATCH(0,{rng},0)),"")')
+    b.name("first_failed_check", ws, absolute(2, row))
+    row += 2
+    formulas = _metric_formulas(cf)
+    for key in ("project_irr", "equity_irr"):
+        b.text(ws, row, 1, f"{METRICS[key][0]} before the checks (the value the IRR check tests)", font=ITALIC)
+        b.formula(ws, row, 2, formulas[key], "pct")
+        b.name(f"{key}_raw", ws, absolute(2, row))
+        row += 1
+    for ref in (rng, f"B{row - 2}:B{row - 1}"):
         ws.conditional_formatting.add(ref, CellIsRule(operator="equal", formula=["0"], fill=FAIL_FILL))
     dt.ws.conditional_formatting.add(dt.span("check"), CellIsRule(operator="equal", formula=["0"], fill=FAIL_FILL))
     ws.freeze_panes = "A5"
@@ -225,10 +295,12 @@ def _write_checks(book: Book, ws, cf: Timeline, dt: Timeline):
 
 # --------------------------------------------------------------------------- Notes
 
+NOTES_WIDTH = 110
+
 def _write_notes(book: Book, report, sens_note: str | None):
     ws = book.sheet(NOTES)
     b = book
-    ws.column_dimensions["A"].width = 130
+    ws.column_dimensions["A"].width = NOTES_WIDTH
     lines = [
         ("Notes", TITLE),
         ("Caution", BOLD), (CAUTION, None),
@@ -242,9 +314,15 @@ def _write_notes(book: Book, report, sens_note: str | None):
          "report (for example lcoe_nominal_per_mwh). The inputs, yearly rows and energy totals are named too.", None),
         ("Grey cells are engine values: computed by lcoe, held as values because a formula would need the engine "
          "(the Weibull integral, the debt sizing iteration, a goal seek, Monte Carlo, sensitivity runs).", None),
-        ("The debt at close is held, so the sheet has no circular reference. After changing an input that moves "
-         "the sizing case the Checks sheet flags the debt; re-run lcoe for the re-converged debt, or enter it on "
-         "Inputs.", None),
+        ("Debt mode (Inputs): locked holds the debt, its fee and its yearly service and interest as at close, as a "
+         "lender does when running a downside case; resized re-sculpts the debt to the inputs without a circular "
+         "reference: the balance is rolled backward from zero at maturity with the interest tax shield in closed "
+         "form, and a few passes carry the tax losses and the gearing cap (Debt sheet). The debt capacity of the "
+         "current inputs and the headroom are shown in both modes.", None),
+        ("The operating life is live: the yearly sheets run to a fixed horizon and an operating mask ends energy, "
+         "revenue and costs after the life; decommissioning falls in year L.", None),
+        ("A failed check blanks the results that depend on it (\"check failed\"); the break-even price, Monte "
+         "Carlo and sensitivity are engine results, shown as stale once an input is changed.", None),
         ("", None),
         ("Conventions", BOLD),
         ("t = 0 is construction (all capex at t = 0); t = 1..L are operating years; cash flows at the end of each "
@@ -291,6 +369,9 @@ def _write_notes(book: Book, report, sens_note: str | None):
         if text:
             c = b.text(ws, i, 1, text, font=font)
             c.alignment = Alignment(wrap_text=True, vertical="top")
+            # rows tall enough for their wrapped text: about 1.1 characters per unit of column width
+            n_lines = max(1, math.ceil(len(text) / (1.1 * NOTES_WIDTH)))
+            ws.row_dimensions[i].height = 15.0 * n_lines + (6 if font is TITLE else 2)
 
 
 # --------------------------------------------------------------------------- the workbook
@@ -302,7 +383,14 @@ def _value_at(scn, dotted: str):
     return node if isinstance(node, (int, float, str, bool)) else None   # a table: named, not shown
 
 
-def build(report) -> Workbook:
+def horizon_of(scn, minimum: int = MIN_HORIZON) -> int:
+    """The yearly sheets' horizon: the longest life among the scenario and its variants, at least
+    ``minimum`` years (the print area runs to the longest life)."""
+    lives = [scn.lifetime] + [scn.variant(name).lifetime for name in (scn.variants or {})]
+    return max(minimum, *lives)
+
+
+def build(report, *, source_sha256: str | None = None) -> Workbook:
     """The lender workbook of a report (an :class:`openpyxl.Workbook`, not yet saved).
 
     The Sensitivity sheet shows ``report.sensitivity`` when the study computed it
@@ -316,15 +404,22 @@ def build(report) -> Workbook:
         raise ScenarioError("the workbook does not yet show this part of the lender structure; write it "
                             "without it (the engine and `lcoe run` include it)", key=unshown[0], value=value,
                             has_value=value is not None)
+    horizon = horizon_of(scn)
     book = Book(scn.project.currency)
+    cover = book.sheet(COVER)
     summary = book.sheet(SUMMARY)
-    write_inputs(book, report)
-    en = write_energy(book, scn)
+    write_inputs(book, report, horizon)
+    en = write_energy(book, scn, horizon)
     cf, dt = write_cashflow_and_debt(book, scn, en)
-    write_directions(book, en.ws, en.next + 2, case.energy)
-    chart_cashflow(cf)
-    chart_dscr(dt, scn.finance.debt.tenor_years if scn.finance.debt is not None else 0)
+    collapse(dt.ws, dt.pass_rows)
+    site = site_for(scn)
+    trace_end = write_energy_trace(book, en, scn, site)
+    write_directions(book, en.ws, trace_end + 2, case.energy)
+    chart_cashflow(cf, scn.lifetime)
+    chart_dscr(dt, min(scn.finance.debt.tenor_years, scn.lifetime) if scn.finance.debt is not None else 0)
     _write_summary(book, report, summary, cf)
+    if scn.finance.debt is not None:
+        write_lender_cases(book, en, cf)
     if report.montecarlo is not None:
         write_montecarlo(book, report.montecarlo)
     sens_note = None
@@ -334,11 +429,8 @@ def build(report) -> Workbook:
         write_sensitivity(book, report.sensitivity)
     _write_checks(book, book.sheet(CHECKS), cf, dt)
     _write_notes(book, report, sens_note)
-    for ws in book.wb.worksheets:
-        ws.page_setup.orientation = "landscape"
-        ws.page_setup.fitToWidth = 1
-        ws.page_setup.fitToHeight = 0
-        ws.sheet_properties.pageSetUpPr.fitToPage = True
+    write_cover(book, cover, report, source_sha256)
+    print_setup(book, scn, (en, cf, dt), horizon_of(scn, minimum=0))
     book.wb.active = 0
     return book.wb
 
@@ -349,5 +441,5 @@ def write(report, path) -> Path:
     A folder that does not exist or cannot be written raises a one-line
     :class:`~lcoe.inputs.errors.ScenarioError` (key ``--workbook``) and leaves nothing behind.
     """
-    wb = build(report)
+    wb = build(report, source_sha256=scenario_sha256(report.case.scenario))
     return write_atomic(path, lambda tmp: wb.save(tmp), option="--workbook")

@@ -17,7 +17,8 @@ from openpyxl.workbook.defined_name import DefinedName
 from lcoe.inputs.schema import DEPRECIATION_METHODS, LOSS_CATEGORIES, SIZING_CASES
 
 # sheet names (plain trade words)
-SUMMARY, INPUTS, ENERGY, CASHFLOW, DEBT = "Summary", "Inputs", "Energy", "Cash flow", "Debt"
+COVER, SUMMARY, INPUTS, ENERGY, CASHFLOW, DEBT = "Cover", "Summary", "Inputs", "Energy", "Cash flow", "Debt"
+CASES_SHEET = "Lender cases"
 MONTECARLO, SENSITIVITY, CHECKS, NOTES = "Monte Carlo", "Sensitivity", "Checks", "Notes"
 
 T0_COL = 3          # column C holds t = 0 on every yearly sheet
@@ -26,6 +27,9 @@ FIRST_ROW = 6       # first line below the years and phase rows
 HOURS_PER_YEAR = 8760
 SPARE_ROWS = 3      # empty rows left in the component and overhaul tables for additions
 CHECK_TOL = 1e-9    # relative tolerance of the debt checks (the engine converges to 1e-12 of capex)
+LABEL_WIDTH = 40    # the label column of the yearly sheets [characters]
+MIN_HORIZON = 40    # the yearly sheets run to at least this many years, whatever the life
+SNAP = 1e-10        # a closing balance within SNAP x debt of zero is zero (rounding residue, never a figure)
 
 FORMATS = {
     "money": '#,##0;[Red]-#,##0', "mwh": '#,##0', "price": '#,##0.00', "pct": '0.00%', "share": '0.0000%',
@@ -51,7 +55,7 @@ METRICS = {
     "project_irr": ("Project IRR, after tax", "per year", "pct"),
     "equity_npv": ("Equity NPV at the equity target return", "{cur}", "money"),
     "equity_irr": ("Equity IRR", "per year", "pct"),
-    "debt_amount": ("Debt at close (converged by the engine)", "{cur}", "money"),
+    "debt_amount": ("Debt at close (locked: held; resized: in the sheet)", "{cur}", "money"),
     "min_dscr": ("Minimum DSCR, P50 case", "x", "ratio"),
     "avg_dscr": ("Average DSCR, P50 case", "x", "ratio"),
     "llcr": ("LLCR, P50 case", "x", "ratio"),
@@ -66,6 +70,7 @@ EXTRA_MC = {
 }
 HISTOGRAM_KEYS = ("lcoe_nominal_per_mwh", "equity_irr", "min_dscr", "net_aep_year1_mwh")
 CASES = SIZING_CASES
+DEBT_MODES = ("locked", "resized")
 DEPRECIATION = DEPRECIATION_METHODS
 LOSSES = LOSS_CATEGORIES
 
@@ -138,28 +143,36 @@ def xref(ws, ref: str) -> str:
 
 
 class Timeline:
-    """Yearly lines on one sheet: column C is t = 0, D.. are the operating years."""
+    """Yearly lines on one sheet: column C is t = 0, D.. the years 1..H of the horizon.
 
-    def __init__(self, book: Book, ws, lifetime: int, title: str, note: str):
-        self.b, self.ws, self.L = book, ws, lifetime
+    The horizon H is fixed when the workbook is written (the longest life among the scenario
+    and its variants, at least :data:`MIN_HORIZON` years); the operating life is an input, and a
+    live operating mask ends revenue and costs after it. Single values sit in column B, one a
+    row, their unit in the label; the t = 0 column holds yearly values only.
+    """
+
+    def __init__(self, book: Book, ws, horizon: int, title: str, note: str):
+        self.b, self.ws, self.H = book, ws, horizon
         self.rows: dict[str, int] = {}
         self.pending: list = []
+        self.singles: list = []
         self.next = FIRST_ROW
         book.text(ws, 1, 1, title, font=TITLE)
         book.text(ws, 2, 1, note, font=ITALIC)
         book.text(ws, YEAR_ROW, 1, "Year", font=BOLD, fill=HEAD_FILL)
-        book.text(ws, YEAR_ROW, 2, "unit", font=BOLD, fill=HEAD_FILL)
+        book.text(ws, YEAR_ROW, 2, "unit / value", font=BOLD, fill=HEAD_FILL)
         book.text(ws, YEAR_ROW + 1, 1, "Phase", font=ITALIC)
-        for t in range(lifetime + 1):
+        for t in range(horizon + 1):
             c = book.num(ws, YEAR_ROW, T0_COL + t, t, "int", font=BOLD, fill=HEAD_FILL)
             c.alignment = Alignment(horizontal="center")
-            p = book.text(ws, YEAR_ROW + 1, T0_COL + t, "build" if t == 0 else "operate", font=ITALIC)
+            expr = '"build"' if t == 0 else f'IF({get_column_letter(T0_COL + t)}${YEAR_ROW}<=lifetime_years,"operate","after life")'
+            p = book.formula(ws, YEAR_ROW + 1, T0_COL + t, expr, font=ITALIC)
             p.alignment = Alignment(horizontal="center")
         ws.freeze_panes = ws.cell(FIRST_ROW - 1, T0_COL)
-        ws.column_dimensions["A"].width = 46
-        ws.column_dimensions["B"].width = 13
-        for t in range(lifetime + 1):
-            ws.column_dimensions[get_column_letter(T0_COL + t)].width = 13.5
+        ws.column_dimensions["A"].width = LABEL_WIDTH
+        ws.column_dimensions["B"].width = 12
+        for t in range(horizon + 1):
+            ws.column_dimensions[get_column_letter(T0_COL + t)].width = 11
 
     # references
     def col(self, t: int) -> str:
@@ -176,8 +189,12 @@ class Timeline:
         """The same cell seen from another sheet."""
         return xref(self.ws, self.c(key, t))
 
+    def v(self, key: str) -> str:
+        """A single value (column B), absolute."""
+        return absolute(2, self.rows[key])
+
     def span(self, key: str, t_from: int = 0, t_to: int | None = None, other: bool = False) -> str:
-        t_to = self.L if t_to is None else t_to
+        t_to = self.H if t_to is None else t_to
         r = self.rows[key]
         ref = f"${self.col(t_from)}${r}:${self.col(t_to)}${r}"
         return xref(self.ws, ref) if other else ref
@@ -185,21 +202,30 @@ class Timeline:
     # writing
     def section(self, title: str):
         self.next += 1 if self.next > FIRST_ROW else 0
-        for col in range(1, T0_COL + self.L + 1):
+        for col in range(1, T0_COL + self.H + 1):
             self.ws.cell(self.next, col).fill = SECTION_FILL
         self.b.text(self.ws, self.next, 1, title, font=BOLD, fill=SECTION_FILL)
         self.next += 1
 
-    def single(self, key: str, label: str, unit: str, expr: str, fmt: str, name: str | None = None):
-        """One value (not yearly) in the t = 0 column."""
+    def single(self, key: str, label: str, unit: str, expr: str, fmt: str, name: str | None = None, fill=None):
+        """One value (not yearly) in column B, its unit in the label."""
         r = self.next
         self.next += 1
-        self.b.text(self.ws, r, 1, label)
-        self.b.text(self.ws, r, 2, self.b.unit(unit), font=ITALIC)
-        self.b.formula(self.ws, r, T0_COL, expr, fmt)
+        unit = self.b.unit(unit)
+        lab = self.b.text(self.ws, r, 1, f"{label} [{unit}]" if unit and unit != "-" else label)
+        lines = math.ceil(len(lab.value) / (1.05 * LABEL_WIDTH))
+        if lines > 1:      # a long label wraps in a row tall enough for it (printing keeps the height)
+            lab.alignment = Alignment(wrap_text=True, vertical="top")
+            self.ws.row_dimensions[r].height = 15.0 * lines
         self.rows[key] = r
+        if callable(expr):        # refers to a line written later: formed at render
+            self.singles.append((r, expr, fmt, fill))
+        else:
+            c = self.b.formula(self.ws, r, 2, expr, fmt)
+            if fill is not None:
+                c.fill = fill
         if name:
-            self.b.name(name, self.ws, absolute(T0_COL, r))
+            self.b.name(name, self.ws, absolute(2, r))
         return r
 
     def line(self, key: str, label: str, unit: str, expr, fmt: str, name: str | None = None, t0=None,
@@ -218,7 +244,11 @@ class Timeline:
     def render(self):
         """Write the yearly formulas (after all lines exist, so a line may refer to a later one)."""
         for r, expr, t0, fmt, bold in self.pending:
-            for t in range(self.L + 1):
+            for t in range(self.H + 1):
                 fn = t0 if (t == 0 and t0 is not None) else expr
                 self.b.formula(self.ws, r, T0_COL + t, fn(t), fmt, font=BOLD if bold else None)
-        self.pending = []
+        for r, expr, fmt, fill in self.singles:
+            c = self.b.formula(self.ws, r, 2, expr(), fmt)
+            if fill is not None:
+                c.fill = fill
+        self.pending, self.singles = [], []

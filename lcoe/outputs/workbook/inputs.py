@@ -12,11 +12,15 @@ MACRS tables: US IRS Publication 946, Table A-1 (half-year convention), as held 
 
 from __future__ import annotations
 
+from pathlib import Path
+
 from openpyxl.styles import Alignment
+from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
 from lcoe.finance.debt import debt_service_scale
 from lcoe.finance.tax import MACRS
+from lcoe.physics import energy as en
 from lcoe.outputs.workbook.cells import (
     BLUE,
     BOLD,
@@ -31,6 +35,7 @@ from lcoe.outputs.workbook.cells import (
     ITALIC,
     LOSSES,
     SPARE_ROWS,
+    DEBT_MODES,
     TITLE,
     Book,
     absolute,
@@ -49,8 +54,11 @@ class InputSheet:
         b.text(ws, 1, 1, "Inputs: every assumption the formulas use, in one place", font=TITLE)
         b.text(ws, 2, 1, "Blue on yellow: inputs you may change. Grey: engine values (computed by lcoe, "
                          "not by the sheet; re-run lcoe to refresh them). Money is year-0 money.", font=ITALIC)
-        for col, width in zip("ABCDEF", (46, 16, 16, 44, 16, 60)):
+        for col, width in zip("ABCDEFGH", (46, 16, 16, 44, 14, 60, 16, 8)):
             ws.column_dimensions[col].width = width
+        b.text(ws, 3, 7, "As exported", font=ITALIC)
+        b.text(ws, 3, 8, "Changed", font=ITALIC)
+        self.locked_rows: list[int] = []
         ws.freeze_panes = "A4"
         self.fraction_dv = DataValidation(type="decimal", operator="between", formula1="0", formula2="1",
                                           allow_blank=False, showErrorMessage=True,
@@ -65,19 +73,27 @@ class InputSheet:
         self.row += 1
 
     def value(self, name: str, label: str, value, unit: str, key: str, fmt: str, note: str = "",
-              engine: bool = False, fraction: bool = False):
+              engine: bool = False, fraction: bool = False, locked: bool = False, formula: str | None = None):
+        """One input row. ``engine``: an engine value (grey); ``locked``: shown like one, and a check
+        fails when it is changed; ``formula``: the cell follows another input (as the scenario's
+        omitted key does) until a value is typed over it. Every named row keeps its value as
+        exported in column G and a changed flag in column H."""
         r = self.row
         self.row += 1
         b, ws = self.b, self.ws
         b.text(ws, r, 1, label)
-        if isinstance(value, str):
+        engine = engine or locked
+        if formula is not None:
+            c = b.formula(ws, r, 2, formula, fmt, font=BLUE)
+            c.fill = INPUT_FILL
+        elif isinstance(value, str):
             c = b.text(ws, r, 2, value, font=None if engine else BLUE, fill=ENGINE_FILL if engine else INPUT_FILL)
         else:
             c = b.num(ws, r, 2, value, fmt, font=None if engine else BLUE, fill=ENGINE_FILL if engine else INPUT_FILL)
         b.text(ws, r, 3, b.unit(unit), font=ITALIC)
         b.text(ws, r, 4, key, font=ITALIC)
         if engine:
-            b.text(ws, r, 5, ENGINE_MARK, font=ITALIC, fill=ENGINE_FILL)
+            b.text(ws, r, 5, "locked" if locked else ENGINE_MARK, font=ITALIC, fill=ENGINE_FILL)
         if note:
             b.text(ws, r, 6, note, font=ITALIC)
         if fraction and not engine:
@@ -85,7 +101,43 @@ class InputSheet:
         if name:
             b.name(name, ws, absolute(2, r))
             self.cells[name] = (r, 2)
+            if isinstance(value, str):
+                b.text(ws, r, 7, value, font=ITALIC)
+            else:
+                b.num(ws, r, 7, value, fmt, font=ITALIC)
+            b.formula(ws, r, 8, f"IF(EXACT(B{r}&\"\",G{r}&\"\"),0,1)", "int")
+            if locked:
+                self.locked_rows.append(r)
         return c
+
+    def _exported(self, first: int, last: int, ncols: int):
+        """Each row of an input table keeps its values as exported (columns J on, grouped and closed: the
+        flag's working, not printed) and a changed flag (H)."""
+        ws = self.ws
+        for i in range(1, ncols + 1):
+            dim = ws.column_dimensions[get_column_letter(9 + i)]
+            dim.outlineLevel, dim.hidden = 1, True
+        for r in range(first, last + 1):
+            parts = []
+            for i in range(1, ncols + 1):
+                v = ws.cell(r, i).value
+                k = 9 + i
+                if v is not None:
+                    if isinstance(v, str):
+                        self.b.text(ws, r, k, v, font=ITALIC)
+                    else:
+                        self.b.num(ws, r, k, v, font=ITALIC)
+                col, exp = get_column_letter(i), get_column_letter(k)
+                parts.append(f'EXACT({col}{r}&"",{exp}{r}&"")')
+            self.b.formula(ws, r, 8, f"IF(AND({','.join(parts)}),0,1)", "int")
+
+    def whole(self, name: str, low: int, high: int):
+        """A whole number between ``low`` and ``high`` (data validation)."""
+        r, col = self.cells[name]
+        dv = DataValidation(type="whole", operator="between", formula1=str(low), formula2=str(high),
+                            allow_blank=False, showErrorMessage=True, error=f"A whole number from {low} to {high}")
+        self.ws.add_data_validation(dv)
+        dv.add(self.ws.cell(r, col))
 
     def list_choice(self, name: str, options):
         r, col = self.cells[name]
@@ -121,12 +173,59 @@ class InputSheet:
                     self.ws.cell(self.row, i).number_format = FORMATS[fmts[i - 1]]
             self.row += 1
         last = max(first, self.row - 1)
+        if not engine:
+            self._exported(first, last, len(columns))
         for col, nm in names.items():
             self.b.name(nm, self.ws, f"{absolute(col, first)}:{absolute(col, last)}")
         return first, last
 
 
-def write_inputs(book: Book, report) -> InputSheet:
+def write_wind_and_turbine(inp: InputSheet, scn, e) -> None:
+    """The wind and turbine inputs, locked: the gross AEP is the engine's integral over them."""
+    w, t = scn.wind, scn.turbine
+    v = inp.value
+    why = "locked: the gross AEP integrates over it (re-run lcoe to change it)"
+    inp.head("Wind and turbine (locked: the gross AEP per turbine is the engine's integral over them)")
+    v("wind_height_m", "Measurement height", w.height_m, "m", "wind.height_m", "price", why, locked=True)
+    if w.mean_speed_mps is not None:
+        v("wind_mean_speed_mps", "Mean wind speed at the measurement height", w.mean_speed_mps, "m/s",
+          "wind.mean_speed_mps", "price", why, locked=True)
+    if w.weibull_scale_mps is not None:
+        v("wind_weibull_scale_mps", "Weibull scale A at the measurement height", w.weibull_scale_mps, "m/s",
+          "wind.weibull_scale_mps", "price", why, locked=True)
+    if w.weibull_shape is not None:
+        v("wind_weibull_shape", "Weibull shape k", w.weibull_shape, "-", "wind.weibull_shape", "ratio", why,
+          locked=True)
+    if w.shear_exponent is not None:
+        v("wind_shear_exponent", "Shear exponent", w.shear_exponent, "-", "wind.shear_exponent", "rate", why,
+          locked=True)
+    if w.roughness_length_m is not None:
+        v("wind_roughness_length_m", "Roughness length", w.roughness_length_m, "m", "wind.roughness_length_m",
+          "rate", why, locked=True)
+    v("wind_elevation_m", "Site elevation", w.elevation_m, "m", "wind.elevation_m", "price", why, locked=True)
+    v("wind_temperature_c", "Mean air temperature", w.mean_temperature_c, "deg C", "wind.mean_temperature_c",
+      "price", why, locked=True)
+    if w.air_density_kgm3 is not None:
+        v("wind_air_density_kgm3", "Air density (given)", w.air_density_kgm3, "kg/m3", "wind.air_density_kgm3",
+          "density", why, locked=True)
+    v("hub_height_m", "Hub height", t.hub_height_m, "m", "turbine.hub_height_m", "price", why, locked=True)
+    v("rotor_diameter_m", "Rotor diameter", t.rotor_diameter_m, "m", "turbine.rotor_diameter_m", "price", why,
+      locked=True)
+    if t.power_curve is not None:
+        v("", "Power curve file", Path(t.power_curve).name, "", "turbine.power_curve", "text",
+          "the table is on the Energy sheet", engine=True)
+    if w.timeseries is not None:
+        v("", "Wind series file", Path(w.timeseries).name, "", "wind.timeseries", "text", "", engine=True)
+    inp.value("", "Air density at hub", e.air_density_kgm3, "kg/m3", "lcoe.physics.energy", "density",
+              "ISO 2533 standard atmosphere at the hub, unless given", engine=True)
+    inp.value("", "Mean wind speed at hub", e.hub_mean_speed_mps, "m/s", "lcoe.physics.energy", "price",
+              "sheared from the measurement height", engine=True)
+    inp.value("", "Weibull scale A at hub", e.weibull_scale_mps, "m/s", "lcoe.physics.energy", "price", "",
+              engine=True)
+    inp.value("", "Weibull shape k at hub", e.weibull_shape, "-", "lcoe.physics.energy", "ratio", "", engine=True)
+
+
+def write_inputs(book: Book, report, horizon: int) -> InputSheet:
     """The Inputs sheet: the scenario's values, then the marked engine values and the MACRS tables."""
     case = report.case
     scn, e, fl = case.scenario, case.energy, case.flows
@@ -137,10 +236,16 @@ def write_inputs(book: Book, report) -> InputSheet:
 
     inp.head("Project and plant")
     v("lifetime_years", "Operating life", scn.lifetime, "years", "project.lifetime_years", "int",
-      "the yearly columns are laid out for this life: re-export from lcoe to change it")
-    v("turbines", "Turbines", p.turbines, "-", "project.turbines", "int")
+      f"live: 1 to {horizon} years (the yearly sheets run to year {horizon}; an operating mask ends the plant)")
+    inp.whole("lifetime_years", 1, horizon)
+    layout = scn.layout is not None
+    v("turbines", "Turbines", p.turbines, "-", "project.turbines", "int",
+      "locked: the layout sets the turbines and their wakes" if layout else "live: energy, kW and costs follow",
+      locked=layout)
     v("rated_power_kw", "Rated power per turbine", scn.turbine.rated_power_kw, "kW", "turbine.rated_power_kw", "kw",
-      "scales per-kW costs and the capacity factor; the power curve itself is in the engine")
+      "locked: the power curve (Energy sheet) is the engine's; change the turbine in the scenario", locked=True)
+
+    write_wind_and_turbine(inp, scn, e)
 
     inp.head("Energy losses (fractions of gross energy, applied multiplicatively)")
     for k in LOSSES:
@@ -153,7 +258,9 @@ def write_inputs(book: Book, report) -> InputSheet:
 
     inp.head("Availability and degradation")
     v("availability_first_year", "Availability, year 1", scn.availability_first_year, "fraction",
-      "operations.availability_first_year", "pct", fraction=True)
+      "operations.availability_first_year", "pct",
+      "" if o.availability_first_year is not None else "not in the file: follows the mature availability",
+      fraction=True, formula=None if o.availability_first_year is not None else "availability_mature")
     v("availability_mature", "Availability, mature (years 2..)", o.availability_mature, "fraction",
       "operations.availability_mature", "pct", "excludes the component failures below", fraction=True)
     v("ageing_starts_year", "Availability ageing starts after year", o.ageing_starts_year, "year",
@@ -172,7 +279,8 @@ def write_inputs(book: Book, report) -> InputSheet:
     v("land_lease_share_of_revenue", "Land lease", m.land_lease_share_of_revenue, "share of revenue",
       "maintenance.land_lease_share_of_revenue", "pct", fraction=True)
     v("om_escalation", "O&M and decommissioning escalation", scn.escalation, "per year", "maintenance.escalation",
-      "pct", "" if m.escalation is not None else "not in the file: finance.inflation, as the engine uses")
+      "pct", "" if m.escalation is not None else "not in the file: follows the inflation, as the engine does",
+      formula=None if m.escalation is not None else "inflation")
 
     comp_rows = [(x.name, x.failure_rate_per_turbine_year, x.replacement_cost, x.downtime_days)
                  for x in m.component]
@@ -203,11 +311,13 @@ def write_inputs(book: Book, report) -> InputSheet:
     inp.head("Revenue")
     v("ppa_price_per_mwh", "PPA price", r.ppa_price_per_mwh, "{cur}/MWh", "revenue.ppa_price_per_mwh", "price")
     v("ppa_term_years", "PPA term", scn.ppa_term_years, "years", "revenue.ppa_term_years", "int",
-      "" if r.ppa_term_years is not None else "not in the file: the whole life")
+      "" if r.ppa_term_years is not None else "not in the file: follows the life",
+      formula=None if r.ppa_term_years is not None else "lifetime_years")
     v("ppa_escalation", "PPA escalation", r.ppa_escalation, "per year", "revenue.ppa_escalation", "pct")
     v("merchant_price_per_mwh", "Merchant price after the PPA", scn.merchant_price_per_mwh, "{cur}/MWh",
       "revenue.merchant_price_per_mwh", "price",
-      "" if r.merchant_price_per_mwh is not None else "not in the file: the PPA price")
+      "" if r.merchant_price_per_mwh is not None else "not in the file: follows the PPA price",
+      formula=None if r.merchant_price_per_mwh is not None else "ppa_price_per_mwh")
     v("merchant_escalation", "Merchant price escalation", r.merchant_escalation, "per year",
       "revenue.merchant_escalation", "pct")
     v("production_credit_per_mwh", "Production credit", r.production_credit_per_mwh, "{cur}/MWh",
@@ -221,72 +331,92 @@ def write_inputs(book: Book, report) -> InputSheet:
       "project NPV and LCOE")
     v("equity_target_return", "Equity target return, nominal", scn.equity_target_return, "per year",
       "finance.equity_target_return", "pct",
-      "" if f.equity_target_return is not None else "not in the file: the discount rate")
+      "" if f.equity_target_return is not None else "not in the file: follows the discount rate",
+      formula=None if f.equity_target_return is not None else "discount_rate")
     v("tax_rate", "Corporate tax rate", f.tax_rate, "fraction", "finance.tax_rate", "pct", fraction=True)
     v("depreciation_method", "Tax depreciation method", f.depreciation, "", "finance.depreciation", "text",
       "one of: " + ", ".join(DEPRECIATION))
     inp.list_choice("depreciation_method", DEPRECIATION)
     v("depreciation_years", "Depreciation years", f.depreciation_years, "years", "finance.depreciation_years",
       "int", "straight line and declining balance")
+    v("db_factor", "Declining-balance factor", 2.0, "x straight-line rate", "(workbook only)", "ratio",
+      "the engine's declining balance is 2 / N (double declining); a flex of it is the workbook's alone")
+
+    u = scn.uncertainty
+    inp.head("Energy uncertainty (relative standard deviations; combined in quadrature on the Energy sheet)")
+    v("unc_interannual", "Inter-annual variability of the mean speed", u.interannual_speed_sd, "fraction",
+      "uncertainty.interannual_speed_sd", "pct", "shrinks with 1 / N for an N-year mean")
+    inp.table("Long-term speed uncertainty terms", ("Term", "Speed sd [fraction]"),
+              [(x.name, x.sd) for x in u.speed], ("text", "pct"), {2: "unc_speed_sd"}, spare=SPARE_ROWS,
+              note="uncertainty.speed; times the speed sensitivity")
+    derived = list(en.derived_speed_terms(scn)) or [("(none)", 0.0)]
+    inp.table("Speed terms from the data (engine values)", ("Term", "Speed sd [fraction]"), derived,
+              ("text", "pct"), {2: "unc_speed_derived_sd"}, engine=True,
+              note="lcoe.physics.farm.long_term_term: the long-term correction's own term")
+    inp.table("Energy uncertainty terms", ("Term", "Energy sd [fraction]"), [(x.name, x.sd) for x in u.energy],
+              ("text", "pct"), {2: "unc_energy_sd"}, spare=SPARE_ROWS, note="uncertainty.energy")
 
     d = f.debt
     inp.head("Debt terms")
+    v("debt_mode", "Debt mode", "locked", "", "(workbook only)", "text",
+      "locked: the debt and its yearly service as at close are held (a lender's flex); resized: the debt is "
+      "re-sculpted to the inputs (Debt sheet)")
+    inp.list_choice("debt_mode", DEBT_MODES)
     if d is None:
-        note = "no [finance.debt] table in the scenario: all equity"
-        v("sizing_case", "Debt sizing case", "p50", "", "finance.debt.sizing_case", "text", note)
-        v("target_dscr", "Target DSCR at the sizing case", 1.30, "x", "finance.debt.target_dscr", "ratio", note)
-        v("max_gearing", "Maximum gearing", 0.0, "debt / capex", "finance.debt.max_gearing", "pct", note)
-        v("tenor_years", "Tenor", 0, "years", "finance.debt.tenor_years", "int", note)
-        v("interest_rate", "Interest rate", 0.0, "per year", "finance.debt.interest_rate", "pct", note)
-        v("upfront_fee", "Upfront fee", 0.0, "fraction of debt", "finance.debt.upfront_fee", "pct", note)
+        note = "all equity (no [finance.debt] table): locked at zero, a check fails if a term is typed"
+        v("has_debt", "Debt in the scenario", 0, "1 = yes", "finance.debt", "int", note, locked=True)
+        v("sizing_case", "Debt sizing case", "p50", "", "finance.debt.sizing_case", "text", note, engine=True)
+        v("target_dscr", "Target DSCR at the sizing case", 1.30, "x", "finance.debt.target_dscr", "ratio", note,
+          engine=True)
+        v("max_gearing", "Maximum gearing", 0.0, "debt / capex", "finance.debt.max_gearing", "pct", note,
+          engine=True)
+        v("tenor_years", "Tenor", 0, "years", "finance.debt.tenor_years", "int", note, engine=True)
+        v("interest_rate", "Interest rate", 0.0, "per year", "finance.debt.interest_rate", "pct", note, engine=True)
+        v("upfront_fee", "Upfront fee", 0.0, "fraction of debt", "finance.debt.upfront_fee", "pct", note,
+          engine=True)
     else:
+        v("has_debt", "Debt in the scenario", 1, "1 = yes", "finance.debt", "int",
+          "locked: the scenario has a [finance.debt] table", locked=True)
         v("sizing_case", "Debt sizing case", d.sizing_case, "", "finance.debt.sizing_case", "text",
           "one of: " + ", ".join(CASES))
+        inp.list_choice("sizing_case", CASES)
         v("target_dscr", "Target DSCR at the sizing case", d.target_dscr, "x", "finance.debt.target_dscr", "ratio")
         v("max_gearing", "Maximum gearing", d.max_gearing, "debt / capex", "finance.debt.max_gearing", "pct",
           fraction=True)
         v("tenor_years", "Tenor", d.tenor_years, "years", "finance.debt.tenor_years", "int")
-        v("interest_rate", "Interest rate", d.interest_rate, "per year", "finance.debt.interest_rate", "pct")
+        v("interest_rate", "Interest rate", d.interest_rate, "per year", "finance.debt.interest_rate", "pct",
+          "locked mode: the held interest stays; the LLCR discounts at this rate")
         v("upfront_fee", "Upfront fee", d.upfront_fee, "fraction of debt", "finance.debt.upfront_fee", "pct",
           "paid at t = 0; not deductible", fraction=True)
-    inp.list_choice("sizing_case", CASES)
 
     # ---- engine values
     sched = case.schedule
-    target = d.target_dscr if d is not None else 1.30
     inp.head("Engine values: computed by lcoe, held here as marked values",
              ("Item", "Value", "Unit", "Source", "", "Why it is not a formula"))
     v("gross_aep_per_turbine_mwh", "Gross AEP per turbine", float(fl.gross_aep_mwh[0, 0]) / p.turbines, "MWh/yr",
       "lcoe.physics.energy", "mwh", "the Weibull integral (or series mean) over the site power curve", engine=True)
-    v("debt_at_close", "Debt at close", float(fl.debt[0, 0]), "{cur}", "lcoe.finance.debt.size_debt", "money",
-      "converged through the interest-tax circularity; the Checks sheet tests it against the live schedule",
-      engine=True)
-    v("debt_service_scale", "Debt-service scale (gearing cap)", debt_service_scale(sched, target), "-",
-      "lcoe.finance.debt.sculpt", "factor", "1 unless the gearing cap binds; then the share of CFADS / target kept",
-      engine=True)
+    v("speed_sensitivity", "AEP sensitivity to mean speed", e.speed_sensitivity, "dlnE/dlnv", "lcoe.physics.energy",
+      "ratio", "the slope of the gross AEP against the mean speed, from the integral", engine=True)
+    v("debt_held", "Debt at close, held", float(fl.debt[0, 0]), "{cur}", "lcoe.finance.debt.size_debt", "money",
+      "sized at close through the interest-tax circularity; the debt of the locked mode", engine=True)
+    v("debt_fee_held", "Upfront fee at close, held", float(fl.fee[0, 0]), "{cur}", "lcoe.finance.debt.size_debt",
+      "money", "the fee of the locked mode", engine=True)
+    v("interest_rate_held", "Interest rate at close", d.interest_rate if d is not None else 0.0, "per year",
+      "finance.debt.interest_rate", "pct", "the rate the held schedule was sculpted at", engine=True)
+    v("tenor_years_held", "Tenor at close", d.tenor_years if d is not None else 0, "years",
+      "finance.debt.tenor_years", "int", "the tenor the held schedule was sculpted over", engine=True)
+    v("debt_service_scale_held", "Debt-service scale at close (gearing cap)",
+      debt_service_scale(sched, d.target_dscr if d is not None else 1.30), "-", "lcoe.finance.debt.sculpt",
+      "factor", "1 unless the gearing cap bound at close", engine=True)
     v("breakeven_engine", "Break-even PPA price", case.metrics.get("breakeven_ppa_price_per_mwh"), "{cur}/MWh",
-      "lcoe.engine.breakeven_price", "price", "a goal seek that re-sizes the debt at every trial price",
-      engine=True)
-    inp.value("", "Air density at hub", e.air_density_kgm3, "kg/m3", "lcoe.physics.energy", "density", "information",
-              engine=True)
-    inp.value("", "Mean wind speed at hub", e.hub_mean_speed_mps, "m/s", "lcoe.physics.energy", "price", "information",
-              engine=True)
-    inp.value("", "Weibull scale A at hub", e.weibull_scale_mps, "m/s", "lcoe.physics.energy", "price", "information",
-              engine=True)
-    inp.value("", "Weibull shape k", e.weibull_shape, "-", "lcoe.physics.energy", "ratio", "information", engine=True)
-    inp.value("", "AEP sensitivity to mean speed", e.speed_sensitivity, "dlnE/dlnv", "lcoe.physics.energy", "ratio",
-              "information", engine=True)
-    inp.value("", "Energy uncertainty, 1 year", e.sigma_1yr, "fraction", "lcoe.physics.energy", "pct", "information",
-              engine=True)
-    inp.value("", "Energy uncertainty, 10 years", e.sigma_10yr, "fraction", "lcoe.physics.energy", "pct", "information",
-              engine=True)
-    factors = [(k, float(fl.case_factors[k][0, 0])) for k in CASES]
-    inp.table("P-case energy factors (P_case / P50)", ("Case", "Factor", "", "Source"),
-              [(k, x, None, "lcoe.finance.cashflow") for k, x in factors], ("text", "factor", None, "text"),
-              {1: "case_names", 2: "case_factors"}, engine=True,
-              note="P_x = P50 (1 - z_x sigma); sigma from the speed sensitivity and the uncertainty terms")
-    for i, (k, _) in enumerate(factors):
-        book.name(f"factor_{k}", ws, absolute(2, inp.row - len(factors) + i))
+      "lcoe.engine.breakeven_price", "price", "a goal seek that re-sizes the debt at every trial price; shown "
+      "only while every input is as exported", engine=True)
+    L = scn.lifetime
+    held = [(t, float(sched.debt_service[0, t - 1]) if t <= L else 0.0,
+             float(sched.interest[0, t - 1]) if t <= L else 0.0) for t in range(1, horizon + 1)]
+    inp.table("Debt schedule at close, held (the locked mode)", ("Year", "Debt service", "Interest"), held,
+              ("int", "money", "money"), {2: "held_debt_service", 3: "held_interest"}, engine=True,
+              note="lcoe.finance.debt.size_debt: sculpted at close; zero after the tenor")
     n_years = max(len(x) for x in MACRS.values())
     macrs_rows = [(t + 1, *[MACRS[k][t] if t < len(MACRS[k]) else None for k in MACRS]) for t in range(n_years)]
     first, last = inp.table("MACRS depreciation tables, percent of base by year (US IRS Publication 946, "
@@ -294,4 +424,13 @@ def write_inputs(book: Book, report) -> InputSheet:
                             ("int",) + ("rate",) * len(MACRS), {}, engine=True, note="lcoe.finance.tax.MACRS")
     book.name("macrs_table", ws, f"{absolute(2, first)}:{absolute(1 + len(MACRS), last)}")
     book.name("macrs_methods", ws, f"{absolute(2, first - 1)}:{absolute(1 + len(MACRS), first - 1)}")
+    flags = [f"H{r}" for r in inp.locked_rows]
+    changed = inp.row + 1
+    book.text(ws, changed, 1, "Locked values changed (a check fails above 0)", font=BOLD)
+    book.formula(ws, changed, 2, "+".join(flags) if flags else "0", "int")
+    book.name("locked_changed", ws, absolute(2, changed))
+    book.text(ws, changed + 1, 1, "Inputs changed since export (engine-held results are then stale)", font=BOLD)
+    book.formula(ws, changed + 1, 2, f"SUM(H5:H{changed - 1})", "int")
+    book.name("inputs_changed", ws, absolute(2, changed + 1))
+    inp.row = changed + 2
     return inp

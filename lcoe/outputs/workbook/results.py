@@ -47,15 +47,15 @@ def _row_ref(tl: Timeline, key: str, t_from: int, t_to: int) -> Reference:
     return Reference(tl.ws, min_col=T0_COL + t_from, max_col=T0_COL + t_to, min_row=r, max_row=r)
 
 
-def chart_cashflow(cf: Timeline):
-    """Columns of CFADS, debt service and equity cash flow per operating year."""
+def chart_cashflow(cf: Timeline, years: int):
+    """Columns of CFADS, debt service and equity cash flow per operating year (of the life as exported)."""
     ch = BarChart()
     ch.type = "col"
     ch.grouping = "clustered"
     ch.title = "Yearly cash flow, P50 case"
     for key, title in (("cfads", "CFADS"), ("ds", "Debt service"), ("equity", "Equity cash flow")):
-        ch.series.append(Series(_row_ref(cf, key, 1, cf.L), title=title))
-    ch.set_categories(Reference(cf.ws, min_col=T0_COL + 1, max_col=T0_COL + cf.L, min_row=YEAR_ROW,
+        ch.series.append(Series(_row_ref(cf, key, 1, years), title=title))
+    ch.set_categories(Reference(cf.ws, min_col=T0_COL + 1, max_col=T0_COL + years, min_row=YEAR_ROW,
                                 max_row=YEAR_ROW))
     axes(ch, "Year", cf.b.cur)
     ch.y_axis.numFmt = "#,##0"
@@ -67,7 +67,7 @@ def chart_dscr(dt: Timeline, tenor: int):
     """The P50 and sizing-case DSCR against the target over the tenor (none without debt)."""
     if tenor < 1:
         return
-    t_to = min(tenor, dt.L)
+    t_to = min(tenor, dt.H)
     ch = LineChart()
     ch.title = "DSCR against the target"
     for key, title in (("p50_dscr", "DSCR, P50 case"), ("s_dscr", "DSCR, sizing case"), ("target", "Target DSCR")):
@@ -122,6 +122,7 @@ def write_montecarlo(book: Book, mc):
     for key in keys:
         row += 1
         label, unit, fmt = label_of(key, book)
+        label = label.replace(", P50 case", ", distribution over the trials")
         st = rep[key]
         b.text(ws, row, 1, label)
         b.text(ws, row, 2, unit, font=ITALIC)
@@ -202,6 +203,40 @@ def _value_format(v) -> str:
     return "money" if abs(v) >= 1000 else "price" if abs(v) >= 1 else "rate"
 
 
+#: plain words for the scenario keys a tornado moves (other keys: their words, from the key)
+PLAIN = {"capex.turbine_per_kw": "Turbine capex", "capex.balance_of_plant_per_kw": "Balance-of-plant capex",
+         "maintenance.fixed_per_kw_year": "Fixed O&M", "revenue.ppa_price_per_mwh": "PPA price",
+         "revenue.merchant_price_per_mwh": "Merchant price", "finance.discount_rate": "Discount rate",
+         "losses.wake": "Wake loss", "operations.availability_mature": "Availability, mature",
+         "project.lifetime_years": "Operating life", "wind.mean_speed_mps": "Mean wind speed",
+         "wind.weibull_scale_mps": "Weibull scale A", "net_aep_p90_p10_10yr": "Net energy, P90 to P10 (10 years)",
+         "finance.tax_rate": "Tax rate", "finance.debt.interest_rate": "Interest rate"}
+_UNIT_SUFFIX = (("_per_kw_year", "{cur}/kW/yr"), ("_per_turbine_year", "per turbine-year"), ("_per_kw", "{cur}/kW"),
+                ("_per_mwh", "{cur}/MWh"), ("_per_turbine", "{cur}/turbine"), ("_mps", "m/s"), ("_years", "years"),
+                ("_days", "days"), ("_kw", "kW"))
+
+
+def plain_label(key: str, cur: str) -> str:
+    """Plain words and a unit for a tornado input (the scenario key is shown beside it)."""
+    unit = next((u for suffix, u in _UNIT_SUFFIX if key.endswith(suffix)), "")
+    unit = unit.format(cur=cur)
+    if key == "net_aep_p90_p10_10yr":
+        unit = "MWh/yr"
+    if key in PLAIN:
+        words = PLAIN[key]
+    else:
+        parts = key.split(".")
+        last = parts[-1]
+        for suffix, _ in _UNIT_SUFFIX:
+            if last.endswith(suffix):
+                last = last[: -len(suffix)]
+        words = last.replace("_", " ")
+        if len(parts) >= 3 and parts[1] in ("component", "overhaul", "speed", "energy"):
+            words = f"{parts[2]}: {words}"
+        words = words[:1].upper() + words[1:]
+    return f"{words} [{unit}]" if unit else words
+
+
 def write_sensitivity(book: Book, sens) -> None:
     """The Sensitivity sheet: a tornado and a sweep of the mean wind speed (:func:`lcoe.analysis.sensitivity.workbook_set`)."""
     ws = book.sheet(SENSITIVITY)
@@ -209,20 +244,24 @@ def write_sensitivity(book: Book, sens) -> None:
     b.text(ws, 1, 1, "Sensitivity", font=TITLE)
     b.text(ws, 2, 1, "ENGINE VALUES, NOT LIVE: each row is a full lcoe run with one input changed (debt re-sized). "
                      "Re-run lcoe to refresh them.", font=BOLD, fill=ENGINE_FILL)
-    for col, width in zip("ABCDEFGHIJ", (40, 16, 16, 16, 20, 18, 18, 18, 18, 26)):
+    for col, width in zip("ABCDEFGHIJKLMNO", (40, 14, 14, 14, 14, 14, 14, 14, 14, 24, 30, 14, 14, 14, 14)):
         ws.column_dimensions[col].width = width
     label, unit, fmt = label_of(sens.metric, book)
     rows = sens.tornado   # largest swing first
+    also = list((rows[0].get("also") or {}) if rows else {})
     row = 4
     b.text(ws, row, 1, f"Tornado: {label} [{unit}], one input at a time", font=BOLD, fill=HEAD_FILL)
     row += 1
-    heads = ("Input (scenario key)", "Base value", "Low value", "High value", "Metric at low", "Metric at high",
-             "Swing, high - low", "Change at low", "Change at high", "Low and high chosen by")
+    heads = ["Input", "Base value", "Low value", "High value", "Metric at low", "Metric at high",
+             "Swing, high - low", "Change at low", "Change at high", "Low and high chosen by", "Scenario key"]
+    for k in also:
+        lab, un, _ = label_of(k, book)
+        heads += [f"{lab} at low [{un}]", f"{lab} at high [{un}]"]
     _heads(b, ws, row, heads)
     first = row + 1
     for item in rows:
         row += 1
-        b.text(ws, row, 1, item["key"])
+        b.text(ws, row, 1, plain_label(item["key"], book.cur))
         value_fmt = _value_format(item.get("base_value"))
         for j, k in enumerate(("base_value", "low_value", "high_value"), start=2):
             b.num(ws, row, j, item.get(k), value_fmt, fill=ENGINE_FILL)
@@ -234,6 +273,12 @@ def write_sensitivity(book: Book, sens) -> None:
             b.num(ws, row, j, None if v is None or base is None else v - base, fmt, fill=ENGINE_FILL)
         if item.get("basis"):
             b.text(ws, row, 10, item["basis"], font=ITALIC)
+        b.text(ws, row, 11, item["key"], font=ITALIC)
+        for i, k in enumerate(also):
+            lo, hi = (item.get("also") or {}).get(k, (None, None))
+            kfmt = label_of(k, book)[2]
+            b.num(ws, row, 12 + 2 * i, lo, kfmt, fill=ENGINE_FILL)
+            b.num(ws, row, 13 + 2 * i, hi, kfmt, fill=ENGINE_FILL)
     last = row
     if rows:
         ch = BarChart()
@@ -248,10 +293,10 @@ def write_sensitivity(book: Book, sens) -> None:
         ch.x_axis.scaling.orientation = "maxMin"
         ch.x_axis.tickLblPos = "low"
         ch.width, ch.height = 22, max(8.0, 0.7 * len(rows) + 3)
-        ws.add_chart(ch, f"L{first - 1}")
+        ws.add_chart(ch, f"A{last + 3}")
 
     key = sens.sweep_key
-    row += 3
+    row += 3 + (int(max(8.0, 0.7 * len(rows) + 3) * 2) if rows else 0)   # below the tornado chart
     if key is None:
         b.text(ws, row, 1, "Wind-speed sweep: not available for a time-series climate", font=ITALIC)
         return
