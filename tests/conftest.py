@@ -101,3 +101,21 @@ def require_tool(name: str) -> str:
             pytest.fail(f"{name} is required under CI (installed by .ci/run)")
         pytest.skip(f"{name} not installed")
     return path
+
+
+# The app's headline figures: (block, key) in the order shown.
+HEADLINE = [("metrics", "lcoe_nominal_per_mwh"), ("metrics", "lcoe_real_per_mwh"), ("metrics", "project_npv"),
+            ("metrics", "equity_irr"), ("metrics", "min_dscr"), ("metrics", "debt_amount"),
+            ("energy", "net_aep_p50_mwh"), ("energy", "net_aep_p90_1yr_mwh"), ("energy", "net_capacity_factor")]
+
+
+def expected_headline(case) -> dict:
+    """Label -> text of the app's headline figures for an engine case, in the report's labels and formats."""
+    from lcoe.outputs import report as rp
+    cur = case.scenario.project.currency
+    out = {}
+    for block, key in HEADLINE:
+        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
+        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
+        out[f"{name} [{unit.format(cur=cur)}]"] = rp.fmt(value, how)
+    return out

@@ -15,8 +15,9 @@ import zipfile
 from pathlib import Path
 from urllib.parse import urlparse
 
+import numpy as np
 import pytest
-from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, ROOT, make_raw, require_tool
+from conftest import DEMO, DEMO_EQUITY, DEMO_HOURLY, DEMO_LAYOUT, ROOT, expected_headline, make_raw, require_tool
 
 from lcoe import cli
 from lcoe import engine as model
@@ -32,12 +33,10 @@ import streamlit.testing.v1.app_test as app_test_module  # noqa: E402
 
 APP = ROOT / "ui" / "app.py"
 ASSUMPTIONS = ROOT / "assumptions"
-HEADLINE = [("metrics", "lcoe_nominal_per_mwh"), ("metrics", "lcoe_real_per_mwh"), ("metrics", "project_npv"),
-            ("metrics", "equity_irr"), ("metrics", "min_dscr"), ("metrics", "debt_amount"),
-            ("energy", "net_aep_p50_mwh"), ("energy", "net_aep_p90_1yr_mwh"), ("energy", "net_capacity_factor")]
 GROUPS = ["Wind", "Turbine", "Losses and availability", "Lifetime and maintenance", "Costs", "Revenue",
           "Finance and debt"]
-TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Monte Carlo", "Tornado", "Compare", "Yearly table"]
+TABS = ["Energy", "Cash flow and debt", "Lifetime", "Wind speed", "Wind data", "Monte Carlo", "Tornado", "Compare",
+        "Yearly table"]
 
 
 # --------------------------------------------------------------------------- helpers
@@ -81,31 +80,27 @@ def start(**session) -> AppTest:
     return at
 
 
-def expected_headline(case: model.Case) -> dict:
-    """Label -> text of the headline figures, from the engine and the report's formats."""
-    cur = case.scenario.project.currency
-    out = {}
-    for block, key in HEADLINE:
-        name, unit, how = (rp.METRIC_LABELS if block == "metrics" else rp.ENERGY_LABELS)[key]
-        value = case.metrics[key] if block == "metrics" else float(getattr(case.energy, key))
-        out[f"{name} [{unit.format(cur=cur)}]"] = rp.fmt(value, how)
-    return out
-
-
 def shown_headline(at) -> dict:
-    return {m.label: m.value for m in at.metric}
+    """The nine headline figures (drawn first; a Monte Carlo tab adds its own below)."""
+    return {m.label: m.value for m in list(at.metric)[:9]}
 
 
 def input_key(at, dotted: str) -> str:
-    (key,) = [w.key for w in list(at.number_input) + list(at.selectbox)
+    (key,) = [w.key for w in list(at.text_input) + list(at.selectbox)
               if w.key and w.key.startswith("in|") and w.key.split("|", 3)[3] == dotted]
     return key
+
+
+def type_in(at, dotted: str, text):
+    """Type ``text`` into the input of ``dotted`` (as a person types it), without running."""
+    at.text_input(key=input_key(at, dotted)).set_value(str(text))
+    return at
 
 
 def first_inputs(at) -> list[str]:
     """The dotted key of the first widget of each input group, in the order drawn."""
     firsts: dict[int, str] = {}
-    for w in list(at.number_input) + list(at.selectbox):
+    for w in list(at.text_input) + list(at.selectbox):
         if w.key and w.key.startswith("in|"):
             _, _, group, dotted = w.key.split("|", 3)
             firsts.setdefault(int(group), dotted)
@@ -147,9 +142,9 @@ def test_the_layout_demo_shows_its_rose_wakes_and_long_term_on_the_energy_tab():
     assert f"Wake loss of the layout: {100 * e.wake['farm_loss']:.2f} %" in texts
     assert f"r = {e.long_term['r']:.3f}" in texts
     assert len(at.get("vega_lite_chart")) == 3 and len(at.dataframe) == 1     # power curve, energy, rose; turbines
-    keys = [w.key.split("|", 3)[3] for w in at.number_input if w.key and w.key.startswith("in|")]
+    keys = [w.key.split("|", 3)[3] for w in at.text_input if w.key and w.key.startswith("in|")]
     assert "layout.wake_decay_constant" in keys and "losses.wake" not in keys
-    at.number_input(input_key(at, "layout.wake_decay_constant")).set_value(0.05).run()
+    type_in(at, "layout.wake_decay_constant", "0.05").run()
     assert not at.exception and not at.error
     stronger = model.run(sc.load(DEMO_LAYOUT).with_overrides({"layout.wake_decay_constant": 0.05}))
     assert shown_headline(at) == expected_headline(stronger)
@@ -167,15 +162,16 @@ FIRST_CHANGES = [("wind.mean_speed_mps", 8.0, 8.0), ("turbine.hub_height_m", 125
 def test_the_groups_come_in_the_trades_order_with_units():
     at = start()
     assert first_inputs(at) == [k for k, _, _ in FIRST_CHANGES]
-    for w in at.number_input:
-        assert w.label.endswith("]"), f"no unit: {w.label}"
+    for w in at.text_input:
+        if w.key and w.key.startswith("in|"):
+            assert w.label.endswith("]"), f"no unit: {w.label}"
 
 
 @pytest.mark.parametrize("dotted, shown, value", FIRST_CHANGES, ids=GROUPS)
 def test_first_widget_of_each_group_changes_the_headline(dotted, shown, value):
     at = start()
     before = shown_headline(at)
-    at.number_input(key=input_key(at, dotted)).set_value(shown).run()
+    type_in(at, dotted, shown).run()
     assert not at.exception and not at.error
     after = shown_headline(at)
     expected = expected_headline(model.run(sc.load(DEMO).with_overrides({dotted: value})))
@@ -191,7 +187,7 @@ def test_lifetime_and_maintenance_inputs_move_the_figures():
                "maintenance.overhaul.blade refurbishment.year": (14, 14),
                "maintenance.fixed_per_kw_year": (40.0, 40.0)}
     for dotted, (shown, _) in changes.items():
-        at.number_input(key=input_key(at, dotted)).set_value(shown)
+        type_in(at, dotted, shown)
     at.run()
     assert not at.exception and not at.error
     scn = sc.load(DEMO).with_overrides({k: v for k, (_, v) in changes.items()})
@@ -200,24 +196,12 @@ def test_lifetime_and_maintenance_inputs_move_the_figures():
 
 def test_reset_returns_to_the_file():
     at = start()
-    key = input_key(at, "project.lifetime_years")
-    at.number_input(key=key).set_value(30).run()
+    type_in(at, "project.lifetime_years", 30).run()
     assert shown_headline(at) != expected_headline(model.run(sc.load(DEMO)))
     at.button(key="reset").click().run()
     assert not at.exception
     assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))
-    assert at.number_input(key=input_key(at, "project.lifetime_years")).value == 25
-
-
-def test_an_invalid_input_shows_the_loaders_message():
-    at = start()
-    at.number_input(key=input_key(at, "project.lifetime_years")).set_value(10).run()
-    assert not at.exception
-    with pytest.raises(ScenarioError) as err:
-        sc.load(DEMO).with_overrides({"project.lifetime_years": 10})
-    # the loader's line, with the server's folders left out (the app names files as a user knows them)
-    assert [e.value for e in at.error] == [err.value.line().replace(str(ROOT) + "/", "")]
-    assert "must lie within the operating life 1..10" in at.error[0].value
+    assert at.text_input(key=input_key(at, "project.lifetime_years")).value == "25"
 
 
 # --------------------------------------------------------------------------- pin and compare
@@ -225,7 +209,7 @@ def test_an_invalid_input_shows_the_loaders_message():
 def test_pin_then_change_shows_the_change_against_the_pinned_case():
     at = start()
     at.button(key="pin").click().run()
-    at.number_input(key=input_key(at, "maintenance.fixed_per_kw_year")).set_value(45.0).run()
+    type_in(at, "maintenance.fixed_per_kw_year", "45").run()
     assert not at.exception
     pinned = model.run(sc.load(DEMO))
     now = model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 45.0}))
@@ -237,20 +221,21 @@ def test_pin_then_change_shows_the_change_against_the_pinned_case():
     at.session_state["view"] = "Compare"
     at.run()
     table = at.dataframe[0].value.set_index("Figure")
-    assert table.loc["LCOE, nominal [EUR/MWh]", "Pinned"] == f"{pinned.metrics['lcoe_nominal_per_mwh']:.2f}"
-    assert table.loc["LCOE, nominal [EUR/MWh]", "Current"] == f"{now.metrics['lcoe_nominal_per_mwh']:.2f}"
-    assert table.loc["Project NPV [EUR M]", "Change"] == rp.fmt(
+    assert table.loc["LCOE, nominal [EUR/MWh]", "case 1"] == f"{pinned.metrics['lcoe_nominal_per_mwh']:.2f}"
+    assert table.loc["LCOE, nominal [EUR/MWh]", "current"] == f"{now.metrics['lcoe_nominal_per_mwh']:.2f}"
+    assert table.loc["Project NPV [EUR M]", "Current - reference"] == rp.fmt(
         now.metrics["project_npv"] - pinned.metrics["project_npv"], "m")
 
 
 def test_pin_a_variant_of_the_file():
     at = start(view="Compare")
-    at.selectbox(key="variant_pick").set_value("life_30_extension")
+    at.selectbox(key="variant_pick").set_value("life_30_extension").run()
     at.button(key="pin_variant").click().run()
     assert not at.exception
     var = model.run(sc.load(DEMO).variant("life_30_extension"))
     table = at.dataframe[0].value.set_index("Figure")
-    assert table.loc["LCOE, nominal [EUR/MWh]", "Pinned"] == f"{var.metrics['lcoe_nominal_per_mwh']:.2f}"
+    assert table.loc["LCOE, nominal [EUR/MWh]", "variant life_30_extension"] == \
+        f"{var.metrics['lcoe_nominal_per_mwh']:.2f}"
 
 
 # --------------------------------------------------------------------------- downloads
@@ -259,9 +244,8 @@ def test_scenario_download_loads_back_to_the_same_results(media):
     at = start()
     changes = {"project.lifetime_years": 30, "maintenance.fixed_per_kw_year": 41.0}
     for dotted, v in changes.items():
-        at.number_input(key=input_key(at, dotted)).set_value(v)
-    at.number_input(key=input_key(at, "losses.wake")).set_value(9.0)
-    at.run()
+        type_in(at, dotted, v)
+    type_in(at, "losses.wake", "9").run()
     data = download(at, media, "dl_scenario")
     back = sc.from_dict(tomllib.loads(data.decode("utf-8")), source="download.toml", base_dir=ASSUMPTIONS)
     expected = model.run(sc.load(DEMO).with_overrides({**changes, "losses.wake": 0.09}))
@@ -297,7 +281,7 @@ def workbook_download():
         mp.setattr(app_test_module, "MediaFileManager", _Recording)
         at = start()
         for dotted, v in WORKBOOK_CHANGES.items():
-            at.number_input(key=input_key(at, dotted)).set_value(v)
+            type_in(at, dotted, v)
         at.run()
         data = download(at, _Recording.made, "dl_workbook")
     assert zipfile.is_zipfile(io.BytesIO(data))
@@ -462,7 +446,7 @@ def test_upload_with_a_physics_curve_offers_the_turbine_inputs():
     at = _upload(start(), "physics.toml", sc.to_toml(raw).encode())
     assert not at.error
     assert shown_headline(at) == expected_headline(model.run(sc.from_dict(raw, source="physics.toml")))
-    at.number_input(key=input_key(at, "turbine.rotor_diameter_m")).set_value(120.0).run()
+    type_in(at, "turbine.rotor_diameter_m", "120").run()
     raw["turbine"]["rotor_diameter_m"] = 120.0
     assert shown_headline(at) == expected_headline(model.run(sc.from_dict(raw, source="physics.toml")))
 
@@ -479,7 +463,7 @@ def test_monte_carlo_on_demand_matches_the_engine():
     unc = pytest.importorskip("lcoe.analysis.montecarlo")
     at = start(view="Monte Carlo")
     assert not at.dataframe  # nothing until asked
-    at.number_input(key="mc_trials").set_value(2000)
+    at.text_input(key="mc_trials").set_value("2000")
     at.button(key="mc_run").click().run()
     assert not at.exception and not at.error
     scn = sc.load(DEMO)
@@ -489,7 +473,7 @@ def test_monte_carlo_on_demand_matches_the_engine():
     assert table.loc["LCOE, nominal [EUR/MWh]", "P50"] == f"{s['p50']:.2f}"
     assert table.loc["LCOE, nominal [EUR/MWh]", "P90"] == f"{s['p90']:.2f}"
     # a changed input makes the result stale: it is not shown against the new inputs
-    at.number_input(key=input_key(at, "capex.turbine_per_kw")).set_value(1200.0).run()
+    type_in(at, "capex.turbine_per_kw", "1200").run()
     assert not at.dataframe
 
 
@@ -499,7 +483,7 @@ def test_app_command_finds_the_app_and_serves_it_headless():
     app = appcmd.find_app()
     assert app == APP
     argv = appcmd.streamlit_argv(app, 8765, "127.0.0.1")
-    assert argv[1:5] == ["-m", "streamlit", "run", str(APP)]
+    assert argv[1:5] == ["-m", "lcoe.cli.serve", "run", str(APP)]
     opts = dict(zip(argv[5::2], argv[6::2]))
     assert opts == {"--server.headless": "true", "--server.port": "8765", "--server.address": "127.0.0.1",
                     "--browser.gatherUsageStats": "false", "--client.toolbarMode": "minimal",
@@ -545,7 +529,7 @@ def test_a_monte_carlo_run_refused_for_memory_keeps_nothing(monkeypatch):
     from lcoe.analysis import montecarlo as unc
 
     at = start(view="Monte Carlo")
-    at.number_input(key="mc_trials").set_value(2000)
+    at.text_input(key="mc_trials").set_value("2000")
     at.button(key="mc_run").click().run()
     assert "mc" in at.session_state
 
@@ -559,11 +543,455 @@ def test_a_monte_carlo_run_refused_for_memory_keeps_nothing(monkeypatch):
     assert "mc" not in at.session_state          # neither the refused run nor the one before is held
 
 
-def test_the_trials_input_stops_at_the_files_limit():
+def test_a_trial_count_beyond_the_files_limit_is_refused_at_the_field():
     from lcoe.inputs.schema import MAX_TRIALS
 
     at = start(view="Monte Carlo")
-    assert at.number_input(key="mc_trials").max == MAX_TRIALS == 10_000_000
+    at.text_input(key="mc_trials").set_value(str(MAX_TRIALS + 1)).run()
+    assert MAX_TRIALS == 10_000_000
+    assert [e.value for e in at.error] == ["Trials 10,000,001: from 100 to 10,000,000; the Monte Carlo does not run."]
+    assert at.button(key="mc_run").disabled
+
+
+# --------------------------------------------------------------------------- input that cannot be misread (issue 16)
+
+@pytest.mark.parametrize("dotted, typed, value", [
+    ("maintenance.fixed_per_kw_year", "36,5", 36.5), ("wind.mean_speed_mps", "7,9", 7.9),
+    ("maintenance.fixed_per_kw_year", " 36.5 ", 36.5), ("capex.turbine_per_kw", "0,125e4", 1250.0),
+], ids=["comma O&M", "comma speed", "point", "comma exponent"])
+def test_a_decimal_comma_is_read_as_a_decimal_point(dotted, typed, value):
+    """36,5 means 36.5 (decimal comma, ISO 80000-1 allows either mark), never 365."""
+    at = type_in(start(), dotted, typed).run()
+    assert not at.exception and not at.error
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO).with_overrides({dotted: value})))
+
+
+@pytest.mark.parametrize("typed, why", [
+    ("1,250", "'1,250': could be 1.250 or 1250; write it with a decimal point"),
+    ("1,250.5", "'1,250.5': use one decimal mark and no thousands separators"),
+    ("12 50", "'12 50': is not a number"), ("abc", "'abc': is not a number"), ("", "'': enter a number"),
+], ids=["ambiguous", "both marks", "space", "word", "blank"])
+def test_a_number_that_could_be_misread_is_refused_at_its_field(typed, why):
+    at = start()
+    before = shown_headline(at)
+    type_in(at, "capex.turbine_per_kw", typed).run()
+    assert not at.exception
+    assert [e.value for e in at.sidebar.error] == [f"Turbine price {why}"]
+    assert shown_headline(at) == before                      # the last valid figures stay
+    (warning,) = [w.value for w in at.warning if "Stale" in w.value]
+    assert f"Turbine price {why}" in warning
+
+
+def test_an_out_of_range_value_keeps_the_page_and_speaks_in_the_fields_unit():
+    """Availability 150 %: the schema allows at most 1 (a fraction), shown as 100 % at the field."""
+    at = start(view="Cash flow and debt")
+    type_in(at, "maintenance.fixed_per_kw_year", "40")      # a valid change before the bad one
+    at.run()
+    good = shown_headline(at)
+    assert good == expected_headline(model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 40.0})))
+    type_in(at, "operations.availability_mature", "150").run()
+    assert not at.exception
+    assert [e.value for e in at.sidebar.error] == ["Availability, later years 150 %: at most 100 %"]
+    assert shown_headline(at) == good                        # the last valid inputs, not the file's
+    assert any("Stale" in w.value for w in at.warning)
+    assert len(at.get("vega_lite_chart")) == 3               # the open tab's charts are still drawn
+    texts = " ".join(e.value for e in list(at.error) + list(at.warning))
+    assert str(ROOT) not in texts and "operations.availability_mature" not in texts
+    type_in(at, "operations.availability_mature", "96").run()
+    assert not at.warning or not any("Stale" in w.value for w in at.warning)
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO).with_overrides(
+        {"maintenance.fixed_per_kw_year": 40.0, "operations.availability_mature": 0.96})))
+
+
+def test_a_refusal_across_fields_is_put_at_the_field_it_names():
+    """The loader's cross-check (hub height above the rotor radius) in the field's label and unit."""
+    at = type_in(start(), "turbine.hub_height_m", "60").run()
+    assert not at.exception
+    with pytest.raises(ScenarioError) as err:
+        sc.load(DEMO).with_overrides({"turbine.hub_height_m": 60.0})
+    assert [e.value for e in at.sidebar.error] == [f"Hub height 60 m: {err.value.message}"]
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))
+
+
+def test_parse_number_reads_both_decimal_marks_and_guesses_nothing():
+    from lcoe.ui.inputs import parse_number
+    assert parse_number("36,5") == 36.5 and parse_number("0,125") == 0.125 and parse_number("-2,5") == -2.5
+    assert parse_number("1e3") == 1000.0 and parse_number("15.0", integer=True) == 15
+    for bad in ("1,250", "12,345", "1,2,3", "1.2.3", "nan", "inf", "1,5%", "--1"):
+        with pytest.raises(ValueError):
+            parse_number(bad)
+    with pytest.raises(ValueError):
+        parse_number("15.5", integer=True)
+
+
+# --------------------------------------------------------------------------- one rule for a change of life
+
+@pytest.mark.parametrize("life", [15, 11])
+def test_a_shorter_life_is_adjusted_by_the_engines_rule_and_says_so(life):
+    """Life 15 (tenor 16) and life 11 (overhaul in year 12) are no longer refused: the same rule as the
+    lifetime study (lcoe.analysis.lifetime.life_overrides) adjusts them, stated on screen."""
+    from lcoe.analysis import lifetime
+    at = type_in(start(), "project.lifetime_years", life).run()
+    assert not at.exception and not at.error
+    scn = sc.load(DEMO)
+    over, notes = lifetime.life_overrides(scn, life)
+    assert f"debt tenor shortened from 16 to {life} years to fit a {life}-year life" in notes
+    (info,) = [i.value for i in at.info if i.value.startswith("Operating life")]
+    assert info == f"Operating life {life} years: " + "; ".join(notes) + "."
+    assert shown_headline(at) == expected_headline(model.run(scn.with_overrides(over)))
+    if life == 11:
+        assert "overhaul 'blade refurbishment' in year 12 left out: after a 11-year life" in info
+
+
+# --------------------------------------------------------------------------- Monte Carlo views
+
+def test_monte_carlo_shows_the_lender_probabilities_and_energy_spread_of_the_engine():
+    unc = pytest.importorskip("lcoe.analysis.montecarlo")
+    at = start(view="Monte Carlo")
+    at.text_input(key="mc_trials").set_value("2000")
+    at.button(key="mc_run").click().run()
+    assert not at.exception and not at.error
+    scn = sc.load(DEMO)
+    res = unc.monte_carlo(scn, model.run(scn), trials=2000)
+    rep = res.report()
+    shown = {m.label: m.value for m in at.metric}
+    assert shown["Chance minimum DSCR < 1.00x [%]"] == rp.fmt(rep["prob_min_dscr_below_1"], "pct")
+    assert shown[f"Chance minimum DSCR < target {res.target_dscr:.2f}x [%]"] == rp.fmt(
+        rep["prob_min_dscr_below_target"], "pct")
+    assert shown[f"Chance equity IRR < target {rp.fmt(res.equity_target, 'pct')} % [%]"] == rp.fmt(
+        rep["prob_equity_irr_below_target"], "pct")
+    e = res.stats("net_aep_mean_mwh")
+    assert shown["Net energy, mean year P50 / P90 [MWh/yr]"] == f"{e['p50']:,.0f} / {e['p90']:,.0f}"
+    caption = " ".join(c.value for c in at.caption)
+    assert "the median of the figure is not the figure of the median inputs" in caption
+    assert "The deterministic figures above are the P50 case" not in caption
+    at.selectbox(key="mc_pick").set_value("min_dscr").run()
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    assert f"target {res.target_dscr:.2f}x" in spec and "1.00x: cash just covers debt service" in spec
+
+
+def test_a_refused_trial_count_refuses_the_run():
+    at = start(view="Monte Carlo")
+    at.text_input(key="mc_trials").set_value("50").run()
+    assert [e.value for e in at.error] == ["Trials 50: from 100 to 10,000,000; the Monte Carlo does not run."]
+    assert at.button(key="mc_run").disabled
+    assert "mc" not in at.session_state
+    at.text_input(key="mc_trials").set_value("2,5").run()
+    assert [e.value for e in at.error] == ["Trials '2,5': must be a whole number; the Monte Carlo does not run."]
+
+
+def test_the_workbook_right_after_a_run_holds_its_monte_carlo_sheet(media):
+    openpyxl = pytest.importorskip("openpyxl")
+    at = start(view="Monte Carlo")
+    at.text_input(key="mc_trials").set_value("1000")
+    at.button(key="mc_run").click().run()
+    assert not at.exception and not at.error
+    wb = openpyxl.load_workbook(io.BytesIO(download(at, media, "dl_workbook")))
+    assert "Monte Carlo" in wb.sheetnames
+    ws = wb["Monte Carlo"]
+    cells = [str(c.value) for row in ws.iter_rows(max_row=12) for c in row if c.value is not None]
+    assert any("1,000" in c or c == "1000" for c in cells), cells[:30]
+
+
+# --------------------------------------------------------------------------- own site: uploads and the bundle
+
+def _bundle_zip(at, media) -> bytes:
+    data = download(at, media, "dl_bundle")
+    assert zipfile.is_zipfile(io.BytesIO(data))
+    return data
+
+
+def test_the_bundle_is_accepted_by_lcoe_check_wherever_unpacked_and_keeps_the_comments(media, tmp_path, capsys):
+    at = start()
+    type_in(at, "maintenance.fixed_per_kw_year", "41,5")
+    type_in(at, "project.lifetime_years", "22").run()
+    data = _bundle_zip(at, media)
+    where = tmp_path / "somewhere" / "else"
+    with zipfile.ZipFile(io.BytesIO(data)) as z:
+        names = z.namelist()
+        z.extractall(where)
+    (toml_name,) = [n for n in names if n.endswith(".toml")]
+    assert any(n.endswith("/data/tallowmere_curve.csv") for n in names)
+    path = where / toml_name
+    assert cli.main(["check", str(path)]) == 0, capsys.readouterr().err
+    text = path.read_text(encoding="utf-8")
+    first_comment = DEMO.read_text(encoding="utf-8").splitlines()[0]
+    assert first_comment in text                              # the file's own comments are kept
+    assert "could not be kept" not in text
+    expected = model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 41.5,
+                                                       "project.lifetime_years": 22,
+                                                       "finance.debt.tenor_years": 16}))
+    assert model.run(sc.load(path)).metrics == expected.metrics
+    assert shown_headline(at) == expected_headline(expected)
+
+
+def test_an_upload_of_scenario_curve_and_series_uses_the_uploaded_files():
+    """The hourly demo under new file names, its curve and series uploaded beside it (several files)."""
+    curve = (ROOT / "demo" / "tallowmere_curve.csv").read_bytes()
+    series = (ROOT / "demo" / "tallowmere_wind_hourly.csv").read_bytes()
+    data = DEMO_HOURLY.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"my_curve.csv"').replace(
+        b'"../demo/tallowmere_wind_hourly.csv"', b'"my_site_wind.csv"')
+    assert b"my_site_wind.csv" in data and b"my_curve.csv" in data
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("my_site.toml", data, "application/toml"))
+    at.file_uploader(key="upload_data").set_value([("my_curve.csv", curve, "text/csv"),
+                                                   ("my_site_wind.csv", series, "text/csv")]).run()
+    assert not at.exception and not at.error
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO_HOURLY)))
+
+
+def test_a_bundle_zip_uploads_back_to_the_same_figures(media):
+    at = start(scenario_file=DEMO_HOURLY.name)
+    type_in(at, "capex.turbine_per_kw", "1100").run()
+    data = _bundle_zip(at, media)
+    figures = shown_headline(at)
+    again = start()
+    again.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    again.file_uploader(key="upload").set_value(("bundle.zip", data, "application/zip")).run()
+    assert not again.exception and not again.error
+    assert shown_headline(again) == figures
+
+
+def test_a_zip_without_one_scenario_is_refused_in_one_line():
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w") as z:
+        z.writestr("a.toml", DEMO.read_bytes())
+        z.writestr("b.toml", DEMO.read_bytes())
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("two.zip", buf.getvalue(), "application/zip")).run()
+    assert [e.value for e in at.error] == ["two.zip: must hold exactly one scenario file (.toml), found 2"]
+
+
+# --------------------------------------------------------------------------- wind speed and wind data
+
+def test_the_wind_speed_tab_is_the_engines_sweep_centred_on_the_site():
+    from lcoe.analysis import sensitivity as sens
+    at = start(view="Wind speed")
+    assert not at.exception and not at.error
+    scn = sc.load(DEMO)
+    values = [float(x) for x in np.round(7.4 * np.linspace(0.7, 1.3, 25), 4)]
+    rows = sens.sweep(scn, "wind.mean_speed_mps", values)
+    site = rows[12]
+    assert site["value"] == 7.4
+    caption = " ".join(c.value for c in at.caption)
+    assert f"At the site: {site['elasticity']:.2f}" in caption
+    table = at.dataframe[0].value
+    assert list(table["Elasticity [-]"]) == [f"{r['elasticity']:.2f}" for r in rows]
+    assert float(table.iloc[0, 0]) == pytest.approx(0.7 * 7.4, abs=0.005)
+    assert float(table.iloc[-1, 0]) == pytest.approx(1.3 * 7.4, abs=0.005)
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    assert '"type": "log"' in spec or '"type":"log"' in spec
+
+
+def test_the_wind_data_tab_shows_the_hourly_series():
+    at = start(scenario_file=DEMO_HOURLY.name, view="Wind data")
+    assert not at.exception and not at.error
+    assert len(at.get("vega_lite_chart")) == 4
+    text = " ".join(m.value for m in at.markdown)
+    assert "17,520 of 17,520 steps present (100.0 %)" in text
+
+
+# --------------------------------------------------------------------------- named cases
+
+def _pin(at, name: str):
+    at.text_input(key="pin_name").set_value(name)
+    at.button(key="pin").click().run()
+    assert not at.exception
+    return at
+
+
+def test_three_named_cases_side_by_side_with_the_current_inputs():
+    at = start()
+    _pin(at, "as filed")
+    type_in(at, "maintenance.fixed_per_kw_year", "45").run()
+    _pin(at, "dear O&M")
+    type_in(at, "project.lifetime_years", "30").run()
+    _pin(at, "long life")
+    type_in(at, "capex.turbine_per_kw", "1080").run()
+    at.session_state["view"] = "Compare"
+    at.run()
+    assert not at.exception and not at.error
+    table = at.dataframe[0].value.set_index("Figure")
+    assert list(table.columns) == ["as filed", "dear O&M", "long life", "current", "Current - reference"]
+    scn = sc.load(DEMO)
+    cases = {"as filed": scn, "dear O&M": scn.with_overrides({"maintenance.fixed_per_kw_year": 45.0}),
+             "long life": scn.with_overrides({"maintenance.fixed_per_kw_year": 45.0, "project.lifetime_years": 30}),
+             "current": scn.with_overrides({"maintenance.fixed_per_kw_year": 45.0, "project.lifetime_years": 30,
+                                            "capex.turbine_per_kw": 1080.0})}
+    for name, one in cases.items():
+        assert table.loc["LCOE, nominal [EUR/MWh]", name] == f"{model.run(one).metrics['lcoe_nominal_per_mwh']:.2f}"
+    # the headline's changes are against the last pinned case, unless another is chosen
+    ref = model.run(cases["long life"]).metrics["lcoe_nominal_per_mwh"]
+    now = model.run(cases["current"]).metrics["lcoe_nominal_per_mwh"]
+    assert {m.label: m.delta for m in at.metric}["LCOE, nominal [EUR/MWh]"] == f"{now - ref:+.2f}"
+    at.selectbox(key="against_pick").set_value("as filed").run()
+    first = model.run(cases["as filed"]).metrics["lcoe_nominal_per_mwh"]
+    assert {m.label: m.delta for m in at.metric}["LCOE, nominal [EUR/MWh]"] == f"{now - first:+.2f}"
+    at.selectbox(key="unpin_pick").set_value("dear O&M").run()
+    at.button(key="unpin").click().run()
+    assert list(at.dataframe[0].value.columns) == ["Figure", "as filed", "long life", "current",
+                                                   "Current - reference"]
+
+
+def test_a_variant_of_the_file_loads_into_the_inputs_for_editing():
+    at = start(view="Compare")
+    at.selectbox(key="variant_pick").set_value("life_30_extension").run()
+    at.button(key="load_variant").click().run()
+    assert not at.exception and not at.error
+    var = sc.load(DEMO).variant("life_30_extension")
+    assert shown_headline(at) == expected_headline(model.run(var))
+    assert at.text_input(key=input_key(at, "project.lifetime_years")).value == "30"
+    type_in(at, "maintenance.fixed_per_kw_year", "39").run()      # edit the variant
+    assert shown_headline(at) == expected_headline(model.run(var.with_overrides(
+        {"maintenance.fixed_per_kw_year": 39.0})))
+    # another variant pinned meanwhile is the file's variant, not one on top of the loaded one
+    at.selectbox(key="variant_pick").set_value("preventive_plan").run()
+    at.button(key="pin_variant").click().run()
+    table = at.dataframe[0].value.set_index("Figure")
+    plan = model.run(sc.load(DEMO).variant("preventive_plan"))
+    assert table.loc["LCOE, nominal [EUR/MWh]", "variant preventive_plan"] == \
+        f"{plan.metrics['lcoe_nominal_per_mwh']:.2f}"
+    at.selectbox(key="variant_pick").set_value("(the file as written)").run()
+    at.button(key="load_variant").click().run()
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO)))
+
+
+# --------------------------------------------------------------------------- plain words, search
+
+def test_codes_are_shown_in_plain_words():
+    at = start(view="Cash flow and debt")
+    options = {w.key.split("|", 3)[3]: w.options for w in at.selectbox if w.key and w.key.startswith("in|")}
+    assert options["finance.depreciation"][0] == "Straight line"
+    assert "P90 energy, one year" in options["finance.debt.sizing_case"]
+    shown = " ".join(str(x) for v in options.values() for x in v)
+    assert "_" not in shown
+    caption = " ".join(c.value for c in at.caption)
+    assert "p90_1yr" not in caption and "P90 energy, one year case" in caption
+
+
+def test_the_search_box_shows_only_matching_inputs_and_keeps_the_others():
+    at = start()
+    type_in(at, "maintenance.fixed_per_kw_year", "44").run()
+    at.text_input(key="find").set_value("tenor").run()
+    assert not at.exception and not at.error
+    drawn = [w.key.split("|", 3)[3] for w in at.text_input if w.key and w.key.startswith("in|")]
+    assert drawn == ["finance.debt.tenor_years"]
+    expected = model.run(sc.load(DEMO).with_overrides({"maintenance.fixed_per_kw_year": 44.0}))
+    assert shown_headline(at) == expected_headline(expected)          # the hidden change still counts
+    type_in(at, "finance.debt.tenor_years", "14").run()
+    at.text_input(key="find").set_value("").run()
+    assert at.text_input(key=input_key(at, "maintenance.fixed_per_kw_year")).value == "44"
+    assert shown_headline(at) == expected_headline(model.run(sc.load(DEMO).with_overrides(
+        {"maintenance.fixed_per_kw_year": 44.0, "finance.debt.tenor_years": 14})))
+    at.text_input(key="find").set_value("no such input").run()
+    assert "No input's label holds 'no such input'." in [c.value for c in at.sidebar.caption]
+
+
+def test_the_tornado_names_each_inputs_low_and_high_value():
+    from lcoe.analysis import sensitivity as sens
+    at = start(view="Tornado")
+    rows = sens.tornado(sc.load(DEMO))
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    turbine = next(r for r in rows if r["key"] == "capex.turbine_per_kw")
+    assert f"Turbine price [EUR/kW]: {turbine['low_value']:,.0f} to {turbine['high_value']:,.0f}" in spec
+
+
+# --------------------------------------------------------------------------- the whole journey (issue 16, done when)
+
+def test_a_first_time_user_brings_a_site_pins_cases_runs_the_monte_carlo_and_downloads(media, tmp_path, capsys):
+    """Upload a site (scenario, curve, series), edit lifetime and maintenance, pin three named cases,
+    run the Monte Carlo, read the lender probabilities, download a bundle and a workbook: the bundle
+    passes `lcoe check` elsewhere and gives the figures on screen; the workbook holds the same figures
+    and the Monte Carlo sheet."""
+    openpyxl = pytest.importorskip("openpyxl")
+    unc = pytest.importorskip("lcoe.analysis.montecarlo")
+    curve = (ROOT / "demo" / "tallowmere_curve.csv").read_bytes()
+    series = (ROOT / "demo" / "tallowmere_wind_hourly.csv").read_bytes()
+    data = DEMO_HOURLY.read_bytes().replace(b'"../demo/tallowmere_curve.csv"', b'"curve.csv"').replace(
+        b'"../demo/tallowmere_wind_hourly.csv"', b'"wind.csv"')
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Upload a scenario file...").run()
+    at.file_uploader(key="upload").set_value(("my_site.toml", data, "application/toml"))
+    at.file_uploader(key="upload_data").set_value([("curve.csv", curve, "text/csv"),
+                                                   ("wind.csv", series, "text/csv")]).run()
+    assert not at.exception and not at.error
+    _pin(at, "as uploaded")
+    type_in(at, "project.lifetime_years", "28")
+    type_in(at, "maintenance.fixed_per_kw_year", "39,5").run()
+    _pin(at, "28 years")
+    type_in(at, "maintenance.component.gearbox.failure_rate_per_turbine_year", "0,015").run()
+    _pin(at, "better gearbox")
+    assert [p["name"] for p in at.session_state["pins"]] == ["as uploaded", "28 years", "better gearbox"]
+    at.session_state["view"] = "Monte Carlo"
+    at.run()
+    at.text_input(key="mc_trials").set_value("1000").run()
+    at.button(key="mc_run").click().run()
+    assert not at.exception and not at.error
+    changes = {"project.lifetime_years": 28, "maintenance.fixed_per_kw_year": 39.5,
+               "maintenance.component.gearbox.failure_rate_per_turbine_year": 0.015}
+    scn = sc.load(DEMO_HOURLY).with_overrides(changes)
+    case = model.run(scn)
+    assert shown_headline(at) == expected_headline(case)
+    rep = unc.monte_carlo(scn, case, trials=1000).report()
+    shown = {m.label: m.value for m in at.metric}
+    assert shown["Chance minimum DSCR < 1.00x [%]"] == rp.fmt(rep["prob_min_dscr_below_1"], "pct")
+    # the bundle, unpacked elsewhere
+    with zipfile.ZipFile(io.BytesIO(download(at, media, "dl_bundle"))) as z:
+        z.extractall(tmp_path / "elsewhere")
+        (toml_name,) = [n for n in z.namelist() if n.endswith(".toml")]
+    path = tmp_path / "elsewhere" / toml_name
+    assert cli.main(["check", str(path)]) == 0, capsys.readouterr().err
+    assert expected_headline(model.run(sc.load(path))) == shown_headline(at)
+    # the workbook of the same inputs, with its Monte Carlo sheet
+    wb = openpyxl.load_workbook(io.BytesIO(download(at, media, "dl_workbook")))
+    assert "Monte Carlo" in wb.sheetnames
+    cells = _named_cells(wb)
+    sheet, row, _ = cells["lcoe_nominal_per_mwh"]
+    head = {wb[sheet].cell(10, c).value: c for c in range(1, 8)}
+    assert wb[sheet].cell(row, head["Engine when written"]).value == pytest.approx(
+        case.metrics["lcoe_nominal_per_mwh"], rel=1e-12)
+
+
+def test_a_new_site_starts_from_the_template_and_its_bundle_keeps_the_reference_comments(media, tmp_path, capsys):
+    """The scaffold `lcoe new` writes (lcoe.inputs.reference), run in the app as the engine runs it
+    from the files `lcoe new` writes; edited, its bundle passes `lcoe check` with the comments kept."""
+    at = start()
+    at.selectbox(key="scenario_file").set_value("Start from the template (as lcoe new writes it)").run()
+    assert not at.exception and not at.error
+    assert cli.main(["new", str(tmp_path / "site.toml")]) == 0, capsys.readouterr().err
+    capsys.readouterr()
+    written = sc.load(tmp_path / "site.toml")
+    assert shown_headline(at) == expected_headline(model.run(written))
+    type_in(at, "project.turbines", "12").run()
+    with zipfile.ZipFile(io.BytesIO(download(at, media, "dl_bundle"))) as z:
+        z.extractall(tmp_path / "out")
+        (toml_name,) = [n for n in z.namelist() if n.endswith(".toml")]
+    path = tmp_path / "out" / toml_name
+    assert cli.main(["check", str(path)]) == 0, capsys.readouterr().err
+    text = path.read_text(encoding="utf-8")
+    assert "# Each key has its unit, kind, allowed range and default in the comment above it" in text
+    assert model.run(sc.load(path)).metrics == model.run(written.with_overrides({"project.turbines": 12})).metrics
+
+
+def test_the_wind_speed_tab_of_an_hourly_site_scales_its_record():
+    from lcoe.analysis import wind_data
+    at = start(scenario_file=DEMO_HOURLY.name, view="Wind speed")
+    assert not at.exception and not at.error
+    rows = wind_data.speed_sweep(sc.load(DEMO_HOURLY))
+    assert rows[12]["factor"] == 1.0
+    assert f"At the site: {rows[12]['elasticity']:.2f}" in " ".join(c.value for c in at.caption)
+    table = at.dataframe[0].value
+    assert list(table["Elasticity [-]"]) == [rp.fmt(r["elasticity"], "{:.2f}") for r in rows]
+    assert len(at.get("vega_lite_chart")) == 3
+
+
+def test_warnings_name_data_files_as_a_user_knows_them():
+    at = start(scenario_file=DEMO_LAYOUT.name)
+    lines = [m.value for m in at.markdown if "tallowmere_site_12months.csv" in m.value]
+    assert lines and all("demo/tallowmere_site_12months.csv" in x and "../" not in x and str(ROOT) not in x
+                         for x in lines)
 
 
 def test_the_cash_tab_shows_sources_and_uses_and_the_lender_cases():
@@ -579,3 +1007,26 @@ def test_the_cash_tab_shows_sources_and_uses_and_the_lender_cases():
     assert table.loc["P99 1-yr energy", "Min DSCR"] == rp.fmt(ref["P99 1-yr energy"]["min_dscr"], "{:.3f}")
     (su,) = [d.value for d in at.dataframe if "Uses" in d.value.columns]
     assert su.iloc[0, 0] == "Capex" and "Senior debt" in list(su["Sources"])
+
+
+def test_the_lender_cases_have_their_dscr_by_year_with_the_debt_locked():
+    """The chart's points are the engine's yearly DSCR of each lender case (lcoe.analysis.lender)."""
+    import json
+
+    from lcoe.analysis import lender
+    at = start(view="Cash flow and debt")
+    assert not at.exception and not at.error
+    results = lender.lender_cases(sc.load(DEMO))
+    pa = pytest.importorskip("pyarrow")
+    (chart,) = [c for c in at.get("vega_lite_chart") if "DSCR [x]" in c.proto.spec and '"case"' in c.proto.spec]
+    frames = [pa.ipc.open_stream(d.data.data).read_all().to_pandas() for d in chart.proto.datasets]
+    if chart.proto.data.data:
+        frames.append(pa.ipc.open_stream(chart.proto.data.data).read_all().to_pandas())
+    (data,) = [f for f in frames if {"case", "year", "value"} <= set(f.columns)]
+    points = {(c, int(y)): v for c, y, v in zip(data["case"], data["year"], data["value"])}
+    assert json.loads(chart.proto.spec)["encoding"]["y"]["title"] == "DSCR [x]"
+    for r in results:
+        d = r.flows.dscr.reshape(-1)
+        for t in range(1, d.size):
+            if np.isfinite(d[t]):
+                assert points[(r.case.label, t)] == pytest.approx(float(d[t]), rel=1e-12)

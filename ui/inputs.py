@@ -4,13 +4,25 @@ Wind, turbine, losses and availability, lifetime and maintenance, costs, revenue
 finance and debt; each label carries its unit. Widgets show fractions as percent
 and large sums in thousands or millions; only inputs the user changed become
 dotted-key overrides of the scenario (so an untouched scenario stays exact).
+
+Numbers are typed as text and read by :func:`parse_number`: a decimal comma is read
+as a decimal point ("36,5" is 36.5), a comma that could also separate thousands
+("1,250") is refused, never guessed. A value the scenario cannot take is refused at
+its field, in the field's label and display unit ("Availability, later years 150 %:
+at most 100 %"); the app then keeps the last valid figures (see ``ui/app.py``).
 """
 
 from __future__ import annotations
 
+import math
+import re
+from dataclasses import dataclass, field
+
 import streamlit as st
 
+from lcoe.inputs import keys
 from lcoe.inputs import scenario as sc
+from lcoe.inputs.errors import ScenarioError
 
 # Display units of the inputs: the scenario keeps SI units and fractions 0..1.
 #   pct: shown x 100; m: shown / 1e6; k: shown / 1e3
@@ -114,8 +126,7 @@ def input_groups(scn) -> list[tuple[str, list[dict]]]:
                _f("finance.inflation", "Inflation", "%/yr", 0.1, "%.2f", "pct"),
                _f("finance.equity_target_return", "Equity target return", "%", 0.25, "%.2f", "pct"),
                _f("finance.tax_rate", "Tax rate", "%", 0.5, "%.1f", "pct"),
-               _choice("finance.depreciation", "Tax depreciation",
-                       list(sc.DEPRECIATION_METHODS)),
+               _choice("finance.depreciation", "Tax depreciation", list(sc.DEPRECIATION_METHODS)),
                _i("finance.depreciation_years", "Depreciation period")]
     if scn.finance.debt is not None:
         finance += [_choice("finance.debt.sizing_case", "Debt sized on", list(sc.SIZING_CASES)),
@@ -127,6 +138,21 @@ def input_groups(scn) -> list[tuple[str, list[dict]]]:
     return [("Wind", wind), ("Turbine", turbine), ("Losses and availability", losses),
             ("Lifetime and maintenance", life), ("Costs", costs), ("Revenue", revenue),
             ("Finance and debt", finance)]
+
+
+# Plain words for the codes a scenario uses (shown instead of the code).
+CHOICE_LABELS = {
+    "straight_line": "Straight line", "declining_balance": "Declining balance",
+    "macrs_5": "MACRS, 5 years", "macrs_7": "MACRS, 7 years", "macrs_15": "MACRS, 15 years",
+    "macrs_20": "MACRS, 20 years",
+    "p50": "P50 energy", "p90_1yr": "P90 energy, one year", "p90_10yr": "P90 energy, ten-year mean",
+    "p99_1yr": "P99 energy, one year",
+}
+
+
+def plain(code) -> str:
+    """The plain words for a code of the scenario (the code itself where none are known)."""
+    return CHOICE_LABELS.get(code, str(code).replace("_", " "))
 
 
 def _current_value(scn, spec):
@@ -146,10 +172,10 @@ FOLLOWS = {"operations.availability_first_year": "the later-years availability",
            "wind.shear_exponent": "the default 1/7"}
 
 
-def _help(scn, spec) -> str | None:
-    """A note for a key the file leaves out: it follows another input until the user sets it."""
+def _help(raw: dict, spec) -> str | None:
+    """A note for a key the file (its tables ``raw``) leaves out: it follows another input until the user sets it."""
     try:
-        sc.get_dotted(scn.raw, spec["key"])
+        sc.get_dotted(raw, spec["key"])
         return None
     except KeyError:
         pass
@@ -159,40 +185,211 @@ def _help(scn, spec) -> str | None:
     return "Not set in the file: the scenario default is shown."
 
 
-def input_widgets(scn, token: str) -> dict:
-    """Draw the inputs; return the dotted-key overrides of the values the user changed."""
-    overrides = {}
+# --------------------------------------------------------------------------- numbers as typed
+
+_PLAIN = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
+_THOUSANDS = re.compile(r"[+-]?[1-9]\d{0,2},\d{3}")
+
+
+def parse_number(text: str, integer: bool = False):
+    """The number a person typed: a decimal point or a decimal comma, never a guess.
+
+    "36,5" and "36.5" are 36.5; "1,250" is refused (a decimal comma or a thousands
+    separator?), as are both marks together ("1,250.5"), spaces inside and anything
+    that is not a finite number. An integer field takes whole numbers ("15" or "15.0").
+    Raises ValueError with the reason, in words for the field.
+    """
+    t = str(text).strip()
+    if not t:
+        raise ValueError("enter a number")
+    if "," in t:
+        if "." in t or t.count(",") > 1:
+            raise ValueError("use one decimal mark and no thousands separators")
+        if _THOUSANDS.fullmatch(t):
+            whole, frac = t.split(",")
+            raise ValueError(f"could be {whole}.{frac} or {whole}{frac}; write it with a decimal point")
+        t = t.replace(",", ".")
+    if not _PLAIN.fullmatch(t):
+        raise ValueError("is not a number")
+    v = float(t)
+    if not math.isfinite(v):
+        raise ValueError("is not a finite number")
+    if integer:
+        if v != round(v):
+            raise ValueError("must be a whole number")
+        return int(round(v))
+    return v
+
+
+def _num_text(v: float) -> str:
+    return f"{v:,.10g}".replace(",", "") if abs(v) < 1e15 else f"{v:g}"
+
+
+def text_of(spec, shown) -> str:
+    """The text a field starts with: its value in the field's format, exact where the format would round."""
+    if spec["kind"] == "int":
+        return str(int(shown))
+    text = spec["fmt"] % shown
+    return text if float(text) == shown else _num_text(shown)
+
+
+def _unit(spec) -> str:
+    return "" if spec["unit"] in ("", "-") else f" {spec['unit']}"
+
+
+def field_problem(spec, text: str) -> tuple[object, str | None]:
+    """(value in the scenario's units, None) or (None, the message at the field)."""
+    label = spec["label"]
+    try:
+        x = parse_number(text, spec["kind"] == "int")
+    except ValueError as exc:
+        return None, f"{label} '{str(text).strip()}': {exc}"
+    value = x if spec["kind"] == "int" else _FROM_SHOW[spec["show"]](x)
+    lo, hi, lo_open, hi_open = keys.key_range(spec["key"])
+    show = _TO_SHOW[spec["show"]]
+    unit = _unit(spec)
+    typed = f"{label} {_num_text(x)}{unit}"
+    if value < lo or (lo_open and value == lo):
+        return None, f"{typed}: {'above' if lo_open else 'at least'} {_num_text(show(lo))}{unit}"
+    if value > hi or (hi_open and value == hi):
+        return None, f"{typed}: {'below' if hi_open else 'at most'} {_num_text(show(hi))}{unit}"
+    return value, None
+
+
+# --------------------------------------------------------------------------- the sidebar
+
+@dataclass
+class Drawn:
+    """What the inputs say: the overrides of the changed valid fields, and the refused fields."""
+    overrides: dict = field(default_factory=dict)
+    problems: dict = field(default_factory=dict)     # dotted key -> message at the field
+    slots: dict = field(default_factory=dict)        # dotted key -> the place under its widget
+    groups: dict = field(default_factory=dict)       # dotted key -> its group
+    shown: int = 0                                   # inputs drawn (a search draws fewer)
+
+
+def _matches(spec, words: list[str]) -> bool:
+    hay = f"{spec['label']} {spec['unit']} {spec['key'].replace('.', ' ').replace('_', ' ')}".lower()
+    return all(w in hay for w in words)
+
+
+def input_widgets(scn, token: str, query: str = "") -> Drawn:
+    """Draw the inputs (only those matching ``query`` when it is given); return what they say.
+
+    Every input counts whether drawn or not: the text typed into a field is kept per
+    session (``typed``), so a search that hides a field keeps its value.
+    """
+    store = st.session_state.setdefault("typed", {}).setdefault(token, {})
+    opened = st.session_state.setdefault("opened", set())
+    words = query.lower().split()
+    raw = scn.raw                     # one copy of the file's tables for every field's note
+    out = Drawn()
     for gi, (group, specs) in enumerate(input_groups(scn)):
-        with st.sidebar.expander(group, expanded=gi == 0):
-            if group == "Wind" and scn.wind.timeseries is not None:
-                st.caption(f"Hourly wind series: `{scn.wind.timeseries}`")
-            if group == "Wind" and scn.wind.long_term is not None:
-                st.caption(f"Corrected to the long term against `{scn.wind.long_term.reference}` "
-                           f"({scn.wind.long_term.method.replace('_', ' ')})")
-            if group == "Turbine" and scn.turbine.power_curve is not None:
-                st.caption(f"Power curve table `{scn.turbine.power_curve}`: {scn.turbine.rated_power_kw:,.0f} kW, "
-                           f"rotor {scn.turbine.rotor_diameter_m:g} m")
-            for spec in specs:
-                key = f"in|{token}|{gi}|{spec['key']}"
-                shown = _current_value(scn, spec)
-                label = f"{spec['label']} [{spec['unit']}]" if spec["unit"] else spec["label"]
-                hint = _help(scn, spec)
-                if spec["kind"] == "choice":
-                    opts = list(spec["options"])
-                    value = st.selectbox(label, opts, index=opts.index(shown), key=key, help=hint)
-                    if value != shown:
-                        overrides[spec["key"]] = value
-                    continue
-                if spec["kind"] == "int":
-                    value = st.number_input(label, value=int(shown), step=1, format="%d", key=key, help=hint)
-                    if int(value) != shown:
-                        overrides[spec["key"]] = int(value)
-                    continue
-                value = st.number_input(label, value=float(shown), step=float(spec["step"]), format=spec["fmt"],
-                                        key=key, help=hint)
-                if value != shown:
-                    overrides[spec["key"]] = float(_FROM_SHOW[spec["show"]](value))
-    return overrides
+        texts = {}
+        for spec in specs:
+            wkey = f"in|{token}|{gi}|{spec['key']}"
+            out.groups[spec["key"]] = group
+            shown = _current_value(scn, spec)
+            if spec["kind"] == "choice":
+                texts[spec["key"]] = st.session_state.get(wkey, store.get(spec["key"], shown))
+                continue
+            texts[spec["key"]] = st.session_state.get(wkey, store.get(spec["key"], text_of(spec, shown)))
+            _, problem = field_problem(spec, texts[spec["key"]])
+            if problem:
+                out.problems[spec["key"]] = problem
+        drawn = [s for s in specs if not words or _matches(s, words)]
+        if any(s["key"] in out.problems for s in specs):
+            opened.add(group)
+        if drawn:
+            expanded = gi == 0 or bool(words) or group in opened
+            with st.sidebar.expander(group, expanded=expanded):
+                _notes(scn, group)
+                for spec in drawn:
+                    _draw(raw, spec, f"in|{token}|{gi}|{spec['key']}", texts, store, out)
+        for spec in specs:
+            key = spec["key"]
+            if key in out.problems:
+                continue
+            shown = _current_value(scn, spec)
+            if spec["kind"] == "choice":
+                if texts[key] != shown:
+                    out.overrides[key] = texts[key]
+                continue
+            value, _ = field_problem(spec, texts[key])
+            if texts[key].strip() != text_of(spec, shown) and value != sc.numeric_value(scn, key):
+                out.overrides[key] = value
+    return out
+
+
+def _notes(scn, group: str) -> None:
+    if group == "Wind" and scn.wind.timeseries is not None:
+        st.caption(f"Hourly wind series: `{scn.wind.timeseries}`")
+    if group == "Wind" and scn.wind.long_term is not None:
+        st.caption(f"Corrected to the long term against `{scn.wind.long_term.reference}` "
+                   f"({scn.wind.long_term.method.replace('_', ' ')})")
+    if group == "Turbine" and scn.turbine.power_curve is not None:
+        st.caption(f"Power curve table `{scn.turbine.power_curve}`: {scn.turbine.rated_power_kw:,.0f} kW, "
+                   f"rotor {scn.turbine.rotor_diameter_m:g} m")
+
+
+def _draw(raw: dict, spec, wkey: str, texts: dict, store: dict, out: Drawn) -> None:
+    label = f"{spec['label']} [{spec['unit']}]" if spec["unit"] else spec["label"]
+    hint = _help(raw, spec)
+    key = spec["key"]
+    if spec["kind"] == "choice":
+        opts = list(spec["options"])
+        value = st.selectbox(label, opts, index=opts.index(texts[key]), key=wkey, help=hint, format_func=plain)
+    else:
+        if wkey not in st.session_state:
+            st.session_state[wkey] = texts[key]
+        value = st.text_input(label, key=wkey, help=hint)
+    store[key] = value
+    out.shown += 1
+    out.slots[key] = st.empty()
+    if key in out.problems:
+        out.slots[key].error(out.problems[key])
+
+
+def key_of_error(scn, exc: ScenarioError) -> str | None:
+    """The dotted key of an input the app offers that a loader's message names (list items by name)."""
+    key = exc.key or ""
+    m = re.fullmatch(r"maintenance\.(component|overhaul)\[(\d+)\]\.(\w+)", key)
+    if m:
+        items = getattr(scn.maintenance, m.group(1))
+        i = int(m.group(2))
+        if i < len(items):
+            key = f"maintenance.{m.group(1)}.{items[i].name}.{m.group(3)}"
+    return key
+
+
+def message_at_field(scn, drawn: Drawn, exc: ScenarioError) -> str | None:
+    """The loader's refusal put at the field it names, in the field's label and display unit; None where
+    it names no field of the app."""
+    key = key_of_error(scn, exc)
+    spec = next((s for _, specs in input_groups(scn) for s in specs if s["key"] == key), None)
+    if spec is None:
+        return None
+    text = f"{spec['label']}: {exc.message}"
+    if spec["kind"] != "choice" and isinstance(exc.value, (int, float)) and not isinstance(exc.value, bool):
+        shown = exc.value if spec["kind"] == "int" else _TO_SHOW[spec["show"]](exc.value)
+        text = f"{spec['label']} {_num_text(shown)}{_unit(spec)}: {exc.message}"
+    drawn.problems[key] = text
+    if key in drawn.slots:
+        drawn.slots[key].error(text)
+    return text
+
+
+def value_text(scn, key: str, value) -> str:
+    """A value of a scenario key as its input shows it (display unit and format); others with separators."""
+    spec = next((x for _, specs in input_groups(scn) for x in specs if x["key"] == key), None)
+    if value is None:
+        return "n/a"
+    if spec is None or spec["kind"] == "choice":
+        return f"{value:,.0f}" if isinstance(value, (int, float)) and abs(value) >= 100 else f"{value:g}"
+    if spec["kind"] == "int":
+        return str(int(value))
+    shown = _TO_SHOW[spec["show"]](value)
+    return format(shown, "," + spec["fmt"][1:])
 
 
 def labels(scn) -> dict:
@@ -202,5 +399,3 @@ def labels(scn) -> dict:
         for spec in specs:
             out[spec["key"]] = f"{spec['label']} [{spec['unit']}]" if spec["unit"] else spec["label"]
     return out
-
-

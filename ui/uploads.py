@@ -1,7 +1,8 @@
 """Uploaded scenarios in the app, read so that no server file is ever shown.
 
 An uploaded scenario's data files (the power curve, the wind series, the long-term
-reference, the layout's positions; in the file or in a variant) come only from the files uploaded with it, matched by file name, or from the
+reference, the layout's positions; in the file or in a variant) come only from the files
+uploaded with it (several files, or one zip such as the app's bundle), matched by file name, or from the
 bundled demo files; a path naming anything else on the server (an absolute path, a
 ``../..`` climb, a link out of the bundle) is refused before it is opened. Messages shown
 in the browser name the uploaded files, never a server path, and quote file content only
@@ -10,18 +11,22 @@ as the loader's short excerpts.
 
 from __future__ import annotations
 
+import io
 import re
 import shutil
 import tempfile
+import zipfile
 from pathlib import Path, PurePosixPath, PureWindowsPath
 
 from lcoe.demo_files import assumptions_dir, demo_dir
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError, cut
-from lcoe.inputs.paths import MAX_SCENARIO_BYTES
+from lcoe.inputs.paths import MAX_DATA_BYTES, MAX_SCENARIO_BYTES
 from lcoe.inputs.toml import parse_toml_text
+from lcoe.outputs.bundle import data_paths
 
-DATA_KEYS = ("turbine.power_curve", "wind.timeseries", "wind.long_term.reference", "layout.positions")
+MAX_ZIP_FILES = 64
+
 _SAFE_NAME = re.compile(r"[^A-Za-z0-9._ -]")
 
 
@@ -49,24 +54,6 @@ def clear(folder: Path | None) -> None:
         shutil.rmtree(folder, ignore_errors=True)
 
 
-def _data_paths(raw: dict):
-    """(where, dotted key, path) of every data file a scenario names, its variants' included."""
-    for key in DATA_KEYS:
-        *tables, field = key.split(".")
-        table = raw
-        for part in tables:
-            table = table.get(part) if isinstance(table, dict) else None
-        if isinstance(table, dict) and field in table:
-            yield (table, field), key, table[field]
-    variants = raw.get("variants")
-    if isinstance(variants, dict):
-        for name, overrides in variants.items():
-            if isinstance(overrides, dict):
-                for key in DATA_KEYS:
-                    if key in overrides:
-                        yield (overrides, key), f"variants.{name}.{key}", overrides[key]
-
-
 def load_upload(name: str, data: bytes, data_files: dict[str, bytes], folder: Path) -> sc.Scenario:
     """An uploaded scenario, its data files taken from ``data_files`` (name -> bytes) or the bundle.
 
@@ -86,7 +73,7 @@ def load_upload(name: str, data: bytes, data_files: dict[str, bytes], folder: Pa
     clear(folder)
     folder.mkdir(parents=True, exist_ok=True)
     shipped = bundled()
-    for (holder, field), key, rel in list(_data_paths(raw)):
+    for (holder, field), key, rel in list(data_paths(raw)):
         if not isinstance(rel, str):
             continue            # the loader names the wrong type
         wanted = safe_name(rel.replace("\\", "/"), "")
@@ -114,6 +101,40 @@ def public(message, folder: Path | None = None) -> str:
     for pair in roots:
         if pair and pair[0] != "/":
             text = text.replace(pair[0], pair[1])
-    # any other absolute path is shown by its last part only
+    # any other absolute path is shown by its last part only; "assumptions/../demo/x" as "demo/x"
     text = re.sub(r"(?<![\w.])/(?:[^\s/:'\"]+/)+([^\s/:'\"]+)", r"\1", text)
+    text = re.sub(r"(?<![\w./])(?:[\w-]+/\.\./)+", "", text)
     return cut(text, 600)
+
+
+def unzip(name: str, data: bytes) -> tuple[str, bytes, dict[str, bytes]]:
+    """(scenario name, its bytes, the data files by name) of an uploaded zip: exactly one scenario
+    file (.toml) and its data files, anywhere inside; nothing is written, sizes are bounded."""
+    shown = safe_name(name, "upload.zip")
+    try:
+        z = zipfile.ZipFile(io.BytesIO(data))
+    except (zipfile.BadZipFile, ValueError):
+        raise ScenarioError("is not a zip file", file=shown) from None
+    with z:
+        members = [m for m in z.infolist() if not m.is_dir()]
+        if len(members) > MAX_ZIP_FILES:
+            raise ScenarioError(f"holds {len(members)} files; a bundle holds at most {MAX_ZIP_FILES}", file=shown)
+        tomls = [m for m in members if m.filename.lower().endswith(".toml")]
+        if len(tomls) != 1:
+            raise ScenarioError(f"must hold exactly one scenario file (.toml), found {len(tomls)}", file=shown)
+        files: dict[str, bytes] = {}
+        scenario = None
+        for m in members:
+            limit = MAX_SCENARIO_BYTES if m in tomls else MAX_DATA_BYTES
+            if m.file_size > limit:
+                raise ScenarioError(f"member {safe_name(m.filename)!r} is {m.file_size / 2**20:,.0f} MB; the limit "
+                                    f"is {limit // 2**20} MB", file=shown)
+            with z.open(m) as f:
+                body = f.read(limit + 1)
+            if len(body) > limit:
+                raise ScenarioError(f"member {safe_name(m.filename)!r} is larger than it says", file=shown)
+            if m in tomls:
+                scenario = (safe_name(m.filename, "scenario.toml"), body)
+            else:
+                files[safe_name(m.filename, "data.csv")] = body
+    return scenario[0], scenario[1], files

@@ -25,8 +25,9 @@ def find_app() -> Path | None:
 
 
 def streamlit_argv(app: Path, port: int, address: str) -> list[str]:
-    """The command line that serves the app without opening a browser."""
-    return [sys.executable, "-m", "streamlit", "run", str(app),
+    """The command line that serves the app without opening a browser (Streamlit's ``run``, by
+    :mod:`lcoe.cli.serve`, which loads the engine first)."""
+    return [sys.executable, "-m", "lcoe.cli.serve", "run", str(app),
             "--server.headless", "true", "--server.port", str(port), "--server.address", address,
             "--browser.gatherUsageStats", "false", "--client.toolbarMode", "minimal",
             # the app shows every failure as one message; should one escape, no traceback reaches the browser
