@@ -139,11 +139,18 @@ def test_resized_base_equals_the_engine_sizing(books, name):
 
 
 def test_sources_and_uses_are_the_engines(books):
+    """Reference engine: LibreOffice. The live funding passes give the engine's IDC, fees and sources and uses."""
     c = books["lender"]
     f = c.case.flows.funding
     assert math.isclose(named(c.values, "uses_total"), float(f.uses[0]), rel_tol=1e-12)
     assert math.isclose(named(c.values, "sources_total"), float(f.sources[0]), rel_tol=1e-12)
     assert math.isclose(named(c.values, "equity_before_reserves"), float(f.equity[0] - f.dsra[0]), rel_tol=1e-12)
+    for name, want in (("interest_during_construction", f.idc[0]), ("commitment_fee_construction", f.commitment_fee[0]),
+                       ("dsra_initial", f.dsra[0])):
+        assert math.isclose(named(c.values, name), float(want), rel_tol=1e-11), name
+    summary = c.values["Summary"]
+    shown = {summary.cell(r, 4).value: summary.cell(r, 6).value for r in range(11, summary.max_row + 1)}
+    assert all(shown[k] == 0 for k in ("interest_during_construction", "uses_total", "equity_before_reserves"))
 
 
 def test_maintenance_reserve_builds_up_by_hand(books):

@@ -156,11 +156,24 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
             ("O&M, year 1", "opex_year1", "{cur}", "money", float(case.flows.opex[0, 1])),
             ("Decommissioning less salvage, year L", "decommissioning_net", "{cur}", "money",
              float(case.flows.decommissioning[0, -1]))]
+    fund = case.flows.funding
+    if fund is not None:      # the construction period's sources and uses (Debt sheet)
+        rows += [("Construction: interest during construction", "interest_during_construction", "{cur}", "money",
+                  float(fund.idc[0])),
+                 ("Construction: commitment fee", "commitment_fee_construction", "{cur}", "money",
+                  float(fund.commitment_fee[0])),
+                 ("Construction: debt service reserve, first funding", "dsra_initial", "{cur}", "money",
+                  float(fund.dsra[0])),
+                 ("Construction: uses total = sources total", "uses_total", "{cur}", "money", float(fund.uses[0])),
+                 ("Construction: equity before the reserve funding", "equity_before_reserves", "{cur}", "money",
+                  float(fund.equity[0] - fund.dsra[0]))]
     for label, nm, unit, fmt, engine_value in rows:
         row += 1
         b.text(ws, row, 1, label)
         expr = cf.x("opex", 1) if nm == "opex_year1" else nm
-        flag = "checks_ok" if nm.startswith("debt_") and nm != "decommissioning_net" else "project_checks_ok"
+        flag = "checks_ok" if (nm.startswith("debt_") or fund is not None and nm in (
+            "interest_during_construction", "commitment_fee_construction", "dsra_initial", "uses_total",
+            "equity_before_reserves")) else "project_checks_ok"
         b.formula(ws, row, 2, f"IF({flag}=1,{expr},\"{FAILED}\")", fmt)
         if nm == "opex_year1":
             b.name("opex_year1", ws, absolute(2, row))

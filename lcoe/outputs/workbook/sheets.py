@@ -212,7 +212,9 @@ def sources_and_uses(dt: Timeline, scn, cf: Timeline, cells: dict) -> None:
                              ("u_idc", "Uses: interest during construction, capitalised", lambda: cells["idc"]),
                              ("u_cf", "Uses: commitment fee on undrawn debt", lambda: cells["commitment"]),
                              ("u_dsra", "Uses: debt service reserve, first funding at COD", lambda: cells["dsra0"])):
-        dt.single(key, label, "{cur}", expr, "money")
+        dt.single(key, label, "{cur}", expr, "money", name={"u_idc": "interest_during_construction",
+                                                            "u_cf": "commitment_fee_construction",
+                                                            "u_dsra": "dsra_initial"}.get(key))
     dt.single("u_total", "Uses, total", "{cur}",
               "+".join(dt.v(k) for k in ("u_capex", "u_fee", "u_idc", "u_cf", "u_dsra")), "money", name="uses_total")
     dt.single("s_debt", "Sources: debt drawn by COD", "{cur}", lambda: cells["debt_drawn"], "money")
