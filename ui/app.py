@@ -667,8 +667,8 @@ def tab_speed(scn, text, base_dir, source, cur) -> None:
     with a:
         charts.draw(charts.loglog, data=aep, x="speed", xtitle=xtitle + ", log", y="aep",
                     ytitle="Net AEP P50 [MWh/yr], log", color="what", mark_x=now)
-        st.caption("On log-log axes a power law is a straight line; the grey line has slope 3 (energy with the "
-                   "cube of the speed). The model's line is flatter: the power curve reaches rated power.")
+        st.caption("On log-log axes a power law is a straight line: the grey line, the cube of the speed through "
+                   "the site, has slope 3. The model's line is flatter: the power curve reaches rated power.")
     with b:
         charts.draw(charts.lines, data=el, x="speed", xtitle=xtitle, y="elasticity",
                     ytitle="Elasticity d ln AEP / d ln v [-]", mark_x=now)

@@ -134,15 +134,22 @@ def lines(data: pd.DataFrame, x: str, xtitle: str, y: str, ytitle: str, color: s
           mark_x: float | None = None, band: pd.DataFrame | None = None, log: bool = False) -> alt.Chart:
     """One or more lines of ``y`` against ``x`` (split by ``color``); a dashed rule at ``mark_x``;
     ``band`` (x, lo, hi): a vertical bar from lo to hi at x; ``log``: both axes logarithmic."""
-    kind = "log" if log else "linear"
-    enc = {"x": alt.X(f"{x}:Q", title=xtitle, scale=alt.Scale(zero=False, type=kind),
-                      axis=alt.Axis(titleLimit=0)),
-           "y": alt.Y(f"{y}:Q", title=ytitle, scale=alt.Scale(zero=False, type=kind), axis=alt.Axis(titleLimit=0)),
+    def scale(col):
+        if not log:
+            return alt.Scale(zero=False)
+        # a log axis would round out to whole decades and squeeze the data into a corner
+        vals = data[col].dropna()
+        return alt.Scale(type="log", nice=False, domain=[float(vals.min()) * 0.97, float(vals.max()) * 1.03])
+
+    enc = {"x": alt.X(f"{x}:Q", title=xtitle, scale=scale(x), axis=alt.Axis(titleLimit=0)),
+           "y": alt.Y(f"{y}:Q", title=ytitle, scale=scale(y), axis=alt.Axis(titleLimit=0)),
            "tooltip": [alt.Tooltip(f"{x}:Q"), alt.Tooltip(f"{y}:Q", format=",.3f")]}
     if color:
         enc["color"] = alt.Color(f"{color}:N", title=None, legend=alt.Legend(orient="bottom", direction="vertical",
                                                                             labelLimit=0),
-                                 scale=alt.Scale(range=[BLUE, GREY, GREEN, AMBER]))
+                                 # the series keep the data's order: the first is blue, the second grey
+                                 scale=alt.Scale(domain=list(dict.fromkeys(data[color])),
+                                                 range=[BLUE, GREY, GREEN, AMBER]))
         enc["tooltip"].append(f"{color}:N")
     ch = alt.Chart(data).mark_line(point=True).encode(**enc)
     if band is not None:

@@ -47,7 +47,7 @@ from pydantic import Field, ValidationError
 
 from lcoe.inputs import scenario as sc
 from lcoe.inputs.errors import ScenarioError
-from lcoe.inputs.schema import SCHEMA_VERSION, Vary, _Model
+from lcoe.inputs.schema import Vary, _Model
 from lcoe.inputs.toml import parse_toml
 
 PSD_TOL = 1e-10     # the smallest eigenvalue a correlation matrix may have below zero (rounding)
@@ -145,13 +145,7 @@ def from_dict(raw: dict, *, source: str = "<portfolio>", base_dir: Path | str = 
             raise ScenarioError("is a scenario file, not a portfolio (it has no [portfolio] table); run it with "
                                 "lcoe run, or list it in a portfolio file's [[site]]", has_value=False)
         sc._check_finite(raw)
-        version = raw.get("schema_version")
-        if version is None:
-            raise ScenarioError(f"is required (this program reads version {SCHEMA_VERSION})", key="schema_version",
-                                has_value=False)
-        if version != SCHEMA_VERSION or isinstance(version, bool):
-            raise ScenarioError(f"unsupported; this program reads version {SCHEMA_VERSION}",
-                                key="schema_version", value=version)
+        sc.check_version(raw)
         try:
             fields = PortfolioFields.model_validate(raw)
         except ValidationError as err:

@@ -126,6 +126,16 @@ _MESSAGES = {
 }
 
 
+def check_version(raw: dict) -> None:
+    """The file's ``schema_version`` is required and must be the one this program reads."""
+    version = raw.get("schema_version")
+    if version is None:
+        raise ScenarioError(f"is required (this program reads version {SCHEMA_VERSION})", key="schema_version",
+                            has_value=False)
+    if version != SCHEMA_VERSION or isinstance(version, bool):
+        raise ScenarioError(f"unsupported; this program reads version {SCHEMA_VERSION}",
+                            key="schema_version", value=version)
+
 def _dotted(loc: tuple) -> str:
     out = ""
     for part in loc:
@@ -224,13 +234,7 @@ def from_dict(raw: dict, *, source: str = "<scenario>", base_dir: Path | str = "
         if isinstance(cases, dict) and len(cases) > MAX_VARIANTS:
             raise ScenarioError(f"{len(cases)} lender cases; a scenario runs at most {MAX_VARIANTS}",
                                 key="lender_cases", has_value=False)
-        version = raw.get("schema_version")
-        if version is None:
-            raise ScenarioError(f"is required (this program reads version {SCHEMA_VERSION})", key="schema_version",
-                                has_value=False)
-        if version != SCHEMA_VERSION or isinstance(version, bool):
-            raise ScenarioError(f"unsupported; this program reads version {SCHEMA_VERSION}",
-                                key="schema_version", value=version)
+        check_version(raw)
         try:
             scn = Scenario.model_validate(raw)
         except ValidationError as err:
