@@ -71,6 +71,28 @@ def demo_scenario() -> sc.Scenario:
     return sc.load(DEMO)
 
 
+# the sections of the lender structure (construction period, reserves, lock-up, lender cases) and
+# the debt keys that came with it; without them the demo is the model of plain sculpted debt
+LENDER_SECTIONS = ("construction", "reserves", "waterfall", "lender_cases")
+LENDER_DEBT_KEYS = ("target_dscr_merchant",)
+
+
+def plain_demo() -> sc.Scenario:
+    """The demo without its lender structure: capex at t = 0, a full first year, equity = CFADS - debt service."""
+    import tomllib
+    raw = tomllib.loads(DEMO.read_text())
+    for key in LENDER_SECTIONS:
+        raw.pop(key, None)
+    for key in LENDER_DEBT_KEYS:
+        raw["finance"]["debt"].pop(key, None)
+    return sc.from_dict(raw, source=str(DEMO), base_dir=DEMO.parent)
+
+
+@pytest.fixture(scope="session")
+def plain_demo_scenario() -> sc.Scenario:
+    return plain_demo()
+
+
 def require_tool(name: str) -> str:
     """Path of a system tool; skip when missing, except under CI where it must exist."""
     path = shutil.which(name)

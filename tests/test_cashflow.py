@@ -159,10 +159,10 @@ def test_flat_cfads_gives_an_annuity():
     assert not s.gearing_bound[0, 0]
 
 
-def test_present_value_of_debt_service_is_the_debt(demo_scenario):
+def test_present_value_of_debt_service_is_the_debt(plain_demo_scenario):
     """PV at the interest rate of the debt service equals the debt (numpy_financial.npv), here on
     the demo scenario with tax, escalation and a P90 sizing case; the balance ends at zero."""
-    flows, _, _ = model.evaluate(demo_scenario)
+    flows, _, _ = model.evaluate(plain_demo_scenario)
     debt = flows.debt[0, 0]
     assert debt > 0
     assert npf.npv(0.055, flows.debt_service[0]) == pytest.approx(debt, rel=1e-10)

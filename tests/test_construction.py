@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 import pytest
-from conftest import DEMO
+from conftest import DEMO, plain_demo
 
 from lcoe import engine
 from lcoe.finance import construction as build
@@ -81,7 +81,7 @@ def test_dates_and_the_partial_first_year():
 
 @pytest.fixture(scope="module")
 def built():
-    scn = sc.load(DEMO).with_overrides({"construction": {"financial_close": dt.date(2027, 1, 1), "months": 18,
+    scn = plain_demo().with_overrides({"construction": {"financial_close": dt.date(2027, 1, 1), "months": 18,
                                                          "commitment_fee": 0.005},
                                         "reserves": {"dsra_months": 6}})
     return scn, engine.run(scn, breakeven=False)
@@ -92,7 +92,7 @@ def test_the_demo_with_a_construction_period(built):
     is for six months, opening x (1.055^0.5 - 1); the debt repaid by the end of the tenor; the
     sources and uses balance and the equity contribution at t = 0 is the equity of the table."""
     scn, case = built
-    plain = engine.run(sc.load(DEMO), breakeven=False)
+    plain = engine.run(plain_demo(), breakeven=False)
     f, p = case.flows, plain.flows
     assert f.energy_mwh[0, 1] == pytest.approx(0.5 * p.energy_mwh[0, 1], rel=1e-12)
     np.testing.assert_allclose(f.energy_mwh[0, 2:], p.energy_mwh[0, 2:], rtol=1e-12)
@@ -120,10 +120,10 @@ def test_monte_carlo_trials_pay_the_construction_equity(built):
 
 def test_a_drawdown_that_does_not_fit_is_refused():
     with pytest.raises(ScenarioError, match=r"construction.drawdown = .*add up to 1"):
-        sc.load(DEMO).with_overrides({"construction": {"financial_close": dt.date(2027, 1, 1), "months": 6,
+        plain_demo().with_overrides({"construction": {"financial_close": dt.date(2027, 1, 1), "months": 6,
                                                        "drawdown": [0.5, 0.4]}})
     with pytest.raises(ScenarioError, match=r"construction.financial_close = '2027-01-01': must be a date"):
-        sc.load(DEMO).with_overrides({"construction": {"financial_close": "2027-01-01", "months": 6}})
+        plain_demo().with_overrides({"construction": {"financial_close": "2027-01-01", "months": 6}})
 
 
 def test_the_llcr_runs_on_the_debts_clock(built):
@@ -162,7 +162,7 @@ def test_a_locked_debt_keeps_its_first_year(built):
     cannot meet it, and a lender case cannot move the construction period."""
     scn, case = built
     with pytest.raises(ScenarioError, match=r"^construction: must give the locked debt's first operating year"):
-        engine.run(sc.load(DEMO), debt=case)
+        engine.run(plain_demo(), debt=case)
     other = scn.with_overrides({"construction.months": 12})
     with pytest.raises(ScenarioError, match="construction: must give"):
         engine.run(other, debt=case)
@@ -186,14 +186,18 @@ def test_the_compiled_funding_loop_is_the_array_one(monkeypatch, order):
     np.testing.assert_array_equal(build.equity_rows(*args), build.fund(*args).equity)
 
 
-def test_the_workbook_refuses_the_lender_demo_in_one_line(tmp_path):
-    """The workbook does not show the construction period yet: one line naming the table, exit 2,
-    nothing written."""
+def test_the_workbook_refuses_a_cash_sweep_in_one_line(tmp_path):
+    """The workbook shows the construction period, reserves and lock-up, not yet a cash sweep: one line naming
+    the key, exit 2, nothing written."""
     import subprocess
     import sys
     from conftest import ROOT
+    src = tmp_path / "sweep.toml"
+    text = (ROOT / "assumptions" / "tallowmere_ridge_lender.toml").read_text()
+    text = text.replace('../demo/', str(ROOT / "demo") + "/").replace("lockup_dscr = 1.10", "lockup_dscr = 1.10\ncash_sweep = true")
+    src.write_text(text)
     out = tmp_path / "book.xlsx"
-    r = subprocess.run([sys.executable, "-m", "lcoe", "run", str(ROOT / "assumptions" / "tallowmere_ridge_lender.toml"),
-                        "--trials", "0", "--workbook", str(out)], capture_output=True, text=True)
-    assert r.returncode == 2 and not out.exists()
-    assert "construction: the workbook does not yet show this part of the lender structure" in r.stderr
+    r = subprocess.run([sys.executable, "-m", "lcoe", "run", str(src), "--trials", "0", "--workbook", str(out)],
+                       capture_output=True, text=True)
+    assert r.returncode == 2 and not out.exists(), r.stderr
+    assert "waterfall.cash_sweep = true: the workbook does not yet show this part of the lender structure" in r.stderr.lower()

@@ -16,26 +16,12 @@ import tomllib
 from pathlib import Path
 
 import pytest
-from conftest import DEMO
+from conftest import DEMO, plain_demo
 
 from lcoe.analysis import study
 from lcoe.inputs import scenario as sc
 
 FIXTURE = Path(__file__).parent / "data" / "demo_report_before_lender_structure.json"
-# the sections of the lender structure; without them the model is the one before
-NEW_SECTIONS = ("construction", "reserves", "waterfall", "lender_cases")
-NEW_DEBT_KEYS = ("target_dscr_merchant",)
-
-
-def _without_lender_structure() -> sc.Scenario:
-    raw = tomllib.loads(DEMO.read_text())
-    for key in NEW_SECTIONS:
-        raw.pop(key, None)
-    for key in NEW_DEBT_KEYS:
-        raw["finance"]["debt"].pop(key, None)
-    return sc.from_dict(raw, source=str(DEMO), base_dir=DEMO.parent)
-
-
 def _compare(old, new, path="report"):
     if isinstance(old, dict):
         assert isinstance(new, dict), path
@@ -55,7 +41,7 @@ def _compare(old, new, path="report"):
 
 @pytest.fixture(scope="module")
 def report():
-    return json.loads(json.dumps(study.build(_without_lender_structure()).to_dict()))
+    return json.loads(json.dumps(study.build(plain_demo()).to_dict()))
 
 
 def test_the_demo_without_the_lender_structure_gives_todays_report(report):

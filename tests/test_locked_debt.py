@@ -86,15 +86,3 @@ def test_a_trial_batch_meets_the_locked_schedule(demo):
                                   schedule=base.schedule, energy=base.energy)
     np.testing.assert_array_equal(flows.debt_service, np.broadcast_to(base.flows.debt_service, (3, 26)))
     assert m["min_dscr"][0] < m["min_dscr"][1] < m["min_dscr"][2]
-
-
-def test_the_workbook_refuses_a_merchant_target_it_does_not_show(tmp_path):
-    """The workbook's live sizing formula has one target; it refuses rather than show other numbers."""
-    from lcoe.analysis import study
-    from lcoe.outputs import workbook
-    scn = sc.load(DEMO).with_overrides({"finance.debt.target_dscr_merchant": 1.6})
-    rep = study.build(scn, trials=0, variants=False)
-    out = tmp_path / "book.xlsx"
-    with pytest.raises(ScenarioError, match=r"finance.debt.target_dscr_merchant = 1.6: the workbook does not"):
-        workbook.write(rep, out)
-    assert not out.exists()

@@ -151,10 +151,10 @@ def test_dscr_llcr_and_payback_by_hand():
     assert np.isnan(mt.payback_year(np.array([[-100.0, 40.0, 50.0]]))[0])
 
 
-def test_metrics_of_the_demo_against_numpy_financial(demo_scenario):
+def test_metrics_of_the_demo_against_numpy_financial(plain_demo_scenario):
     """Project and equity NPV / IRR of the demo's own flows with numpy-financial; LLCR and
     min DSCR from the yearly lines."""
-    f, m, _ = model.evaluate(demo_scenario)
+    f, m, _ = model.evaluate(plain_demo_scenario)
     assert m["project_npv"][0] == pytest.approx(npf.npv(0.065, f.project_cash_flow[0]), rel=1e-12)
     assert m["equity_npv"][0] == pytest.approx(npf.npv(0.10, f.equity_cash_flow[0]), rel=1e-12)
     assert m["project_irr"][0] == pytest.approx(npf.irr(f.project_cash_flow[0]), abs=1e-10)

@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 import numpy_financial as npf
 import pytest
-from conftest import DEMO
+from conftest import DEMO, plain_demo
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -143,7 +143,7 @@ def test_cash_is_never_created_or_lost(years, seed, months, rate, lockup, k):
 
 @pytest.fixture(scope="module")
 def demo_reserved():
-    scn = sc.load(DEMO).with_overrides({"reserves": {"dsra_months": 6, "maintenance_years": 3,
+    scn = plain_demo().with_overrides({"reserves": {"dsra_months": 6, "maintenance_years": 3,
                                                      "deposit_rate": 0.02},
                                         "waterfall": {"lockup_dscr": 1.10}})
     return scn, engine.run(scn, breakeven=False)
@@ -209,7 +209,7 @@ def test_monte_carlo_reports_the_waterfall_probabilities(demo_reserved):
     assert rep["prob_dsra_drawn"] <= rep["prob_lockup_any_year"]   # a draw needs DSCR < 1 < 1.10
     assert rep["prob_debt_service_unpaid"] <= rep["prob_dsra_drawn"]
     assert rep["expected_cash_trapped"] == pytest.approx(np.mean(w["cash_trapped"]))
-    plain = mc.monte_carlo(sc.load(DEMO), trials=200).report()
+    plain = mc.monte_carlo(plain_demo(), trials=200).report()
     assert "prob_lockup_any_year" not in plain
 
 

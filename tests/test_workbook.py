@@ -644,9 +644,16 @@ def _locked_to(schedule, years):
         a = np.asarray(a)
         return a[:, :years] if years <= L else np.hstack([a, np.zeros((a.shape[0], years - L))])
     assert not np.any(schedule.debt_service[0, min(years, L):])
+    period = None
+    if schedule.period is not None:     # a partial first year: the same first year, full years after it
+        period = np.ones(years)
+        period[0] = schedule.period[0]
+    target = schedule.target_dscr
+    if np.ndim(target) == 2:
+        target = fit(target)
     return replace(schedule, debt_service=fit(schedule.debt_service), interest=fit(schedule.interest),
                    principal=fit(schedule.principal), balance_open=fit(schedule.balance_open),
-                   sizing_cfads=fit(schedule.sizing_cfads))
+                   sizing_cfads=fit(schedule.sizing_cfads), period=period, target_dscr=target)
 
 
 @pytest.fixture(scope="module")
@@ -776,9 +783,12 @@ def test_lender_cases_equal_the_engine_with_the_debt_locked(books):
     """Reference engine: LibreOffice. Each lender case equals the engine's run of the same change with the debt of
     the base case: P-cases as an energy factor (Sample.energy_factor), O&M +10 % on every O&M cost term, availability
     -2 points on the first-year and mature availability, price -10 % on the PPA and merchant prices."""
-    from lcoe.finance.cashflow import Sample
     c = books["demo"]
-    scn, base = c.scn, c.case
+    check_lender_cases(c.values, c.scn, c.case)
+
+
+def lender_case_changes(scn, base):
+    """The default lender cases as engine changes: (overrides, energy factor) of each, in the sheet's order."""
     m, r = scn.maintenance, scn.revenue
     om = {"maintenance.fixed_per_kw_year": 1.1 * m.fixed_per_kw_year,
           "maintenance.insurance_per_kw_year": 1.1 * m.insurance_per_kw_year,
@@ -792,15 +802,21 @@ def test_lender_cases_equal_the_engine_with_the_debt_locked(books):
     f = base.flows.case_factors
     cases = [({}, 1.0), ({}, f["p90_1yr"][0, 0]), ({}, f["p99_1yr"][0, 0]), ({}, f["p90_10yr"][0, 0]), (om, 1.0),
              (av, 1.0), (pr, 1.0), ({**om, **av, **pr}, f["p90_1yr"][0, 0])]
-    for i, (over, factor) in enumerate(cases):
+    return cases
+
+
+def check_lender_cases(values, scn, base):
+    """Each lender case of the sheet equals the engine's locked run of the same change (see the test above)."""
+    from lcoe.finance.cashflow import Sample
+    for i, (over, factor) in enumerate(lender_case_changes(scn, base)):
         over = {k: np.array([v]) for k, v in over.items()}
         flows, met, _ = model.evaluate(scn, overrides=over or None, schedule=base.schedule,
                                        sample=Sample(energy_factor=np.array([[factor]])))
         cover = model.cover_of(flows, met)
         for key in ("min_dscr", "avg_dscr", "llcr"):
-            assert math.isclose(named(c.values, f"lender_case_{i}_{key}"), cover[key], rel_tol=REL), (i, key)
-        assert math.isclose(named(c.values, f"lender_case_{i}_equity_irr"), float(met["equity_irr"][0]), rel_tol=REL)
-        assert named(c.values, f"lender_case_{i}_years_below_1") == cover["years_below_1"], i
+            assert math.isclose(named(values, f"lender_case_{i}_{key}"), cover[key], rel_tol=REL), (i, key)
+        assert math.isclose(named(values, f"lender_case_{i}_equity_irr"), float(met["equity_irr"][0]), rel_tol=REL)
+        assert named(values, f"lender_case_{i}_years_below_1") == cover["years_below_1"], i
 
 
 def test_usd_prints_on_letter():

@@ -11,6 +11,7 @@ from openpyxl.styles import Alignment
 from openpyxl.utils import get_column_letter
 
 from lcoe.engine import METRIC_KEYS
+from lcoe.finance.waterfall import structure_of
 from lcoe.inputs.about import CAUTION, __version__
 from lcoe.inputs.errors import ScenarioError
 from lcoe.outputs.files import write_atomic
@@ -155,11 +156,24 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
             ("O&M, year 1", "opex_year1", "{cur}", "money", float(case.flows.opex[0, 1])),
             ("Decommissioning less salvage, year L", "decommissioning_net", "{cur}", "money",
              float(case.flows.decommissioning[0, -1]))]
+    fund = case.flows.funding
+    if fund is not None:      # the construction period's sources and uses (Debt sheet)
+        rows += [("Construction: interest during construction", "interest_during_construction", "{cur}", "money",
+                  float(fund.idc[0])),
+                 ("Construction: commitment fee", "commitment_fee_construction", "{cur}", "money",
+                  float(fund.commitment_fee[0])),
+                 ("Construction: debt service reserve, first funding", "dsra_initial", "{cur}", "money",
+                  float(fund.dsra[0])),
+                 ("Construction: uses total = sources total", "uses_total", "{cur}", "money", float(fund.uses[0])),
+                 ("Construction: equity before the reserve funding", "equity_before_reserves", "{cur}", "money",
+                  float(fund.equity[0] - fund.dsra[0]))]
     for label, nm, unit, fmt, engine_value in rows:
         row += 1
         b.text(ws, row, 1, label)
         expr = cf.x("opex", 1) if nm == "opex_year1" else nm
-        flag = "checks_ok" if nm.startswith("debt_") and nm != "decommissioning_net" else "project_checks_ok"
+        flag = "checks_ok" if (nm.startswith("debt_") or fund is not None and nm in (
+            "interest_during_construction", "commitment_fee_construction", "dsra_initial", "uses_total",
+            "equity_before_reserves")) else "project_checks_ok"
         b.formula(ws, row, 2, f"IF({flag}=1,{expr},\"{FAILED}\")", fmt)
         if nm == "opex_year1":
             b.name("opex_year1", ws, absolute(2, row))
@@ -192,7 +206,7 @@ def _write_summary(book: Book, report, ws, cf: Timeline):
 
 # --------------------------------------------------------------------------- Checks
 
-def _write_checks(book: Book, ws, cf: Timeline, dt: Timeline):
+def _write_checks(book: Book, ws, en: Timeline, cf: Timeline, dt: Timeline, scn):
     b = book
     b.text(ws, 1, 1, "Checks: live tests of the model (1 = OK, 0 = FAIL)", font=TITLE)
     b.text(ws, 2, 1, "A failed check blanks the results that depend on it (Summary shows \"check failed\"). Scope "
@@ -207,7 +221,8 @@ def _write_checks(book: Book, ws, cf: Timeline, dt: Timeline):
     tenor_end = f"INDEX({close},1,MIN(IF(debt_locked=1,tenor_years_held,tenor_years),lifetime_years)+1)"
     life_end = f"INDEX({close},1,lifetime_years+1)"
     rate = "IF(debt_locked=1,interest_rate_held,interest_rate)"
-    pv_ds = f"NPV({rate},{ds_row})"
+    clock = xref(en.ws, en.span("clock", 1, H))
+    pv_ds = f"SUMPRODUCT({ds_row},(1+{rate})^-{clock})"
     tol = f"{CHECK_TOL}*MAX(debt_at_close,1)"
     years = xref(cf.ws, f"${cf.col(1)}${YEAR_ROW}:${cf.col(H)}${YEAR_ROW}")
 
@@ -230,7 +245,7 @@ def _write_checks(book: Book, ws, cf: Timeline, dt: Timeline):
          "MIN(annual_tax)", "0", "all", "losses are carried forward, not refunded"),
         ("Debt service is paid at the schedule's rate: its present value equals the debt",
          f"IF(ABS({pv_ds}-debt_at_close)<={tol},1,0)", pv_ds, "debt_at_close", "debt",
-         f"<= {CHECK_TOL:g} x debt; locked: at the rate at close"),
+         f"<= {CHECK_TOL:g} x debt, discounted on the debt's clock; locked: at the rate at close"),
         ("Debt repaid at the end of the tenor", f"IF(ABS({tenor_end})<={tol},1,0)", tenor_end, "0", "debt",
          f"closing balance in the last tenor year, <= {CHECK_TOL:g} x debt"),
         ("Debt repaid within the life: no balance and no debt service after it",
@@ -250,6 +265,18 @@ def _write_checks(book: Book, ws, cf: Timeline, dt: Timeline):
         ("Normal quantiles: the constants equal NORM.S.INV", "IF(AND(ABS(z_90-z_90_sheet)<=1E-9,"
          "ABS(z_99-z_99_sheet)<=1E-9),1,0)", "z_90_sheet", "z_90", "all", "1e-9"),
     ]
+    if structure_of(scn) is not None:
+        cons = cf.span("w_cons", 1, H, other=True)
+        checks.append(("Cash waterfall: no cash created or lost in any year", f"IF(SUMPRODUCT(ABS({cons}))<="
+                       f"{CHECK_TOL}*MAX(capex_total,1),1,0)", f"SUMPRODUCT(ABS({cons}))", "0", "debt",
+                       "sum of |conservation row| (Cash flow) <= 1e-9 x capex"))
+    if scn.construction is not None:
+        tol_c = f"{CHECK_TOL}*MAX(capex_total,1)"
+        checks.append(("Construction: sources equal uses", f"IF(ABS(sources_total-uses_total)<={tol_c},1,0)",
+                       "sources_total", "uses_total", "debt", "<= 1e-9 x capex (Debt sheet)"))
+        checks.append(("Construction funding: the debt is drawn in full by COD and the passes converged",
+                       "construction_as_close", "sources_total", "uses_total", "debt",
+                       "debt drawn = debt and the last two passes' IDC and fee agree, <= 1e-9 x capex (Debt sheet)"))
     for key, metric, label in (("project", "project_irr", "Project"), ("equity", "equity_irr", "Equity")):
         res, val = irr_check(key, f"{metric}_raw")
         checks.append((f"{label} IRR: NPV at the IRR is zero", res, f"IF(ISNUMBER({metric}_raw),{val},\"n/a\")", "0",
@@ -299,6 +326,7 @@ NOTES_WIDTH = 110
 
 def _write_notes(book: Book, report, sens_note: str | None):
     ws = book.sheet(NOTES)
+    scn = report.case.scenario
     b = book
     ws.column_dimensions["A"].width = NOTES_WIDTH
     lines = [
@@ -319,6 +347,16 @@ def _write_notes(book: Book, report, sens_note: str | None):
          "reference: the balance is rolled backward from zero at maturity with the interest tax shield in closed "
          "form, and a few passes carry the tax losses and the gearing cap (Debt sheet). The debt capacity of the "
          "current inputs and the headroom are shown in both modes.", None),
+        *([("Lender structure: the construction funding by quarter (Debt sheet, below the yearly lines) is worked "
+            "in a fixed number of passes, each on the last one's interest during construction and commitment fee "
+            "(no circular reference; a check tests that the last two agree). Year 1 runs from the COD to 31 "
+            "December: energy and fixed O&M pro rata, and the debt's interest, sizing and LLCR on the clock of "
+            "elapsed years.", None)] if scn.construction is not None else []),
+        *([("Cash waterfall (Cash flow sheet): deposit interest, maintenance reserve above target released, debt "
+            "service, DSRA then lock-up account drawn, unpaid service funded by the sponsor, DSRA to N/12 of next "
+            "year's service, maintenance reserve towards its build-up target, lock-up test, distributions; every "
+            "balance released in year L. Equity IRR and NPV come from the contribution and the distributions.",
+            None)] if structure_of(scn) is not None else []),
         ("The operating life is live: the yearly sheets run to a fixed horizon and an operating mask ends energy, "
          "revenue and costs after the life; decommissioning falls in year L.", None),
         ("A failed check blanks the results that depend on it (\"check failed\"); the break-even price, Monte "
@@ -398,7 +436,11 @@ def build(report, *, source_sha256: str | None = None) -> Workbook:
     """
     case = report.case
     scn = case.scenario
-    unshown = scn.lender_structure()
+    # the workbook shows the construction period, the reserves, the lock-up test and the merchant target;
+    # a cash sweep (prepayments moving the schedule) is not shown yet
+    unshown = [k for k in scn.lender_structure() if k == "waterfall"
+               and scn.waterfall is not None and scn.waterfall.cash_sweep]
+    unshown = ["waterfall.cash_sweep"] if unshown else []
     if unshown:
         value = _value_at(scn, unshown[0])
         raise ScenarioError("the workbook does not yet show this part of the lender structure; write it "
@@ -419,7 +461,7 @@ def build(report, *, source_sha256: str | None = None) -> Workbook:
     chart_dscr(dt, min(scn.finance.debt.tenor_years, scn.lifetime) if scn.finance.debt is not None else 0)
     _write_summary(book, report, summary, cf)
     if scn.finance.debt is not None:
-        write_lender_cases(book, en, cf)
+        write_lender_cases(book, en, cf, scn)
     if report.montecarlo is not None:
         write_montecarlo(book, report.montecarlo)
     sens_note = None
@@ -427,7 +469,7 @@ def build(report, *, source_sha256: str | None = None) -> Workbook:
         sens_note = "No Sensitivity sheet: left out when this workbook was written."
     else:
         write_sensitivity(book, report.sensitivity)
-    _write_checks(book, book.sheet(CHECKS), cf, dt)
+    _write_checks(book, book.sheet(CHECKS), en, cf, dt, scn)
     _write_notes(book, report, sens_note)
     write_cover(book, cover, report, source_sha256)
     print_setup(book, scn, (en, cf, dt), horizon_of(scn, minimum=0))

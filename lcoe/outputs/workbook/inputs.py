@@ -21,6 +21,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 from lcoe.finance.debt import debt_service_scale
 from lcoe.finance.tax import MACRS
 from lcoe.physics import energy as en
+from lcoe.finance.cashflow import period_share
 from lcoe.outputs.workbook.cells import (
     BLUE,
     BOLD,
@@ -389,6 +390,17 @@ def write_inputs(book: Book, report, horizon: int) -> InputSheet:
         v("upfront_fee", "Upfront fee", d.upfront_fee, "fraction of debt", "finance.debt.upfront_fee", "pct",
           "paid at t = 0; not deductible", fraction=True)
 
+    if d is not None:
+        v("target_dscr_merchant", "Target DSCR in merchant years (after the PPA term)",
+          d.target_dscr if d.target_dscr_merchant is None else d.target_dscr_merchant,
+          "x", "finance.debt.target_dscr_merchant", "ratio",
+          "" if d.target_dscr_merchant is not None else "not in the file: follows the target DSCR",
+          formula=None if d.target_dscr_merchant is not None else "target_dscr")
+    else:
+        v("target_dscr_merchant", "Target DSCR in merchant years", 1.30, "x", "finance.debt.target_dscr_merchant",
+          "ratio", "all equity", engine=True)
+    write_lender_structure(inp, case)
+
     # ---- engine values
     sched = case.schedule
     inp.head("Engine values: computed by lcoe, held here as marked values",
@@ -434,3 +446,43 @@ def write_inputs(book: Book, report, horizon: int) -> InputSheet:
     book.name("inputs_changed", ws, absolute(2, changed + 1))
     inp.row = changed + 2
     return inp
+
+
+def write_lender_structure(inp: InputSheet, case) -> None:
+    """The reserve accounts and the lock-up test (live inputs; locked at zero where the scenario has none),
+    the construction period (locked: its funding is the engine's, Debt sheet) and the share of year 1 in
+    operation (an engine value: one without a construction period)."""
+    scn, v = case.scenario, inp.value
+    res, w, con = scn.reserves, scn.waterfall, scn.construction
+    if res is not None or w is not None:
+        none = "locked at zero: the scenario has no [{}] table"
+        inp.head("Reserve accounts and the cash waterfall (Cash flow sheet)")
+        v("dsra_months", "Debt service reserve: months of the next year's debt service",
+          res.dsra_months if res else 0.0, "months", "reserves.dsra_months", "price",
+          none.format("reserves") if res is None else "funded at operation start, released at maturity",
+          locked=res is None)
+        v("mra_years", "Maintenance reserve: build-up years before each overhaul", res.maintenance_years if res else 0,
+          "years", "reserves.maintenance_years", "int",
+          none.format("reserves") if res is None else "0: no maintenance reserve", locked=res is None)
+        v("deposit_rate", "Interest earned on reserve balances", res.deposit_rate if res else 0.0, "per year",
+          "reserves.deposit_rate", "pct", none.format("reserves") if res is None else "", locked=res is None)
+        v("lockup_dscr", "Lock-up: no distributions below this DSCR", w.lockup_dscr if w else 0.0, "x",
+          "waterfall.lockup_dscr", "ratio", none.format("waterfall") if w is None else "0: no lock-up test",
+          locked=w is None)
+    share = period_share(scn)
+    if con is not None:
+        why = "locked: sets the quarters and the partial first year; change it in the scenario and re-run lcoe"
+        inp.head("Construction period (locked; the funding by quarter is live on the Debt sheet)")
+        v("financial_close", "Financial close", con.financial_close.isoformat(), "date",
+          "construction.financial_close", "text", why, locked=True)
+        v("construction_months", "Months from close to commercial operation", con.months, "months",
+          "construction.months", "int", why, locked=True)
+        v("construction_drawdown", "Capex drawdown profile",
+          con.drawdown if isinstance(con.drawdown, str) else ", ".join(f"{x:g}" for x in con.drawdown), "",
+          "construction.drawdown", "text", why, locked=True)
+        v("construction_funding", "Funding order", con.funding, "", "construction.funding", "text", why, locked=True)
+        v("commitment_fee", "Commitment fee on undrawn debt", con.commitment_fee, "per year",
+          "construction.commitment_fee", "pct", why, locked=True)
+    v("first_year_share", "Share of year 1 in operation (COD to 31 December)", 1.0 if share is None else
+      float(share[0]), "fraction", "lcoe.finance.construction.operating_share", "factor",
+      "energy and the fixed O&M of year 1 pro rata; the debt's clock", engine=True)

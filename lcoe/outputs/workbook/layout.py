@@ -22,6 +22,7 @@ from openpyxl.styles import Alignment
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
+from lcoe.finance.waterfall import structure_of
 from lcoe.inputs.about import CAUTION, __version__
 from lcoe.outputs.workbook.cells import (
     BLUE,
@@ -37,7 +38,10 @@ from lcoe.outputs.workbook.cells import (
     Book,
     Timeline,
     absolute,
+    xref,
 )
+from lcoe.outputs.workbook.reserves import waterfall_block
+from lcoe.outputs.workbook.sheets import partial
 
 BASE_FONT_PT = 11.0    # openpyxl's default font (Calibri 11)
 MIN_PRINT_PT = 8.0     # no printed text below this
@@ -123,7 +127,7 @@ def write_cover(book: Book, ws, report, sha256: str | None, when: datetime | Non
 
 # --------------------------------------------------------------------------- lender cases
 
-def write_lender_cases(book: Book, en: Timeline, cf: Timeline) -> Timeline:
+def write_lender_cases(book: Book, en: Timeline, cf: Timeline, scn) -> Timeline:
     """The Lender cases sheet: a table of the cases and the yearly lines of each (debt locked)."""
     ws = book.sheet(CASES_SHEET)
     H = cf.H
@@ -143,6 +147,10 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline) -> Timeline:
     op = lambda t: cf.x("op", t)  # noqa: E731
     gross = "gross_aep_mwh*loss_factor*(1-downtime_fraction)"
     keys = []
+    # the equity contribution before the reserves, with the debt held at close (with a construction period:
+    # the funding passes of the Debt sheet, which hold that debt in the locked mode; n/a in the resized mode)
+    equity0 = ("(capex_total+debt_fee_held-debt_held)" if scn.construction is None
+               else "IF(debt_locked=1,equity_before_reserves,0)")
     for i, (label, ef, da, omf, pf) in enumerate(LENDER_CASES):
         r = head + 1 + i
         b.text(ws, r, 1, label, font=BOLD)
@@ -157,7 +165,8 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline) -> Timeline:
                 lambda t, da_c=da_c, c=c: f"IF({op(t)}=0,0,MAX(0,MIN(1,IF({y(t)}<=1,availability_first_year,"
                                      f"availability_mature)+{da_c}-{en.x('ageing', t)})))", "pct")
         tl.line(f"{k}_energy", "Net energy", "MWh",
-                lambda t, ef_c=ef_c, c=c: f"IF({op(t)}=0,0,{gross}*{c('avail', t)}*{en.x('degr', t)})*{ef_c}",
+                lambda t, ef_c=ef_c, c=c: f"IF({op(t)}=0,0,{gross}*{c('avail', t)}{partial(scn, en.x('share', t))}"
+                                         f"*{en.x('degr', t)})*{ef_c}",
                 "mwh")
         tl.line(f"{k}_revenue", "Revenue", "{cur}",
                 lambda t, pf_c=pf_c, c=c: f"{c('energy', t)}*({cf.x('price', t)}*{pf_c}+{cf.x('credit', t)})", "money")
@@ -179,17 +188,26 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline) -> Timeline:
         tl.line(f"{k}_ds", "Debt service, held", "{cur}", lambda t, c=c: HELD_DS(t, y), "money")
         tl.line(f"{k}_dscr", "DSCR", "x", lambda t, c=c: f"IF({c('ds', t)}>0,{c('cfads', t)}/{c('ds', t)},\"\")", "ratio",
                 name=f"lender_case_{i}_dscr")
-        tl.line(f"{k}_equity", "Equity cash flow", "{cur}",
-                lambda t, c=c: f"{c('cfads', t)}-{c('ds', t)}-IF({y(t)}=0,capex_total+debt_fee_held-debt_held,0)", "money")
+        if structure_of(scn) is None:
+            tl.line(f"{k}_equity", "Equity cash flow", "{cur}",
+                    lambda t, c=c: f"{c('cfads', t)}-{c('ds', t)}-IF({y(t)}=0,{equity0},0)", "money")
+        else:
+            waterfall_block(tl, f"{k}_w", lambda t, c=c: c("cfads", t), lambda t, c=c: c("ds", t),
+                            lambda t: en.x("share", t), f"-{equity0}", cost_factor=om_c)
+            tl.line(f"{k}_equity", "Equity cash flow (from the waterfall)", "{cur}",
+                    lambda t, c=c: c("wequity", t), "money")
         collapse(ws, [tl.rows[f"{k}_{x}"] for x in ("avail", "energy", "revenue", "opex", "pre", "taxable", "cum",
                                                      "peak", "tax")])
         dscr, eq = tl.span(f"{k}_dscr"), tl.span(f"{k}_equity")
         cfads, ds = tl.span(f"{k}_cfads"), tl.span(f"{k}_ds")
         b.formula(ws, r, 6, f"IF(COUNT({dscr})>0,MIN({dscr}),\"n/a\")", "ratio")
         b.formula(ws, r, 7, f"IF(COUNT({dscr})>0,AVERAGE({dscr}),\"n/a\")", "ratio")
-        b.formula(ws, r, 8, f"IF(debt_held>0,SUMPRODUCT(({ds}>0)*{cfads},(1+interest_rate_held)^-{_years(tl)})"
+        b.formula(ws, r, 8, f"IF(debt_held>0,SUMPRODUCT(({ds}>0)*{cfads},(1+interest_rate_held)^-{xref(en.ws, en.span('clock'))})"
                             f"/debt_held,\"n/a\")", "ratio")
-        b.formula(ws, r, 9, f"IFERROR(IF(AND(MIN({eq})<0,MAX({eq})>0),IRR({eq},0.1),\"n/a\"),\"n/a\")", "pct")
+        irr = f"IFERROR(IF(AND(MIN({eq})<0,MAX({eq})>0),IRR({eq},0.1),\"n/a\"),\"n/a\")"
+        if scn.construction is not None:     # the funding passes hold the debt at close in the locked mode only
+            irr = f"IF(debt_locked=1,{irr},\"locked mode only\")"
+        b.formula(ws, r, 9, irr, "pct")
         b.formula(ws, r, 10, f"COUNTIF({dscr},\"<1\")", "int")
         for j, nm in ((6, "min_dscr"), (7, "avg_dscr"), (8, "llcr"), (9, "equity_irr"), (10, "years_below_1")):
             b.name(f"lender_case_{i}_{nm}", ws, absolute(j, r))
@@ -213,10 +231,6 @@ def write_lender_cases(book: Book, en: Timeline, cf: Timeline) -> Timeline:
 
 def _cell_of(tl: Timeline, k: str):
     return lambda key, t: tl.c(f"{k}_{key}", t)
-
-
-def _years(tl: Timeline) -> str:
-    return f"${tl.col(0)}${YEAR_ROW}:${tl.col(tl.H)}${YEAR_ROW}"
 
 
 def HELD_INTEREST(t: int, y) -> str:  # noqa: N802

@@ -44,9 +44,20 @@ from lcoe.outputs.workbook.cells import (
     Book,
     Timeline,
 )
+from lcoe.finance.cashflow import period_share
+from lcoe.finance.waterfall import structure_of
+from lcoe.outputs.workbook.construction import write_funding
+from lcoe.outputs.workbook.reserves import waterfall_block
 from lcoe.physics.wind import Z_90, Z_99
 
-RESIZE_PASSES = 8   # passes of the backward roll that carry the tax losses (each corrects the last)
+RESIZE_PASSES = 10   # passes of the backward roll that carry the tax losses (each corrects the last)
+
+
+def partial(scn, ref: str) -> str:
+    """``*ref`` (the share of the year in operation) where year 1 is partial, else nothing (the
+    formulas of a scenario without a construction period stay as they were)."""
+    return f"*{ref}" if period_share(scn) is not None else ""
+
 
 # --------------------------------------------------------------------------- Energy
 
@@ -102,11 +113,16 @@ def write_energy(book: Book, scn, horizon: int) -> Timeline:
     en.line("avail", "Availability", "fraction",
             lambda t: f"IF({c('op', t)}=0,0,MAX(0,MIN(1,IF({y(t)}<=1,availability_first_year,availability_mature)"
                       f"-{c('ageing', t)})))", "pct")
+    en.line("share", "Share of the year in operation (year 1 from the COD; first_year_share)", "fraction",
+            lambda t: f"IF({c('op', t)}=0,0,IF({y(t)}=1,first_year_share,1))", "factor", name="operating_share")
+    en.line("clock", "Years from the start of operation to the end of the year (the debt's clock)", "years",
+            lambda t: f"{c('clock', t - 1)}+IF({y(t)}=1,first_year_share,1)", "factor", t0=lambda t: "0",
+            name="debt_clock")
     en.line("degr", "Degradation factor, (1 - d)^(t - 1)", "-",
             lambda t: f"IF({c('op', t)}=0,0,(1-degradation_per_year)^({y(t)}-1))", "factor")
     en.line("energy", "Net energy", "MWh",
-            lambda t: f"IF({c('op', t)}=0,0,gross_aep_mwh*loss_factor*{c('avail', t)}*(1-downtime_fraction)"
-                      f"*{c('degr', t)})", "mwh", bold=True)
+            lambda t: f"IF({c('op', t)}=0,0,gross_aep_mwh*loss_factor*{c('avail', t)}{partial(scn, c('share', t))}"
+                      f"*(1-downtime_fraction)*{c('degr', t)})", "mwh", bold=True)
     en.line("ncf", "Net capacity factor", "fraction",
             lambda t: f"{c('energy', t)}/(plant_kw*{HOURS_PER_YEAR}/1000)", "pct")
     return en
@@ -188,6 +204,31 @@ def write_energy_trace(book: Book, en: Timeline, scn, site) -> int:
 
 # --------------------------------------------------------------------------- Cash flow and Debt
 
+def sources_and_uses(dt: Timeline, scn, cf: Timeline, cells: dict) -> None:
+    """Sources and uses of the construction period (live: the funding passes below the yearly lines,
+    lcoe.outputs.workbook.construction); ``cells`` is filled by ``write_funding`` before rendering."""
+    for key, label, expr in (("u_capex", "Uses: capex", lambda: "capex_total"),
+                             ("u_fee", "Uses: upfront debt fee", lambda: "debt_fee"),
+                             ("u_idc", "Uses: interest during construction, capitalised", lambda: cells["idc"]),
+                             ("u_cf", "Uses: commitment fee on undrawn debt", lambda: cells["commitment"]),
+                             ("u_dsra", "Uses: debt service reserve, first funding at COD", lambda: cells["dsra0"])):
+        dt.single(key, label, "{cur}", expr, "money", name={"u_idc": "interest_during_construction",
+                                                            "u_cf": "commitment_fee_construction",
+                                                            "u_dsra": "dsra_initial"}.get(key))
+    dt.single("u_total", "Uses, total", "{cur}",
+              "+".join(dt.v(k) for k in ("u_capex", "u_fee", "u_idc", "u_cf", "u_dsra")), "money", name="uses_total")
+    dt.single("s_debt", "Sources: debt drawn by COD", "{cur}", lambda: cells["debt_drawn"], "money")
+    dt.single("s_equity", "Sources: equity paid in", "{cur}", lambda: cells["equity_paid"], "money")
+    dt.single("s_total", "Sources, total", "{cur}", f"{dt.v('s_debt')}+{dt.v('s_equity')}", "money",
+              name="sources_total")
+    dt.single("equity", "Equity contribution before the reserves' first funding, uses - debt - reserve", "{cur}",
+              f"uses_total-debt_at_close-{dt.v('u_dsra')}", "money", name="equity_before_reserves")
+    tol = f"{CHECK_TOL}*MAX(capex_total,1)"
+    dt.single("su_same", "Funding converged: debt drawn by COD = the debt, last two passes agree (1 = yes)", "flag",
+              lambda: f"IF(AND(ABS({dt.v('s_debt')}-debt_at_close)<={tol},{cells['change']}<={tol}),1,0)",
+              "flag", name="construction_as_close")
+
+
 def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Timeline]:
     """The Cash flow sheet (P50 case) and the Debt sheet (sizing case, capacity, schedule)."""
     H = en.H
@@ -231,11 +272,12 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
     cf.section("Operating costs")
     cf.line("esc", "Escalation index, (1 + g)^t", "-", lambda t: f"(1+om_escalation)^{y(t)}", "factor")
     cf.line("om_fixed", "Fixed O&M and insurance, year-0 money", "{cur}",
-            lambda t: f"{c('op', t)}*om_fixed_year0", "money")
+            lambda t: f"{c('op', t)}*om_fixed_year0{partial(scn, en.x('share', t))}", "money")
     cf.line("om_fail", "Expected failure repairs, year-0 money", "{cur}",
-            lambda t: f"{c('op', t)}*om_failures_year0", "money")
+            lambda t: f"{c('op', t)}*om_failures_year0{partial(scn, en.x('share', t))}", "money")
     cf.line("om_overhaul", "Planned overhauls, year-0 money", "{cur}",
-            lambda t: f"IF({c('op', t)}=1,SUMIF(overhaul_year,{y(t)},overhaul_cost_per_turbine)*turbines,0)", "money")
+            lambda t: f"IF({c('op', t)}=1,SUMIF(overhaul_year,{y(t)},overhaul_cost_per_turbine)*turbines"
+                      f"{partial(scn, en.x('share', t))},0)", "money")
     cf.line("om_var", "Variable O&M, year-0 money", "{cur}", lambda t: f"variable_per_mwh*{c('energy', t)}",
             "money")
     cf.line("lease", "Land lease, share of revenue", "{cur}",
@@ -320,15 +362,25 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
     dt.single("fee", "Upfront debt fee", "{cur}", "IF(debt_locked=1,debt_fee_held*has_debt,upfront_fee*debt_at_close)",
               "money", name="debt_fee")
     dt.single("gearing", "Gearing, debt / capex", "fraction", "IF(capex_total>0,debt_at_close/capex_total,0)", "pct")
-    dt.single("equity", "Equity at close, capex + fee - debt", "{cur}", "capex_total+debt_fee-debt_at_close",
-              "money")
-    dt.single("shield", "Interest tax shield per unit of balance, tax x rate / target DSCR", "-",
-              "tax_rate*interest_rate/target_dscr", "factor", name="shield_coefficient")
+    if scn.construction is None:
+        dt.single("equity", "Equity at close, capex + fee - debt", "{cur}", "capex_total+debt_fee-debt_at_close",
+                  "money", name="equity_before_reserves")
+    else:
+        funding_cells = {}
+        sources_and_uses(dt, scn, cf, funding_cells)
 
     dt.section("Sizing case (energy x factor, the same prices and costs)")
     dt.line("tenor", "Tenor year within the life (1 = yes)", "flag",
             lambda t: f"IF(AND({yd(t)}>=1,{yd(t)}<=tenor_years,{yd(t)}<=lifetime_years),has_debt,0)", "flag",
             name="tenor_mask")
+    dt.line("rate", "Interest rate of the year, for its length (a partial year 1: (1 + r)^share - 1)", "per year",
+            lambda t: f"IF(AND({yd(t)}=1,first_year_share<1),(1+interest_rate)^first_year_share-1,interest_rate)",
+            "rate", name="annual_interest_rate")
+    dt.line("tgt", "Target DSCR of the year: contracted (t <= PPA term) or merchant", "x",
+            lambda t: f"IF({yd(t)}<=ppa_term_years,target_dscr,target_dscr_merchant)", "ratio",
+            name="annual_target_dscr")
+    dt.line("sh", "Interest tax shield per unit of balance, tax x rate / target DSCR", "-",
+            lambda t: f"tax_rate*{d('rate', t)}/{d('tgt', t)}", "factor", name="shield_coefficient")
     dt.line("s_energy", "Net energy, sizing case", "MWh", lambda t: f"{cf.x('energy', t)}*sizing_factor", "mwh",
             name="sizing_energy_mwh")
     dt.line("s_revenue", "Revenue, sizing case", "{cur}",
@@ -343,7 +395,7 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
     dt.section("Debt capacity: re-sculpted to the current inputs, the balance rolled backward from zero at maturity")
     dt.line("a", "Sculpted service before the interest tax shield, (pre-tax - tax (pre-tax - dep)) / target", "{cur}",
             lambda t: f"IF({d('tenor', t)}=1,({d('s_pre', t)}-tax_rate*({d('s_pre', t)}-{cf.x('depreciation', t)}))"
-                      f"/target_dscr,0)", "money")
+                      f"/{d('tgt', t)},0)", "money")
     last = H
 
     def roll(j, a_key):
@@ -368,13 +420,14 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
             if t == last:
                 return "0"
             n = t + 1
-            return (f"IF({d('tenor', n)}=1,IF({d(a_key, n)}*(1+interest_rate)+shield_coefficient*{d(bk, n)}>=0,"
-                    f"({d(bk, n)}+{k}*{d(a_key, n)})/(1+interest_rate-{k}*shield_coefficient),"
-                    f"{d(bk, n)}/(1+interest_rate)),0)")
+            r, sh = d("rate", n), d("sh", n)
+            return (f"IF({d('tenor', n)}=1,IF({d(a_key, n)}*(1+{r})+{sh}*{d(bk, n)}>=0,"
+                    f"({d(bk, n)}+{k}*{d(a_key, n)})/(1+{r}-{k}*{sh}),"
+                    f"{d(bk, n)}/(1+{r})),0)")
         dt.line(bk, f"Pass {j}: capacity balance at the end of the year, (B_t + a_t) / (1 + r - k) from the next year",
                 "{cur}", back, "money")
         dt.line(f"ds{j}", f"Pass {j}: capacity debt service, s MAX(0, a_t + k B_(t-1))", "{cur}",
-                lambda t: f"IF({d('tenor', t)}=1,{k}*MAX(0,{d(a_key, t)}+shield_coefficient*{d(bk, t - 1)}),0)",
+                lambda t: f"IF({d('tenor', t)}=1,{k}*MAX(0,{d(a_key, t)}+{d('sh', t)}*{d(bk, t - 1)}),0)",
                 "money",
                 t0=lambda t: "0")
 
@@ -382,7 +435,7 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
     for j in range(1, RESIZE_PASSES + 1):
         prev = f"b{j - 1}"
         dt.line(f"tx{j}", f"Pass {j}: sizing-case taxable income with pass {j - 1}'s interest", "{cur}",
-                lambda t, prev=prev: f"{d('s_pre', t)}-{cf.x('depreciation', t)}-interest_rate*{d(prev, t - 1)}",
+                lambda t, prev=prev: f"{d('s_pre', t)}-{cf.x('depreciation', t)}-{d('rate', t)}*{d(prev, t - 1)}",
                 "money", t0=lambda t: "0")
         dt.line(f"cu{j}", f"Pass {j}: cumulative taxable income", "{cur}",
                 lambda t, j=j: f"{d(f'cu{j}', t - 1)}+{d(f'tx{j}', t)}", "money", t0=lambda t, j=j: d(f"tx{j}", t))
@@ -393,7 +446,7 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
                 lambda t, j=j: f"tax_rate*({d(f'pk{j}', t)}-{d(f'pk{j}', t - 1)})-tax_rate*{d(f'tx{j}', t)}", "money",
                 t0=lambda t: "0")
         dt.line(f"a{j}", f"Pass {j}: service before the shield, less that difference / target", "{cur}",
-                lambda t, j=j: f"IF({d('tenor', t)}=1,{d('a', t)}-{d(f'dl{j}', t)}/target_dscr,0)", "money")
+                lambda t, j=j: f"IF({d('tenor', t)}=1,{d('a', t)}-{d(f'dl{j}', t)}/{d('tgt', t)},0)", "money")
         roll(j, f"a{j}")
     fin = RESIZE_PASSES
     dt.pass_rows = [dt.rows[k] for k in dt.rows if re.fullmatch(r"(b|ds|tx|cu|pk|dl|a|sc)\d+", k)]
@@ -407,7 +460,7 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
             t0=lambda t: "0", name="debt_opening")
     dt.line("draw", "Drawdown", "{cur}", lambda t: f"IF({yd(t)}=0,debt_at_close,0)", "money")
     dt.line("interest", "Interest (locked: held; resized: opening x rate)", "{cur}",
-            lambda t: f"IF(debt_locked=1,has_debt*INDEX(held_interest,{yd(t)}),{d('open', t)}*interest_rate)",
+            lambda t: f"IF(debt_locked=1,has_debt*INDEX(held_interest,{yd(t)}),{d('open', t)}*{d('rate', t)})",
             "money", t0=lambda t: "0", name="debt_interest")
     dt.line("ds", "Debt service (locked: held; resized: the capacity service)", "{cur}",
             lambda t: f"IF(debt_locked=1,has_debt*INDEX(held_debt_service,{yd(t)}),{d('cap_ds', t)})",
@@ -423,11 +476,11 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
             name="sizing_cfads")
     dt.line("s_dscr", "DSCR, sizing case", "x",
             lambda t: f"IF({d('ds', t)}>0,{d('s_cfads', t)}/{d('ds', t)},\"\")", "ratio", name="sizing_dscr")
-    dt.line("target", "Target DSCR", "x", lambda t: f"IF({d('tenor', t)}=1,target_dscr,\"\")", "ratio")
+    dt.line("target", "Target DSCR", "x", lambda t: f"IF({d('tenor', t)}=1,{d('tgt', t)},\"\")", "ratio")
     dt.line("p50_dscr", "DSCR, P50 case (Cash flow)", "x", lambda t: cf.x("dscr", t), "ratio")
     dt.line("check", "Check, resized: sizing DSCR meets the target (= target / scale); locked: n/a", "1 = OK",
-            lambda t: f"IF(OR(debt_locked=1,{d('ds', t)}<=0),1,IF(ABS({d('s_dscr', t)}-target_dscr/debt_service_scale)"
-                      f"<={CHECK_TOL}*target_dscr,1,0))", "ok", name="sizing_dscr_check")
+            lambda t: f"IF(OR(debt_locked=1,{d('ds', t)}<=0),1,IF(ABS({d('s_dscr', t)}-{d('tgt', t)}/debt_service_scale)"
+                      f"<={CHECK_TOL}*{d('tgt', t)},1,0))", "ok", name="sizing_dscr_check")
 
     # ---- back on the cash-flow sheet: the schedule, levered tax, CFADS and equity
     cf.section("Debt (from the Debt sheet) and tax with interest")
@@ -443,9 +496,17 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
     cf.line("ds", "Debt service", "{cur}", lambda t: dt.x("ds", t), "money", name="annual_debt_service")
     cf.line("dscr", "DSCR", "x", lambda t: f"IF({c('ds', t)}>0,{c('cfads', t)}/{c('ds', t)},\"\")", "ratio",
             name="annual_dscr")
-    cf.line("equity", "Equity cash flow", "{cur}",
-            lambda t: f"{c('cfads', t)}-{c('ds', t)}-IF({y(t)}=0,capex_total+debt_fee-debt_at_close,0)", "money",
-            name="annual_equity_cash_flow", bold=True)
+    equity0 = "-equity_before_reserves"
+    if structure_of(scn) is None:
+        cf.line("equity", "Equity cash flow", "{cur}",
+                lambda t: f"{c('cfads', t)}-{c('ds', t)}-IF({y(t)}=0,{equity0[1:]},0)", "money",
+                name="annual_equity_cash_flow", bold=True)
+    else:
+        cf.section("Cash waterfall: reserve accounts, lock-up and distributions")
+        waterfall_block(cf, "w_", lambda t: c("cfads", t), lambda t: c("ds", t), lambda t: en.x("share", t),
+                        equity0, name="annual_")
+        cf.line("equity", "Equity cash flow (from the waterfall)", "{cur}", lambda t: c("w_equity", t), "money",
+                name="annual_equity_cash_flow", bold=True)
     cf.line("eq_cum", "Cumulative equity cash flow", "{cur}", lambda t: f"{p('eq_cum', t)}+{c('equity', t)}",
             "money", t0=lambda t: c("equity", t))
     cf.line("payback", "Year if the cumulative equity cash flow is non-negative (within the life)", "year",
@@ -458,9 +519,13 @@ def write_cashflow_and_debt(book: Book, scn, en: Timeline) -> tuple[Timeline, Ti
     cf.line("df_real", "At the real discount rate", "-", lambda t: f"(1+real_rate)^-{y(t)}", "factor",
             name="df_real")
     cf.line("df_int", "At the debt's interest rate (LLCR; locked: the rate at close)", "-",
-            lambda t: f"(1+IF(debt_locked=1,interest_rate_held,interest_rate))^-{y(t)}", "factor",
+            lambda t: f"(1+IF(debt_locked=1,interest_rate_held,interest_rate))^-{en.x('clock', t)}", "factor",
             name="df_interest")
 
+    if scn.construction is not None:
+        dsra0 = cf.x("w_dtgt", 0) if structure_of(scn) is not None else "0"
+        funding_cells.update(write_funding(dt, scn, dsra0, dt.pass_rows))
+        funding_cells["dsra0"] = dsra0
     en.render()
     cf.render()
     dt.render()
