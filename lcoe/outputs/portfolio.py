@@ -6,10 +6,9 @@ Only presentation: every figure comes from :mod:`lcoe.analysis.portfolio_results
 from __future__ import annotations
 
 import json
-import textwrap
 
 from lcoe.outputs.report import fmt, heading
-from lcoe.outputs.tables import col, render, wrap
+from lcoe.outputs.tables import col, render, warning_lines, wrap
 
 WIDTH = 100
 MAX_MATRIX_SITES = 12      # the correlation matrix is printed for up to this many sites
@@ -58,8 +57,7 @@ def to_table(d: dict, width: int | None = WIDTH, wide: bool = False) -> str:
     tw = None if wide else width
 
     def _wrap(text: str, indent: str = "") -> list[str]:
-        return textwrap.wrap(text, max(40, width or WIDTH), initial_indent=indent,
-                             subsequent_indent=" " * len(indent) if indent else "  ")
+        return wrap(text, width or None, indent, " " * len(indent) if indent else "  ")
 
     lines = heading(d["portfolio"], d["source"], d["caution"], width=width)
     if corr["rule"] == "distance":
@@ -93,11 +91,7 @@ def to_table(d: dict, width: int | None = WIDTH, wide: bool = False) -> str:
                        f"{fmt(p['prob_any_site_min_dscr_below_1'], 'pct')} %.")
     lines.append("")
     lines.extend(_annual_table(d, cur, tw))
-    if d["warnings"]:
-        lines.append("")
-        lines.append("Warnings")
-        for w in d["warnings"]:
-            lines += _wrap(w, "  - ")
+    lines += warning_lines(d["warnings"], width)
     out = "\n".join(lines) + "\n"
     return out
 

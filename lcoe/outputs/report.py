@@ -13,7 +13,7 @@ import textwrap
 from lcoe.analysis.study import Report
 from lcoe.inputs.about import CAUTION
 from lcoe.outputs.files import write_csv
-from lcoe.outputs.tables import col, render, wrap
+from lcoe.outputs.tables import col, render, warning_lines, wrap
 
 
 def to_json(report: Report) -> str:
@@ -175,11 +175,7 @@ def to_table(report: Report, *, yearly: bool = True, width: int | None = WIDTH, 
     if d["variants"]:
         lines.append("")
         lines.extend(variants_table(d, cur, tw))
-    if d["warnings"]:
-        lines.append("")
-        lines.append("Warnings")
-        for x in d["warnings"]:
-            lines += textwrap.wrap(x, max(40, width or WIDTH), initial_indent="  - ", subsequent_indent="    ")
+    lines += warning_lines(d["warnings"], width)
     return "\n".join(lines) + "\n"
 
 

@@ -105,3 +105,13 @@ def wrap(text: str, width: int | None = DEFAULT_WIDTH, indent: str = "", subsequ
     w = max(40, DEFAULT_WIDTH if width is None else width)
     return textwrap.wrap(text, w, initial_indent=indent,
                          subsequent_indent=indent if subsequent is None else subsequent) or [""]
+
+
+def warning_lines(warnings: list[str], width: int | None = DEFAULT_WIDTH) -> list[str]:
+    """The closing "Warnings" block of a table: a blank line, the title, each warning wrapped."""
+    if not warnings:
+        return []
+    out = ["", "Warnings"]
+    for w in warnings:
+        out += wrap(w, width or None, "  - ", "    ")
+    return out
